@@ -1,0 +1,1 @@
+//! Alert engine: kinds, severities, sustained windows and hysteresis (pure, no I/O).

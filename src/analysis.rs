@@ -1,0 +1,1 @@
+//! Run-level analysis: applies the statistics in `stats` to a mapped table (pure, no I/O).

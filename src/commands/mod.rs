@@ -1,0 +1,1 @@
+//! One module per subcommand: each turns validated settings into output and an outcome.

@@ -1,0 +1,1 @@
+//! Settings: `plateau.toml` (current folder or `--config`) merged with the command line.

@@ -1,0 +1,1 @@
+//! Typed errors with context (file, line, key).

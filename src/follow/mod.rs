@@ -1,0 +1,1 @@
+//! Following live logs: growing, truncated, rotated, deleted, not yet created, or stdin.

@@ -1,0 +1,1 @@
+//! Reading a whole file: streamed, split on line boundaries, parsed on both cores.

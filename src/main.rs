@@ -1,0 +1,2 @@
+//! Thin binary: everything lives in the library.
+fn main() {}

@@ -1,0 +1,1 @@
+//! Column mapping: roles and units, guessed from header names or given with `--map`.

@@ -1,0 +1,1 @@
+//! Headless outputs: text, markdown, JSON reports and SVG plots.

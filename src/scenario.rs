@@ -1,0 +1,1 @@
+//! Invented MD scenarios: synthetic energy logs for the demo, examples and benchmarks.

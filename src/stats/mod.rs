@@ -1,0 +1,1 @@
+//! Statistics as pure functions on slices (no I/O, no clocks). Each names its method.

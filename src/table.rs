@@ -1,0 +1,1 @@
+//! Parsed rows of one run: segments, column-major values, source lines, restarts.

@@ -1,0 +1,1 @@
+//! Units and conversions to the canonical units; quantities with suffixes; schedules.
