@@ -1,1 +1,2 @@
 //! One module per subcommand: each turns validated settings into output and an outcome.
+pub mod generate;
