@@ -1,0 +1,533 @@
+//! Detectors: turn statistics (computed by `analysis` with `stats`) into observations for the
+//! engine, with the windows and hysteresis of each kind. All pure; O(rows) per scan.
+
+use std::ops::Range;
+
+use super::{format_number, Alert, AlertEngine, AlertKind, RowLocator, Severity, Sustain, Target};
+
+/// One column's data for the off-target test.
+#[derive(Debug, Clone, Copy)]
+pub struct OffTargetInput<'a> {
+    /// `TemperatureOffTarget` or `PressureOffTarget`.
+    pub kind: AlertKind,
+    pub column: &'a str,
+    pub unit: &'a str,
+    /// Values by row (row `i` is `values[i]`).
+    pub values: &'a [f64],
+    /// Simulated time by row, ps.
+    pub times: &'a [f64],
+    pub target: &'a Target,
+    /// Allowed offset before the statistical margin, in the column's unit.
+    pub tolerance: f64,
+    /// Statistical inefficiency of the column (g ≥ 1), for the standard error of a window
+    /// mean: SE = s·sqrt(g/W).
+    pub inefficiency: f64,
+    /// First row that may be tested (the onset; 0 along a schedule).
+    pub start_row: usize,
+}
+
+/// Evidence of a drift fit.
+#[derive(Debug, Clone, Copy)]
+pub struct DriftEvidence<'a> {
+    pub column: &'a str,
+    pub unit: &'a str,
+    pub slope_per_ns: f64,
+    pub stderr_per_ns: f64,
+    /// Slope in k_B·T per ns per degree of freedom, when it can be normalised.
+    pub kt_per_ns_per_dof: Option<f64>,
+    /// First row of the fit (the onset).
+    pub from_row: usize,
+}
+
+/// Evidence of the fluctuation-size test.
+#[derive(Debug, Clone, Copy)]
+pub struct FluctuationEvidence<'a> {
+    pub column: &'a str,
+    pub observed: f64,
+    pub expected: f64,
+    pub low: f64,
+    pub high: f64,
+    pub degrees_of_freedom: f64,
+    /// First row of the tested part (the onset).
+    pub from_row: usize,
+}
+
+/// Key used for run-wide alerts (no column).
+pub const RUN: &str = "";
+
+impl AlertEngine {
+    /// Off-target test over rows `rows`: at each row whose window of
+    /// `off_target_window` rows (from `start_row` on) is complete, the window mean is
+    /// compared with the mean target over the same rows. Raised after the condition held
+    /// for one window of rows, cleared after two.
+    pub fn scan_off_target(
+        &mut self,
+        input: &OffTargetInput<'_>,
+        rows: Range<usize>,
+        locator: &dyn RowLocator,
+    ) -> usize {
+        let w = self.thresholds().off_target_window.max(2);
+        let sigmas = self.thresholds().off_target_sigmas;
+        let wu = u32::try_from(w).unwrap_or(u32::MAX);
+        let sustain = Sustain::new(wu, wu.saturating_mul(2));
+        let g = if input.inefficiency.is_finite() && input.inefficiency >= 1.0 {
+            input.inefficiency
+        } else {
+            1.0
+        };
+        let values = input.values;
+        let times = input.times;
+        let start = rows.start.max(input.start_row);
+        let end = rows.end.min(values.len()).min(times.len());
+        if start >= end {
+            return 0;
+        }
+        // Window statistics for each row, computed with sliding sums shifted by a
+        // reference value (keeps the sums small: no cancellation).
+        let shift = values
+            .get(input.start_row..end)
+            .and_then(|v| v.iter().copied().find(|x| x.is_finite()))
+            .unwrap_or(0.0);
+        let mut stats: Vec<Option<(f64, f64, f64)>> = Vec::with_capacity(end - start);
+        let mut sum = 0.0;
+        let mut sum2 = 0.0;
+        let mut tsum = 0.0;
+        let mut bad = 0usize;
+        let first = start.saturating_sub(w - 1).max(input.start_row);
+        let add = |i: usize,
+                   sign: f64,
+                   sum: &mut f64,
+                   sum2: &mut f64,
+                   tsum: &mut f64,
+                   bad: &mut usize| {
+            let v = values.get(i).copied().unwrap_or(f64::NAN);
+            let t = times.get(i).copied().unwrap_or(f64::NAN);
+            if v.is_finite() && t.is_finite() {
+                let d = v - shift;
+                *sum += sign * d;
+                *sum2 += sign * d * d;
+                *tsum += sign * input.target.value_at(t);
+            } else if sign > 0.0 {
+                *bad += 1;
+            } else {
+                *bad = bad.saturating_sub(1);
+            }
+        };
+        for i in first..start {
+            add(i, 1.0, &mut sum, &mut sum2, &mut tsum, &mut bad);
+        }
+        for r in start..end {
+            add(r, 1.0, &mut sum, &mut sum2, &mut tsum, &mut bad);
+            if r >= input.start_row + w {
+                add(r - w, -1.0, &mut sum, &mut sum2, &mut tsum, &mut bad);
+            }
+            let filled = r + 1 - input.start_row;
+            if filled < w || bad > 0 {
+                stats.push(None);
+                continue;
+            }
+            let n = w as f64;
+            let mean_d = sum / n;
+            let var = ((sum2 - n * mean_d * mean_d) / (n - 1.0)).max(0.0);
+            let se = (var * g / n).sqrt();
+            stats.push(Some((mean_d + shift, tsum / n, se)));
+        }
+        let tolerance = input.tolerance;
+        let kind = input.kind;
+        let column = input.column;
+        let unit = input.unit;
+        let name = match kind {
+            AlertKind::PressureOffTarget => "pressure",
+            _ => "temperature",
+        };
+        let stat_at = |r: usize| -> Option<(f64, f64, f64)> {
+            r.checked_sub(start)
+                .and_then(|i| stats.get(i).copied().flatten())
+        };
+        self.scan(
+            kind,
+            column,
+            sustain,
+            start..end,
+            |r| stat_at(r).is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se),
+            |since, now| {
+                let (m, t, se) = stat_at(now).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
+                let direction = if m < t { "below" } else { "above" };
+                Alert::new(
+                    kind,
+                    Severity::Warning,
+                    format!(
+                        "mean {name} over the last {w} rows is {} {direction} its target {} \
+                         (allowed {} + {sigmas} SE = {}); check the {} settings and coupling",
+                        format_number((m - t).abs(), unit),
+                        format_number(t, unit),
+                        format_number(tolerance, unit),
+                        format_number(tolerance + sigmas * se, unit),
+                        if name == "pressure" {
+                            "barostat"
+                        } else {
+                            "thermostat"
+                        },
+                    ),
+                )
+                .column(column)
+                .value(m, unit)
+                .at(since, locator)
+            },
+        )
+    }
+
+    /// One evaluation of the drift of the conserved energy (`index` increases with each
+    /// evaluation). Significant when |slope|/stderr > `drift_sigmas`; warning above
+    /// `drift_warning`, critical above `drift_critical` (k_B·T/ns/dof); `info` when no
+    /// normalisation is known. Cleared after three evaluations without it.
+    pub fn evaluate_drift(
+        &mut self,
+        ev: &DriftEvidence<'_>,
+        index: u64,
+        locator: &dyn RowLocator,
+    ) -> bool {
+        let t = self.thresholds().clone();
+        let significant = ev.stderr_per_ns.is_finite()
+            && ev.stderr_per_ns > 0.0
+            && ev.slope_per_ns.is_finite()
+            && (ev.slope_per_ns / ev.stderr_per_ns).abs() > t.drift_sigmas;
+        let severity = match ev.kt_per_ns_per_dof {
+            Some(k) if significant && k.abs() >= t.drift_critical => Some(Severity::Critical),
+            Some(k) if significant && k.abs() >= t.drift_warning => Some(Severity::Warning),
+            Some(_) => None,
+            None if significant => Some(Severity::Info),
+            None => None,
+        };
+        let make = |severity: Severity| {
+            let normalised = match ev.kt_per_ns_per_dof {
+                Some(k) => format!(
+                    " = {} k_B·T/ns per degree of freedom (warning at {}, critical at {})",
+                    format_number(k, ""),
+                    format_number(t.drift_warning, ""),
+                    format_number(t.drift_critical, "")
+                ),
+                None => " (give --atoms or --dof, or map a kinetic column, to judge its size)"
+                    .to_string(),
+            };
+            Alert::new(
+                AlertKind::Drift,
+                severity,
+                format!(
+                    "{} drifts by {} ± {} per ns{normalised}; check the time step, constraint \
+                     tolerance and cut-off treatment",
+                    ev.column,
+                    format_number(ev.slope_per_ns, ev.unit),
+                    format_number(ev.stderr_per_ns, ev.unit),
+                ),
+            )
+            .column(ev.column)
+            .value(ev.slope_per_ns, &format!("{}/ns", ev.unit))
+            .at(ev.from_row, locator)
+        };
+        let sustain = Sustain::new(1, 3);
+        match severity {
+            Some(s) => {
+                let raised =
+                    self.evaluate(AlertKind::Drift, ev.column, sustain, index, true, || {
+                        make(s)
+                    });
+                if !raised {
+                    self.escalate(AlertKind::Drift, ev.column, s, || make(s));
+                }
+                raised
+            }
+            None => self.evaluate(AlertKind::Drift, ev.column, sustain, index, false, || {
+                make(Severity::Info)
+            }),
+        }
+    }
+
+    /// One evaluation of the fluctuation-size test; `verdict_wrong` when σ_T/⟨T⟩ is outside
+    /// the band. Cleared after three evaluations inside it.
+    pub fn evaluate_fluctuation(
+        &mut self,
+        ev: &FluctuationEvidence<'_>,
+        verdict_wrong: bool,
+        index: u64,
+        locator: &dyn RowLocator,
+    ) -> bool {
+        let sustain = Sustain::new(1, 3);
+        self.evaluate(
+            AlertKind::FluctuationSize,
+            ev.column,
+            sustain,
+            index,
+            verdict_wrong,
+            || {
+                let (size, hint) = if ev.observed < ev.low {
+                    (
+                        "too small",
+                        "the thermostat suppresses fluctuations (a weak-coupling scheme does not \
+                         sample the canonical ensemble), or the degrees of freedom are wrong",
+                    )
+                } else {
+                    (
+                        "too large",
+                        "the system is heating or cooling, or the degrees of freedom are wrong",
+                    )
+                };
+                Alert::new(
+                    AlertKind::FluctuationSize,
+                    Severity::Warning,
+                    format!(
+                        "{} fluctuates {size}: σ/mean = {}, canonical {} for N_df = {} (band {} .. {}); {hint}",
+                        ev.column,
+                        format_number(ev.observed, ""),
+                        format_number(ev.expected, ""),
+                        format_number(ev.degrees_of_freedom, ""),
+                        format_number(ev.low, ""),
+                        format_number(ev.high, ""),
+                    ),
+                )
+                .column(ev.column)
+                .value(ev.observed, "")
+                .at(ev.from_row, locator)
+            },
+        )
+    }
+
+    /// Stall check at wall time `now_s` (seconds, any epoch shared with `last_arrival_s`).
+    /// `median_gap_s` is the median gap between row arrivals; `last_row` the last row seen.
+    pub fn evaluate_stall(
+        &mut self,
+        now_s: f64,
+        last_arrival_s: f64,
+        median_gap_s: Option<f64>,
+        last_row: Option<usize>,
+        index: u64,
+        locator: &dyn RowLocator,
+    ) -> bool {
+        let limit = self.thresholds().stall_limit_seconds(median_gap_s);
+        let waited = now_s - last_arrival_s;
+        let stalled = waited.is_finite() && waited > limit;
+        self.evaluate(
+            AlertKind::Stalled,
+            RUN,
+            Sustain::new(1, 1),
+            index,
+            stalled,
+            || {
+                let a = Alert::new(
+                    AlertKind::Stalled,
+                    Severity::Warning,
+                    format!(
+                        "no new row for {} (limit {}); check that the job is still running and \
+                         not stuck writing or waiting in a queue",
+                        format_number(waited, "s"),
+                        format_number(limit, "s")
+                    ),
+                )
+                .value(waited, "s");
+                match last_row {
+                    Some(r) => a.at(r, locator),
+                    None => a,
+                }
+            },
+        )
+    }
+
+    /// A restart: rows from `row` on replaced `replaced` earlier rows.
+    pub fn restart(&mut self, row: usize, replaced: u64, locator: &dyn RowLocator) {
+        let a = Alert::new(
+            AlertKind::Restart,
+            Severity::Info,
+            format!(
+                "the step counter went back: {replaced} earlier rows were replaced by the rows \
+                 from here on (a restart from a checkpoint, or a rewritten file)"
+            ),
+        )
+        .value(replaced as f64, "rows")
+        .at(row, locator);
+        self.push_event(a);
+    }
+
+    /// Skipped data-like lines so far: `info` from the first, `warning` once they exceed
+    /// `skipped_warning_fraction` of the data lines. `first_line` is the first skipped line.
+    pub fn evaluate_skipped(&mut self, skipped: u64, data_lines: u64, first_line: Option<u64>) {
+        if skipped == 0 {
+            return;
+        }
+        let fraction = skipped as f64 / data_lines.max(1) as f64;
+        let severity = if fraction > self.thresholds().skipped_warning_fraction {
+            Severity::Warning
+        } else {
+            Severity::Info
+        };
+        let make = || {
+            let mut a = Alert::new(
+                AlertKind::SkippedLines,
+                severity,
+                format!(
+                    "{skipped} data-like lines could not be read ({} of the data lines); the \
+                     report lists them with line numbers: check the column mapping and the \
+                     writer",
+                    format_percent(fraction)
+                ),
+            )
+            .value(skipped as f64, "lines");
+            a.line = first_line;
+            a
+        };
+        let raised = self.evaluate(
+            AlertKind::SkippedLines,
+            RUN,
+            Sustain::new(1, 1),
+            0,
+            true,
+            make,
+        );
+        if !raised {
+            self.escalate(AlertKind::SkippedLines, RUN, severity, make);
+        }
+    }
+}
+
+fn format_percent(f: f64) -> String {
+    format!("{} %", format_number(f * 100.0, ""))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::{SliceLocator, Thresholds};
+    use super::*;
+
+    fn series(n: usize, f: impl Fn(usize) -> f64) -> (Vec<f64>, Vec<f64>, Vec<u64>) {
+        let v = (0..n).map(f).collect();
+        let t = (0..n).map(|i| i as f64).collect();
+        let l = (0..n).map(|i| i as u64 + 2).collect();
+        (v, t, l)
+    }
+
+    /// Deterministic noise in [-1, 1] (a fixed LCG; not random in the statistical sense,
+    /// enough for a window test).
+    fn noise(i: usize) -> f64 {
+        let x = (i as u64)
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        ((x >> 33) as f64 / (1u64 << 31) as f64) * 2.0 - 1.0
+    }
+
+    fn off_target(values: &[f64], times: &[f64], lines: &[u64], target: &Target) -> Vec<Alert> {
+        let mut e = AlertEngine::new(Thresholds::default());
+        let input = OffTargetInput {
+            kind: AlertKind::TemperatureOffTarget,
+            column: "temperature",
+            unit: "K",
+            values,
+            times,
+            target,
+            tolerance: 5.0,
+            inefficiency: 2.0,
+            start_row: 0,
+        };
+        let loc = SliceLocator {
+            lines,
+            times,
+            offset: 0,
+        };
+        e.scan_off_target(&input, 0..values.len(), &loc);
+        e.alerts().to_vec()
+    }
+
+    #[test]
+    fn off_target_raised_inside_the_window_after_the_shift() {
+        // 300 K ± 4.5 K noise, then 285 K from row 400.
+        let (v, t, l) = series(800, |i| {
+            (if i < 400 { 300.0 } else { 285.0 }) + 4.5 * noise(i)
+        });
+        let a = off_target(&v, &t, &l, &Target::constant(300.0));
+        assert_eq!(a.len(), 1, "{a:?}");
+        let row = a[0].row.unwrap();
+        assert!((400..450).contains(&row), "row {row}");
+        assert_eq!(a[0].kind, AlertKind::TemperatureOffTarget);
+        assert!(a[0].value.unwrap() < 295.0);
+        assert!(a[0].message.contains("below"));
+    }
+
+    #[test]
+    fn off_target_not_raised_on_target_or_by_one_wild_row() {
+        let (mut v, t, l) = series(800, |i| 300.0 + 4.5 * noise(i));
+        v[500] = 200.0;
+        assert!(off_target(&v, &t, &l, &Target::constant(300.0)).is_empty());
+    }
+
+    #[test]
+    fn off_target_follows_a_schedule() {
+        // Ramp 10 K -> 300 K over rows 0..100, then held: on schedule, no alert.
+        let target = Target::schedule(vec![(0.0, 10.0), (100.0, 300.0)]).unwrap();
+        let (v, t, l) = series(600, |i| target.value_at(i as f64) + 2.0 * noise(i));
+        assert!(off_target(&v, &t, &l, &target).is_empty());
+        // Held at 10 K instead: raised.
+        let (v, t, l) = series(600, |i| 10.0 + 2.0 * noise(i));
+        assert_eq!(off_target(&v, &t, &l, &target).len(), 1);
+    }
+
+    #[test]
+    fn drift_severity_follows_normalised_size() {
+        let lines: Vec<u64> = (1..100).collect();
+        let times: Vec<f64> = (0..99).map(f64::from).collect();
+        let loc = SliceLocator {
+            lines: &lines,
+            times: &times,
+            offset: 0,
+        };
+        let ev = |k: Option<f64>, slope: f64| DriftEvidence {
+            column: "conserved",
+            unit: "kJ/mol",
+            slope_per_ns: slope,
+            stderr_per_ns: 10.0,
+            kt_per_ns_per_dof: k,
+            from_row: 20,
+        };
+        let mut e = AlertEngine::new(Thresholds::default());
+        // Not significant (|b|/SE = 2): nothing, whatever its size.
+        assert!(!e.evaluate_drift(&ev(Some(0.5), 20.0), 0, &loc));
+        // Significant but below 0.01 kT/ns/dof: nothing.
+        assert!(!e.evaluate_drift(&ev(Some(0.005), 400.0), 1, &loc));
+        // Warning, then escalated to critical.
+        assert!(e.evaluate_drift(&ev(Some(0.02), 400.0), 2, &loc));
+        assert_eq!(e.alerts()[0].severity, Severity::Warning);
+        assert_eq!(e.alerts()[0].row, Some(20));
+        assert_eq!(e.alerts()[0].line, Some(21));
+        assert!(!e.evaluate_drift(&ev(Some(0.2), 4000.0), 3, &loc));
+        assert_eq!(e.alerts().len(), 2);
+        assert_eq!(e.alerts()[1].severity, Severity::Critical);
+        // Unnormalised but significant: info.
+        let mut e = AlertEngine::new(Thresholds::default());
+        assert!(e.evaluate_drift(&ev(None, 400.0), 0, &loc));
+        assert_eq!(e.alerts()[0].severity, Severity::Info);
+    }
+
+    #[test]
+    fn stall_uses_the_limit_and_clears_on_a_new_row() {
+        let mut e = AlertEngine::new(Thresholds::default());
+        let loc = super::super::NoLocator;
+        // Rows every 2 s: limit is the one-minute minimum.
+        assert!(!e.evaluate_stall(159.0, 100.0, Some(2.0), Some(5), 0, &loc));
+        assert!(e.evaluate_stall(161.0, 100.0, Some(2.0), Some(5), 1, &loc));
+        assert!(e.is_active(AlertKind::Stalled, RUN));
+        assert!(!e.evaluate_stall(162.0, 161.5, Some(2.0), Some(6), 2, &loc));
+        assert!(!e.is_active(AlertKind::Stalled, RUN));
+    }
+
+    #[test]
+    fn skipped_lines_info_then_warning() {
+        let mut e = AlertEngine::new(Thresholds::default());
+        e.evaluate_skipped(0, 1000, None);
+        assert!(e.alerts().is_empty());
+        e.evaluate_skipped(1, 1000, Some(17));
+        assert_eq!(e.alerts()[0].severity, Severity::Info);
+        assert_eq!(e.alerts()[0].line, Some(17));
+        e.evaluate_skipped(1, 1000, Some(17));
+        assert_eq!(e.alerts().len(), 1);
+        e.evaluate_skipped(30, 1000, Some(17));
+        assert_eq!(e.alerts().len(), 2);
+        assert_eq!(e.alerts()[1].severity, Severity::Warning);
+    }
+}

@@ -1,0 +1,3 @@
+//! `plateau check FILE...`: alerts for job scripts, with an exit code.
+
+pub mod hook;

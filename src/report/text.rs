@@ -1,0 +1,322 @@
+//! Text and markdown renderings of a [`Report`], for people.
+
+use std::fmt::Write as _;
+
+use crate::alert::format_number;
+
+use super::model::{ColumnReport, EquilibrationState, Report};
+
+/// `mean ± error` rounded to the error's two significant digits.
+pub fn value_with_error(mean: f64, error: Option<f64>) -> String {
+    match error.filter(|e| e.is_finite() && *e > 0.0) {
+        Some(e) if mean.is_finite() => {
+            let exponent = e.log10().floor() as i32;
+            let decimals = (1 - exponent).max(0) as usize;
+            if decimals > 8 || mean.abs() >= 1e9 {
+                format!("{mean:.4e} ± {e:.2e}")
+            } else {
+                format!("{mean:.decimals$} ± {e:.decimals$}")
+            }
+        }
+        _ => format_number(mean, ""),
+    }
+}
+
+fn opt_number(v: Option<f64>, unit: &str) -> String {
+    v.map(|x| format_number(x, unit))
+        .unwrap_or_else(|| "-".to_string())
+}
+
+fn onset_text(c: &ColumnReport) -> String {
+    match (c.equilibration_state, c.equilibration) {
+        (EquilibrationState::Equilibrated, Some(o)) => match o.time {
+            Some(t) => format!("{} ps", format_number(t, "")),
+            None => format!("row {}", o.row),
+        },
+        (EquilibrationState::NotYet, _) => "not yet".to_string(),
+        (EquilibrationState::TooShort, _) => "too short".to_string(),
+        (EquilibrationState::Equilibrated, None) => "-".to_string(),
+    }
+}
+
+fn run_onset_text(r: &Report) -> String {
+    match (r.equilibration_state, r.equilibration) {
+        (EquilibrationState::Equilibrated, Some(o)) => {
+            let when = match o.time {
+                Some(t) => format!("row {} (t = {})", o.row, format_number(t, "ps")),
+                None => format!("row {}", o.row),
+            };
+            if r.equilibration_from.is_empty() {
+                format!("equilibrated from {when}")
+            } else {
+                format!(
+                    "equilibrated from {when}, the latest onset of {}",
+                    r.equilibration_from.join(", ")
+                )
+            }
+        }
+        (EquilibrationState::NotYet, _) => {
+            "not equilibrated yet: the quantities that matter are still relaxing".to_string()
+        }
+        (EquilibrationState::TooShort, _) => "too few rows to judge equilibration".to_string(),
+        (EquilibrationState::Equilibrated, None) => "equilibration unknown".to_string(),
+    }
+}
+
+fn pad(s: &str, width: usize) -> String {
+    let n = s.chars().count();
+    if n >= width {
+        s.to_string()
+    } else {
+        format!("{s}{}", " ".repeat(width - n))
+    }
+}
+
+fn column_rows(r: &Report) -> Vec<[String; 7]> {
+    r.columns
+        .iter()
+        .map(|c| {
+            let (mean, std, g, neff) = match &c.production {
+                Some(p) => (
+                    value_with_error(p.mean, p.sem.or(p.sem_from_g)),
+                    opt_number(p.std, ""),
+                    opt_number(p.inefficiency, ""),
+                    p.effective_samples
+                        .map(|n| format!("{n:.0}"))
+                        .unwrap_or_else(|| "-".to_string()),
+                ),
+                None => (
+                    "-".to_string(),
+                    "-".to_string(),
+                    "-".to_string(),
+                    "-".to_string(),
+                ),
+            };
+            let unit = if c.unit_assumed {
+                format!("{} (assumed)", c.unit)
+            } else {
+                c.unit.clone()
+            };
+            [c.name.clone(), unit, onset_text(c), mean, std, g, neff]
+        })
+        .collect()
+}
+
+const COLUMN_HEADERS: [&str; 7] = ["column", "unit", "onset", "mean ± sem", "std", "g", "N_eff"];
+
+fn findings(r: &Report) -> Vec<String> {
+    let mut out = Vec::new();
+    for c in &r.columns {
+        if let Some(d) = &c.drift {
+            let mut s = format!(
+                "drift of {}: {} per ns ({}% interval {} .. {})",
+                c.name,
+                value_with_error(d.slope_per_ns, Some(d.stderr_per_ns)),
+                format_number(d.confidence * 100.0, ""),
+                format_number(d.ci_low_per_ns, ""),
+                format_number(d.ci_high_per_ns, c.unit.as_str()),
+            );
+            if let Some(a) = d.per_atom_per_ns {
+                s.push_str(&format!(", {} per atom", format_number(a, "")));
+            }
+            if let Some(k) = d.kt_per_ns_per_dof {
+                s.push_str(&format!(
+                    ", {} k_B·T/ns per degree of freedom",
+                    format_number(k, "")
+                ));
+            }
+            s.push_str(if d.significant {
+                "; significant"
+            } else {
+                "; not significant"
+            });
+            out.push(s);
+        }
+        if let Some(f) = &c.fluctuation {
+            out.push(format!(
+                "fluctuation of {}: σ/mean = {}, canonical {} (band {} .. {}, N_df {}): {}",
+                c.name,
+                format_number(f.observed, ""),
+                format_number(f.expected, ""),
+                format_number(f.low, ""),
+                format_number(f.high, ""),
+                format_number(f.degrees_of_freedom, ""),
+                f.verdict
+            ));
+        }
+        if let Some(t) = &c.trend {
+            if t.still_changing && c.drift.is_none() {
+                out.push(format!(
+                    "trend in {} after its onset: {} per ns (p = {}): still changing",
+                    c.name,
+                    opt_number(t.slope_per_ns, c.unit.as_str()),
+                    opt_number(t.p_value, "")
+                ));
+            }
+        }
+    }
+    out
+}
+
+fn header_lines(r: &Report) -> Vec<String> {
+    let mut lines = Vec::new();
+    lines.push(format!(
+        "status: {}   rows: {}   segments: {}   skipped lines: {}",
+        r.status.name(),
+        r.rows,
+        r.segments.len(),
+        r.skipped_lines
+    ));
+    if let Some(e) = &r.ensemble {
+        let mut s = format!("ensemble: {} ({}: {})", e.name, e.how, e.reason);
+        if let Some(n) = r.degrees_of_freedom {
+            s.push_str(&format!("   degrees of freedom: {}", format_number(n, "")));
+        }
+        lines.push(s);
+    }
+    lines.push(run_onset_text(r));
+    if !r.restarts.is_empty() {
+        let replaced: u64 = r.restarts.iter().map(|x| x.replaced).sum();
+        lines.push(format!(
+            "restarts: {} ({} rows replaced)",
+            r.restarts.len(),
+            replaced
+        ));
+    }
+    if r.source.last_line_ignored {
+        lines.push(
+            "the last line has no newline and was ignored (it may be a row cut in half)"
+                .to_string(),
+        );
+    }
+    if let Some(t) = &r.throughput {
+        let mut s = format!("throughput: {} ns/day", format_number(t.ns_per_day, ""));
+        if let Some(e) = &r.eta {
+            s.push_str(&format!(
+                ", {} s to {} ps",
+                format_number(e.seconds, ""),
+                format_number(e.until_ps, "")
+            ));
+        }
+        lines.push(s);
+    }
+    lines
+}
+
+/// Plain text for a terminal.
+pub fn render_text(r: &Report) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "{}", r.source.path);
+    for l in header_lines(r) {
+        let _ = writeln!(out, "{l}");
+    }
+    out.push('\n');
+    let rows = column_rows(r);
+    let mut widths = COLUMN_HEADERS.map(|h| h.chars().count());
+    for row in &rows {
+        for (w, cell) in widths.iter_mut().zip(row.iter()) {
+            *w = (*w).max(cell.chars().count());
+        }
+    }
+    let line = |cells: &[String]| {
+        let parts: Vec<String> = cells
+            .iter()
+            .zip(widths.iter())
+            .map(|(c, w)| pad(c, *w))
+            .collect();
+        parts.join("  ").trim_end().to_string()
+    };
+    let headers: Vec<String> = COLUMN_HEADERS.iter().map(|s| s.to_string()).collect();
+    let _ = writeln!(out, "{}", line(&headers));
+    for row in &rows {
+        let _ = writeln!(out, "{}", line(row));
+    }
+    let f = findings(r);
+    if !f.is_empty() {
+        out.push('\n');
+        for l in f {
+            let _ = writeln!(out, "{l}");
+        }
+    }
+    out.push('\n');
+    if r.alerts.is_empty() {
+        let _ = writeln!(out, "alerts: none");
+    } else {
+        let _ = writeln!(out, "alerts: {}", r.alerts.len());
+        for a in &r.alerts {
+            let _ = writeln!(out, "  {}", a.to_alert().one_line());
+        }
+    }
+    out
+}
+
+fn md_escape(s: &str) -> String {
+    s.replace('|', "\\|")
+}
+
+/// Markdown for a lab notebook.
+pub fn render_markdown(r: &Report) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "# plateau report: `{}`\n",
+        r.source.path.replace('`', "'")
+    );
+    for l in header_lines(r) {
+        let _ = writeln!(out, "- {}", md_escape(&l));
+    }
+    out.push('\n');
+    let _ = writeln!(out, "| {} |", COLUMN_HEADERS.join(" | "));
+    let _ = writeln!(out, "|{}", "---|".repeat(COLUMN_HEADERS.len()));
+    for row in column_rows(r) {
+        let cells: Vec<String> = row.iter().map(|c| md_escape(c)).collect();
+        let _ = writeln!(out, "| {} |", cells.join(" | "));
+    }
+    let f = findings(r);
+    if !f.is_empty() {
+        let _ = writeln!(out, "\n## Findings\n");
+        for l in f {
+            let _ = writeln!(out, "- {}", md_escape(&l));
+        }
+    }
+    let _ = writeln!(out, "\n## Alerts\n");
+    if r.alerts.is_empty() {
+        let _ = writeln!(out, "None.");
+    } else {
+        let _ = writeln!(
+            out,
+            "| severity | kind | column | line | row | time (ps) | message |"
+        );
+        let _ = writeln!(out, "|---|---|---|---|---|---|---|");
+        for a in &r.alerts {
+            let _ = writeln!(
+                out,
+                "| {} | {} | {} | {} | {} | {} | {} |",
+                a.severity.name(),
+                a.kind.name(),
+                md_escape(a.column.as_deref().unwrap_or("-")),
+                a.line.map(|l| l.to_string()).unwrap_or_else(|| "-".into()),
+                a.row.map(|l| l.to_string()).unwrap_or_else(|| "-".into()),
+                opt_number(a.time, ""),
+                md_escape(&a.message)
+            );
+        }
+    }
+    let _ = writeln!(
+        out,
+        "\nThese verdicts are statistical advice from the data seen so far."
+    );
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn error_rounding_uses_two_significant_digits() {
+        assert_eq!(value_with_error(300.0234, Some(0.1149)), "300.02 ± 0.11");
+        assert_eq!(value_with_error(-41500.7, Some(12.3)), "-41501 ± 12");
+        assert_eq!(value_with_error(5.0, None), "5");
+    }
+}
