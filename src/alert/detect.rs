@@ -22,8 +22,10 @@ pub struct OffTargetInput<'a> {
     /// Statistical inefficiency of the column (g ≥ 1), for the standard error of a window
     /// mean: SE = s·sqrt(g/W).
     pub inefficiency: f64,
-    /// First row that may be tested (the onset; 0 along a schedule).
+    /// First row (index into `values`) that may be tested (the onset; 0 along a schedule).
     pub start_row: usize,
+    /// Row of the run that `values[0]` is (rows of later segments continue the numbering).
+    pub row_offset: usize,
 }
 
 /// Evidence of a drift fit.
@@ -144,14 +146,18 @@ impl AlertEngine {
             r.checked_sub(start)
                 .and_then(|i| stats.get(i).copied().flatten())
         };
+        let off = input.row_offset;
         self.scan(
             kind,
             column,
             sustain,
-            start..end,
-            |r| stat_at(r).is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se),
+            off + start..off + end,
+            |r| {
+                stat_at(r - off)
+                    .is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se)
+            },
             |since, now| {
-                let (m, t, se) = stat_at(now).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
+                let (m, t, se) = stat_at(now - off).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
                 let direction = if m < t { "below" } else { "above" };
                 Alert::new(
                     kind,
@@ -425,6 +431,7 @@ mod tests {
             tolerance: 5.0,
             inefficiency: 2.0,
             start_row: 0,
+            row_offset: 0,
         };
         let loc = SliceLocator {
             lines,

@@ -446,25 +446,28 @@ impl AlertEngine {
         }
     }
 
-    /// Nonfinite values in rows `rows` of a column: raised at the first non-finite row,
-    /// critical; cleared after `nonfinite_clear_rows` finite rows.
+    /// Nonfinite values in rows `rows` (indices into `values`) of a column: raised at the
+    /// first non-finite row, critical; cleared after `nonfinite_clear_rows` finite rows.
+    /// `values[i]` is row `row_offset + i` of the run (alerts carry run rows).
     pub fn scan_nonfinite(
         &mut self,
         column: &str,
         unit: &str,
         values: &[f64],
         rows: Range<usize>,
+        row_offset: usize,
         locator: &dyn RowLocator,
     ) -> usize {
         let sustain = Sustain::immediate(self.thresholds.nonfinite_clear_rows);
+        let off = row_offset;
         self.scan(
             AlertKind::Nonfinite,
             column,
             sustain,
-            rows,
-            |r| values.get(r).is_some_and(|v| !v.is_finite()),
+            rows.start + off..rows.end + off,
+            |r| values.get(r - off).is_some_and(|v| !v.is_finite()),
             |since, _| {
-                let v = values.get(since).copied().unwrap_or(f64::NAN);
+                let v = values.get(since - off).copied().unwrap_or(f64::NAN);
                 Alert::new(
                     AlertKind::Nonfinite,
                     Severity::Critical,
@@ -509,7 +512,7 @@ mod tests {
         let lines: Vec<u64> = (10..16).collect();
         let times: Vec<f64> = (0..6).map(|i| i as f64 * 2.0).collect();
         let mut e = AlertEngine::new(Thresholds::default());
-        let n = e.scan_nonfinite("temp", "K", &values, 0..6, &locator(&lines, &times));
+        let n = e.scan_nonfinite("temp", "K", &values, 0..6, 0, &locator(&lines, &times));
         assert_eq!(n, 1);
         let a = &e.alerts()[0];
         assert_eq!(a.row, Some(2));
@@ -535,10 +538,10 @@ mod tests {
         let times: Vec<f64> = (0..300).map(f64::from).collect();
         let loc = locator(&lines, &times);
         let mut whole = AlertEngine::new(Thresholds::default());
-        whole.scan_nonfinite("x", "", &values, 0..300, &loc);
+        whole.scan_nonfinite("x", "", &values, 0..300, 0, &loc);
         let mut parts = AlertEngine::new(Thresholds::default());
         for chunk in [0..7, 7..41, 41..200, 200..300] {
-            parts.scan_nonfinite("x", "", &values, chunk, &loc);
+            parts.scan_nonfinite("x", "", &values, chunk, 0, &loc);
         }
         // Debug text compares NaN values too.
         assert_eq!(
