@@ -354,7 +354,7 @@ impl LogParser {
                         seg.header_repeats += 1;
                     }
                     None
-                } else if newest {
+                } else if newest && looks_like_header(&names) {
                     self.count_header(commented);
                     Some((names, line, delim, commented))
                 } else {
@@ -455,6 +455,17 @@ impl LogParser {
         };
         push_row(seg, line, values, overflows);
     }
+}
+
+/// A candidate may replace a header of the same width only if at least half of its names
+/// (and at least one) read as a role: "step temp volume" does, "Note: list rebuilt now"
+/// does not.
+fn looks_like_header(names: &[HeaderName]) -> bool {
+    let roles = names
+        .iter()
+        .filter(|n| mapping::guess_role(&n.name).is_some())
+        .count();
+    roles >= 1 && 2 * roles >= names.len()
 }
 
 /// Appends one row (source values) to a segment, converting to canonical units and applying
