@@ -290,7 +290,8 @@ mod tests {
         assert_eq!(r.s, 10);
         assert!((r.var_s - 50.0 / 3.0).abs() < 1e-12);
         assert!((r.z - 2.2045407685048604).abs() < 1e-12);
-        assert!((r.p_value - 0.02748633611151033).abs() < 1e-12);
+        // statrs erfc is accurate to ~1e-10 relative here.
+        assert!((r.p_value / 0.02748633611151033 - 1.0).abs() < 1e-9, "{}", r.p_value);
         // Ties: [1,2,2,3] -> S = 5, Var = 7.6667 (tie term 18), Z = 1.4446302370292303.
         let r = mann_kendall(&[1.0, 2.0, 2.0, 3.0]).unwrap();
         assert_eq!(r.s, 5);
