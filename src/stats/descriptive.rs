@@ -39,8 +39,8 @@ fn centred_ss(x: &[f64]) -> Option<(f64, f64)> {
         s += d;
     }
     let n = x.len() as f64;
-    let ss = (ss - s * s / n).max(0.0);
-    Some((m, finite(ss)?))
+    let ss = finite(ss - s * s / n)?.max(0.0);
+    Some((m, ss))
 }
 
 /// Sample variance with the n − 1 divisor (two-pass). `None` if fewer than 2 values.
@@ -203,13 +203,17 @@ impl Moments {
     }
     /// Sum of squared deviations from the mean, `None` if empty.
     pub fn m2(&self) -> Option<f64> {
-        (self.count > 0).then_some(self.m2.max(0.0)).and_then(finite)
+        (self.count > 0)
+            .then_some(self.m2)
+            .and_then(finite)
+            .map(|v| v.max(0.0))
     }
     /// Sample variance (n − 1), `None` if fewer than 2 values.
     pub fn variance(&self) -> Option<f64> {
         (self.count > 1)
-            .then(|| self.m2.max(0.0) / (self.count - 1) as f64)
+            .then(|| self.m2 / (self.count - 1) as f64)
             .and_then(finite)
+            .map(|v| v.max(0.0))
     }
     /// Sample standard deviation (n − 1), `None` if fewer than 2 values.
     pub fn std_dev(&self) -> Option<f64> {

@@ -240,7 +240,11 @@ pub fn mser_batched(x: &[f64], batch: usize) -> Option<Mser> {
         mu += d / cnt;
         m2 += d * (v - mu);
         if let Some(slot) = vals.get_mut(i) {
-            *slot = m2.max(0.0) / (cnt * cnt);
+            *slot = if m2.is_finite() {
+                m2.max(0.0) / (cnt * cnt)
+            } else {
+                f64::INFINITY
+            };
         }
     }
     let mut best = (0usize, f64::INFINITY);

@@ -59,7 +59,7 @@ pub fn eta_seconds(current_ps: f64, target_ps: f64, ps_per_second: f64) -> Optio
     if ps_per_second <= 0.0 {
         return None;
     }
-    finite(((target_ps - current_ps) / ps_per_second).max(0.0))
+    finite((target_ps - current_ps) / ps_per_second).map(|v| v.max(0.0))
 }
 
 /// Precision ETA.
