@@ -570,7 +570,12 @@ impl Analyzer {
             None
         };
         let times = time_values(seg);
-        if let (Some(role), Some(row), Some(times)) = (drift_role, run_row, times) {
+        // After the run's onset; from the segment's start while the run has no onset (a
+        // drift strong enough to keep the run from settling is still a drift).
+        let drift_from = run_row.or_else(|| {
+            matches!(run_eq, Some(Equilibration::NotYet)).then_some(0)
+        });
+        if let (Some(role), Some(row), Some(times)) = (drift_role, drift_from, times) {
             let temperature_mean = seg
                 .column(Role::Temperature)
                 .and_then(|c| finite_part_mean(c.values(), row));
@@ -735,6 +740,7 @@ impl Analyzer {
                     .into_iter()
                     .map(|i| i + lo)
                     .filter(|i| (spike_start..spike_end).contains(i))
+                    .filter(|&i| beyond_context(values, i, k, t.spike_sigmas))
                     .collect();
                 if let Some(cur) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) {
                     cur.spikes += flagged.len() as u64;
@@ -915,6 +921,39 @@ impl Analyzer {
                 .at(since, loc)
             },
         );
+    }
+}
+
+/// Rows around a spike whose robust SD is the spike's yardstick besides the Hampel
+/// window's own (common practice, no source).
+pub const SPIKE_CONTEXT_ROWS: usize = 100;
+
+/// Second spike test: the value must also lie `sigmas` robust SDs of its wider context
+/// (the 2·[`SPIKE_CONTEXT_ROWS`] rows around it) from the Hampel window's median. The MAD of
+/// 2k+1 = 21 correlated rows is itself noisy (relative error about a quarter), so the
+/// Hampel identifier alone flags about one healthy row in a thousand; the wider scale keeps
+/// the Gaussian false-alarm rate near P(|z| > 5) ≈ 6e-7 per row.
+fn beyond_context(values: &[f64], i: usize, k: usize, sigmas: f64) -> bool {
+    let Some(&x) = values.get(i) else {
+        return false;
+    };
+    let window: Vec<f64> = values
+        .get(i.saturating_sub(k)..(i + k + 1).min(values.len()))
+        .unwrap_or(&[])
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
+    let context: Vec<f64> = values
+        .get(i.saturating_sub(SPIKE_CONTEXT_ROWS)..(i + SPIKE_CONTEXT_ROWS).min(values.len()))
+        .unwrap_or(&[])
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
+    match (stats::median(&window), stats::robust_sd(&context)) {
+        (Some(m), Some(sd)) => (x - m).abs() > sigmas * sd,
+        _ => false,
     }
 }
 

@@ -27,6 +27,8 @@ pub enum Command {
     Columns(crate::commands::columns::ColumnsArgs),
     /// Read a finished log and summarise each column.
     Report(crate::commands::report::ReportArgs),
+    /// Check logs for alerts; exit 0 healthy, 1 alerts at or above --fail-on, 2 errors.
+    Check(crate::commands::check::CheckArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(crate::commands::generate::GenerateArgs),
 }

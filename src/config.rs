@@ -134,6 +134,8 @@ pub struct FileConfig {
     pub dof: Option<u64>,
     /// `--ensemble`.
     pub ensemble: Option<Ensemble>,
+    /// `[alerts]`: alert thresholds (same keys as `--threshold`; unknown keys rejected).
+    pub alerts: Option<crate::alert::Thresholds>,
 }
 
 impl FileConfig {
@@ -188,6 +190,9 @@ pub struct Settings {
     pub config_file: Option<PathBuf>,
     /// The layout used, if any.
     pub layout: Option<String>,
+    /// Alert thresholds from the settings file's `[alerts]` table (defaults otherwise);
+    /// command-line overrides are applied by the commands.
+    pub alerts: crate::alert::Thresholds,
 }
 
 impl Settings {
@@ -251,6 +256,7 @@ impl Settings {
         let mut s = Settings {
             config_file: path.map(Path::to_path_buf),
             layout: layout_used,
+            alerts: file.and_then(|f| f.alerts.clone()).unwrap_or_default(),
             ..Settings::default()
         };
         let mut maps: Vec<MapRequest> = Vec::new();

@@ -1,6 +1,7 @@
 //! Alert thresholds: defaults with their sources, overridable in `plateau.toml` (`[alerts]`
-//! table, same key names) and on the command line (`--threshold KEY=VALUE`, or the dedicated
-//! options such as `--temperature-tolerance`).
+//! table, kebab-case keys such as `drift-warning`) and on the command line
+//! (`--threshold KEY=VALUE`, dashes or underscores, or the dedicated options such as
+//! `--temperature-tolerance`).
 //!
 //! Every default names where it comes from. "common practice, no source" marks a value that
 //! is a convention of the trade or our engineering choice, not a published number; change it
@@ -11,7 +12,7 @@ use serde::{Deserialize, Serialize};
 
 /// All alert thresholds. Units are the canonical ones (K, bar, ps) unless a field says so.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
+#[serde(deny_unknown_fields, default, rename_all = "kebab-case")]
 pub struct Thresholds {
     /// Hampel identifier half-window `k` in rows (window `2k+1`). Default 10: METHODS §8
     /// found k = 10, t0 = 5 flags exactly the injected spikes of autocorrelated test data
@@ -275,9 +276,9 @@ mod tests {
 
     #[test]
     fn toml_table_rejects_unknown_keys() {
-        let ok: Thresholds = toml::from_str("drift_warning = 0.02").unwrap();
+        let ok: Thresholds = toml::from_str("drift-warning = 0.02").unwrap();
         assert_eq!(ok.drift_warning, 0.02);
         assert_eq!(ok.spike_window, 10);
-        assert!(toml::from_str::<Thresholds>("drift_warn = 0.02").is_err());
+        assert!(toml::from_str::<Thresholds>("drift-warn = 0.02").is_err());
     }
 }

@@ -22,6 +22,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
     match cli.command {
         Command::Columns(args) => columns::run(&args, out),
         Command::Report(args) => report::run(&args, out),
+        Command::Check(args) => check::run(&args, out),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
     }
 }

@@ -1,18 +1,33 @@
-//! `plateau report FILE` (thin for now): rows, segments, skipped lines, and per column the
-//! count, mean, minimum and maximum of the finite values in canonical units.
-//!
-//! The statistics issue replaces [`summarize`] and the text with the full analysis.
+//! `plateau report FILE`: what the statistics say about a log, as text (default, for people),
+//! markdown (`--format markdown`, for a lab notebook) or JSON (`--format json`, schema in
+//! `docs/report-schema.md`); `--svg DIR` writes one plot per quantity; `--timings` prints
+//! the ingest and statistics times to standard error.
 
-use std::fmt::Write as _;
 use std::io::Write;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
 
-use clap::Args;
-use serde::Serialize;
+use clap::{Args, ValueEnum};
 
-use crate::cli::{InputArgs, OutputFormat};
+use crate::analysis::{time_values, Analyzer, RunAnalysis};
+use crate::cli::InputArgs;
 use crate::error::Error;
+use crate::report::{build_report, render_markdown, render_text, svg, Report, SourceInfo};
 use crate::table::RunTable;
+
+use super::check::{analysis_options, AlertArgs};
+
+/// Output format of `report`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, ValueEnum)]
+pub enum ReportFormat {
+    /// Plain text for people.
+    #[default]
+    Text,
+    /// Markdown for a lab notebook.
+    Markdown,
+    /// JSON for programs (documented, versioned schema).
+    Json,
+}
 
 /// Options of `plateau report`.
 #[derive(Debug, Clone, Args)]
@@ -22,191 +37,117 @@ pub struct ReportArgs {
     /// How the log is described.
     #[command(flatten)]
     pub input: InputArgs,
+    /// Targets and thresholds.
+    #[command(flatten)]
+    pub alerts: AlertArgs,
     /// Output format.
-    #[arg(long, value_enum, default_value_t = OutputFormat::Text)]
-    pub format: OutputFormat,
+    #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
+    pub format: ReportFormat,
+    /// Write one SVG plot per quantity into this folder (created if missing).
+    #[arg(long, value_name = "DIR")]
+    pub svg: Option<PathBuf>,
+    /// Print the time spent reading and on the statistics to standard error.
+    #[arg(long)]
+    pub timings: bool,
 }
 
-/// Count, mean, minimum and maximum of the finite values of one column.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ColumnSummary {
-    /// Column name.
-    pub name: String,
-    /// Role, if any.
-    pub role: Option<crate::mapping::Role>,
-    /// Stored (canonical) unit.
-    pub unit: Option<String>,
-    /// Unit in the file.
-    pub source_unit: Option<String>,
-    /// Finite values.
-    pub count: usize,
-    /// Non-finite values (`nan`/`inf` tokens and `****`).
-    pub non_finite: u64,
-    /// Mean of the finite values (`None` without any).
-    pub mean: Option<f64>,
-    /// Minimum.
-    pub min: Option<f64>,
-    /// Maximum.
-    pub max: Option<f64>,
+/// Reads, analyses and builds the report of one file (also used by tests).
+pub fn analyse_file(
+    file: &Path,
+    input: &InputArgs,
+    alerts: &AlertArgs,
+) -> Result<(Report, RunTable, RunAnalysis, [f64; 2]), Error> {
+    let t0 = Instant::now();
+    let (settings, table) = super::load(file, input)?;
+    let ingest = t0.elapsed().as_secs_f64();
+    let opts = analysis_options(&settings, alerts)?;
+    let until = opts.until_ps;
+    let target_sem = opts.target_sem.clone();
+    let t1 = Instant::now();
+    let mut analyzer = Analyzer::new(opts);
+    let analysis = analyzer.update(&table, true, None, false);
+    let statistics = t1.elapsed().as_secs_f64();
+    let bytes = std::fs::metadata(file).map(|m| m.len()).unwrap_or(0);
+    let report = build_report(
+        &SourceInfo {
+            path: file.display().to_string(),
+            bytes,
+        },
+        &table,
+        &analysis,
+        analyzer.engine().alerts(),
+        target_sem.as_ref().map(|(c, v)| (c.as_str(), *v)),
+        until,
+    );
+    Ok((report, table, analysis, [ingest, statistics]))
 }
 
-/// Summarises each column of each segment.
-pub fn summarize(table: &RunTable) -> Vec<Vec<ColumnSummary>> {
-    table
-        .segments
-        .iter()
-        .map(|s| {
-            s.columns
-                .iter()
-                .map(|c| {
-                    let mut count = 0usize;
-                    let mut sum = 0.0;
-                    let mut min = f64::INFINITY;
-                    let mut max = f64::NEG_INFINITY;
-                    for &v in c.values() {
-                        if v.is_finite() {
-                            count += 1;
-                            sum += v;
-                            min = min.min(v);
-                            max = max.max(v);
-                        }
-                    }
-                    ColumnSummary {
-                        name: c.spec.name.clone(),
-                        role: c.spec.role,
-                        unit: c.spec.unit.map(|u| u.to_string()),
-                        source_unit: c.spec.source_unit.map(|u| u.to_string()),
-                        count,
-                        non_finite: c.non_finite + c.overflow,
-                        mean: (count > 0).then(|| sum / count as f64),
-                        min: (count > 0).then_some(min),
-                        max: (count > 0).then_some(max),
-                    }
-                })
-                .collect()
-        })
-        .collect()
-}
-
-fn num(v: Option<f64>) -> String {
-    match v {
-        Some(x) if x != 0.0 && (x.abs() >= 1e6 || x.abs() < 1e-3) => format!("{x:.6e}"),
-        Some(x) => format!("{x:.6}"),
-        None => "-".to_string(),
+fn write_svgs(dir: &Path, table: &RunTable, analysis: &RunAnalysis) -> Result<(), Error> {
+    let io_err = |source: std::io::Error| Error::Read {
+        path: dir.to_path_buf(),
+        source,
+    };
+    std::fs::create_dir_all(dir).map_err(io_err)?;
+    let Some(seg) = table.segments.get(analysis.segment) else {
+        return Ok(());
+    };
+    let rows: Vec<f64>;
+    let times = match time_values(seg) {
+        Some(t) => t,
+        None => {
+            rows = (0..seg.rows()).map(|i| i as f64).collect();
+            &rows
+        }
+    };
+    for (col, ca) in seg.columns.iter().zip(&analysis.columns) {
+        if ca.equilibration.is_none() {
+            continue; // step and time columns
+        }
+        let onset = ca
+            .equilibration
+            .and_then(|e| e.row())
+            .and_then(|r| times.get(r).copied());
+        let (mean, error) = match &ca.production {
+            Some(p) => (Some(p.mean), p.sem_block.or(p.sem_from_g)),
+            None => (None, None),
+        };
+        let doc = svg::render_svg(&svg::PlotInput {
+            title: &ca.name,
+            unit: &ca.unit,
+            times,
+            values: col.values(),
+            onset_time: onset,
+            mean,
+            error,
+        });
+        let path = dir.join(svg::file_name(&ca.name));
+        std::fs::write(&path, doc).map_err(|source| Error::Read { path, source })?;
     }
+    Ok(())
 }
 
 /// Runs `plateau report`.
 pub fn run(args: &ReportArgs, out: &mut dyn Write) -> Result<u8, Error> {
-    let (_settings, table) = super::load(&args.file, &args.input)?;
-    let file = args.file.display().to_string();
-    let summaries = summarize(&table);
+    let (report, table, analysis, [ingest, statistics]) =
+        analyse_file(&args.file, &args.input, &args.alerts)?;
+    if args.timings {
+        eprintln!("ingest: {ingest:.3} s");
+        eprintln!("statistics: {statistics:.3} s");
+    }
     let text = match args.format {
-        OutputFormat::Text => render_text(&file, &table, &summaries),
-        OutputFormat::Json => {
-            let value = serde_json::json!({
-                "schema_version": 0,
-                "file": file,
-                "rows": table.rows(),
-                "segments": table.segments.iter().zip(&summaries).enumerate().map(|(i, (s, cols))| {
-                    serde_json::json!({
-                        "segment": i + 1,
-                        "rows": s.rows(),
-                        "rows_replaced": s.restarts.iter().map(|r| r.rows_replaced).sum::<u64>(),
-                        "columns": cols.iter().map(|c| serde_json::json!({
-                            "name": c.name,
-                            "role": c.role,
-                            "unit": c.unit,
-                            "source_unit": c.source_unit,
-                            "count": c.count,
-                            "non_finite": c.non_finite,
-                            "mean": c.mean.map(super::json_f64),
-                            "min": c.min.map(super::json_f64),
-                            "max": c.max.map(super::json_f64),
-                        })).collect::<Vec<_>>(),
-                    })
-                }).collect::<Vec<_>>(),
-                "skipped_lines": table.skipped_count,
-                "skipped": table.skipped.iter().map(|s| serde_json::json!({
-                    "line": s.line, "reason": s.reason.to_string()
-                })).collect::<Vec<_>>(),
-                "text_lines": table.text_lines,
-                "partial_line": table.partial_line,
-            });
-            let mut s = serde_json::to_string_pretty(&value)
+        ReportFormat::Text => render_text(&report),
+        ReportFormat::Markdown => render_markdown(&report),
+        ReportFormat::Json => {
+            let mut s = report
+                .to_json()
                 .map_err(|e| Error::Output(std::io::Error::other(e)))?;
             s.push('\n');
             s
         }
     };
     super::emit(out, &text)?;
+    if let Some(dir) = &args.svg {
+        write_svgs(dir, &table, &analysis)?;
+    }
     Ok(0)
-}
-
-fn render_text(file: &str, table: &RunTable, summaries: &[Vec<ColumnSummary>]) -> String {
-    let mut o = String::new();
-    let _ = writeln!(
-        o,
-        "{file}: {} rows in {} segment(s)",
-        table.rows(),
-        table.segments.len()
-    );
-    for (i, (seg, cols)) in table.segments.iter().zip(summaries).enumerate() {
-        let _ = writeln!(o);
-        let replaced = seg.restarts.iter().map(|r| r.rows_replaced).sum::<u64>();
-        let _ = write!(o, "segment {}: {} rows", i + 1, seg.rows());
-        if !seg.restarts.is_empty() {
-            let _ = write!(
-                o,
-                ", {} restart(s) replaced {replaced} row(s)",
-                seg.restarts.len()
-            );
-        }
-        let _ = writeln!(o);
-        let w = cols
-            .iter()
-            .map(|c| c.name.chars().count())
-            .max()
-            .unwrap_or(4)
-            .max(4);
-        let _ = writeln!(
-            o,
-            "  {:<w$}  {:<11}  {:<8}  {:>8}  {:>16}  {:>16}  {:>16}",
-            "name", "role", "unit", "count", "mean", "min", "max"
-        );
-        for c in cols {
-            let role = c.role.map_or("-".to_string(), |r| r.to_string());
-            let _ = write!(
-                o,
-                "  {:<w$}  {role:<11}  {:<8}  {:>8}  {:>16}  {:>16}  {:>16}",
-                c.name,
-                c.unit.as_deref().unwrap_or("-"),
-                c.count,
-                num(c.mean),
-                num(c.min),
-                num(c.max)
-            );
-            if c.non_finite > 0 {
-                let _ = write!(o, "  ({} non-finite)", c.non_finite);
-            }
-            let _ = writeln!(o);
-        }
-    }
-    let _ = writeln!(o);
-    let _ = writeln!(o, "skipped lines: {}", table.skipped_count);
-    for s in table.skipped.iter().take(10) {
-        let _ = writeln!(o, "  {file}:{}: {}", s.line, s.reason);
-    }
-    let _ = writeln!(o, "free-text lines: {}", table.text_lines);
-    if let Some(p) = table.partial_line {
-        let _ = writeln!(
-            o,
-            "last line {} has no newline: ignored (it may be a row cut in half)",
-            p.line
-        );
-    }
-    for w in &table.warnings {
-        let _ = writeln!(o, "warning: {w}");
-    }
-    o
 }

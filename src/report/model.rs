@@ -136,6 +136,8 @@ pub enum EquilibrationState {
     NotYet,
     /// Too few rows to judge.
     TooShort,
+    /// No statistics for this column (step and time counters).
+    NotAnalysed,
 }
 
 /// What one column says.

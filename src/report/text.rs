@@ -35,7 +35,9 @@ fn onset_text(c: &ColumnReport) -> String {
         },
         (EquilibrationState::NotYet, _) => "not yet".to_string(),
         (EquilibrationState::TooShort, _) => "too short".to_string(),
-        (EquilibrationState::Equilibrated, None) => "-".to_string(),
+        (EquilibrationState::Equilibrated, None) | (EquilibrationState::NotAnalysed, _) => {
+            "-".to_string()
+        }
     }
 }
 
@@ -59,7 +61,9 @@ fn run_onset_text(r: &Report) -> String {
             "not equilibrated yet: the quantities that matter are still relaxing".to_string()
         }
         (EquilibrationState::TooShort, _) => "too few rows to judge equilibration".to_string(),
-        (EquilibrationState::Equilibrated, None) => "equilibration unknown".to_string(),
+        (EquilibrationState::Equilibrated, None) | (EquilibrationState::NotAnalysed, _) => {
+            "equilibration unknown".to_string()
+        }
     }
 }
 
