@@ -24,6 +24,8 @@
 //! the total cost over a run of N rows is O(N log N) times a constant (a geometric series of
 //! O(N log N) computations), never O(N²).
 
+use std::ops::Range;
+
 use crate::alert::{
     AlertEngine, AlertKind, DriftEvidence, FluctuationEvidence, OffTargetInput, RowLocator,
     RunStatus, Severity, StatusInputs, Sustain, Target, Thresholds, RUN,
@@ -455,12 +457,29 @@ impl Analyzer {
             return empty_analysis(si + 1);
         };
         let first_row: usize = table.segments.iter().take(si).map(Segment::rows).sum();
+        // The statistics describe the run before it blew up: rows from the first non-finite
+        // value or runaway growth in any analysed column on are left out.
+        let ropts = runaway_options(&self.opts.thresholds);
+        let stable_end = seg
+            .columns
+            .iter()
+            .filter(|c| has_statistics(c.spec.role))
+            .map(|c| {
+                let v = c.values();
+                let end = first_nonfinite(v);
+                let mut cache = None;
+                runaway_flags(v, 0..end, &ropts, &mut cache, true)
+                    .first()
+                    .map_or(end, |f| f.0)
+            })
+            .min()
+            .unwrap_or(seg.rows());
         let mut columns: Vec<ColumnAnalysis> = seg
             .columns
             .iter()
             .map(|c| {
                 let values = c.values();
-                let finite_end = first_nonfinite(values);
+                let finite_end = first_nonfinite(values).min(stable_end);
                 let x = values.get(..finite_end).unwrap_or(&[]);
                 let (equilibration, mser, production, trend) = if has_statistics(c.spec.role) {
                     let eq = stats::detect_equilibration(x);
@@ -541,7 +560,7 @@ impl Analyzer {
             None => {
                 let part = |role: Role| -> Option<&[f64]> {
                     let v = seg.column(role)?.values();
-                    let end = first_nonfinite(v);
+                    let end = first_nonfinite(v).min(stable_end);
                     v.get(run_row.unwrap_or(0).min(end)..end)
                 };
                 stats::infer_ensemble(part(Role::Total), part(Role::Kinetic), part(Role::Volume))
@@ -576,16 +595,18 @@ impl Analyzer {
             matches!(run_eq, Some(Equilibration::NotYet)).then_some(0)
         });
         if let (Some(role), Some(row), Some(times)) = (drift_role, drift_from, times) {
+            let cut = |v: &'_ [f64]| -> Vec<f64> { v.get(..stable_end.min(v.len())).unwrap_or(&[]).to_vec() };
             let temperature_mean = seg
                 .column(Role::Temperature)
-                .and_then(|c| finite_part_mean(c.values(), row));
+                .and_then(|c| finite_part_mean(&cut(c.values()), row));
             let kinetic_mean = seg
                 .column(Role::Kinetic)
-                .and_then(|c| finite_part_mean(c.values(), row));
+                .and_then(|c| finite_part_mean(&cut(c.values()), row));
             if let Some(c) = columns.iter_mut().find(|c| c.role == Some(role)) {
                 if let Some(col) = seg.column(role) {
+                    let v = col.values();
                     c.drift = drift_summary(
-                        col.values(),
+                        v.get(..stable_end.min(v.len())).unwrap_or(&[]),
                         times,
                         row,
                         &self.opts,
@@ -609,7 +630,7 @@ impl Analyzer {
             {
                 if let Some(col) = seg.column(Role::Temperature) {
                     let v = col.values();
-                    let end = first_nonfinite(v);
+                    let end = first_nonfinite(v).min(stable_end);
                     if let Some(part) = v.get(row.min(end)..end) {
                         c.fluctuation = stats::temperature_fluctuation(
                             part,
@@ -840,51 +861,12 @@ impl Analyzer {
         offset: usize,
         loc: &TableLocator<'_>,
     ) {
-        let t = &self.opts.thresholds;
-        let w = t.runaway_window.max(3);
-        let opts = RunawayOptions {
-            window: w,
-            min_r_squared: t.runaway_min_r2,
-            min_growth: RUNAWAY_MIN_GROWTH,
-            min_sigmas: t.runaway_min_sigmas,
-            far_sigmas: RUNAWAY_FAR_SIGMAS,
-        };
+        let opts = runaway_options(&self.opts.thresholds);
+        let w = opts.window;
         let Some(cursor) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) else {
             return;
         };
-        // Which rows grow or sit far out, judged against the median and MAD of the
-        // RUNAWAY_BASELINE_ROWS rows before the window (recomputed every `w` rows).
-        let mut flagged: Vec<(usize, f64)> = Vec::new();
-        for r in start.max(2 * w - 1)..n {
-            let Some(&x) = values.get(r) else { break };
-            if !x.is_finite() {
-                continue;
-            }
-            let base_end = ((r + 1 - w) / w) * w;
-            let base = match cursor.baseline {
-                Some((end, b)) if end == base_end => b,
-                _ => {
-                    let b = values
-                        .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
-                        .and_then(stats::Baseline::from_slice);
-                    cursor.baseline = Some((base_end, b));
-                    b
-                }
-            };
-            let Some(base) = base else { continue };
-            let dev = (x - base.median).abs();
-            if dev <= opts.min_sigmas * base.scale {
-                continue;
-            }
-            let far = dev > opts.far_sigmas * base.scale;
-            let growth = values
-                .get(..=r)
-                .and_then(|v| stats::runaway::exponential_growth(v, &base, &opts));
-            if far || growth.is_some() {
-                let rate = growth.map_or(f64::NAN, |g| g.samples_per_decade);
-                flagged.push((r, rate));
-            }
-        }
+        let flagged = runaway_flags(values, start..n, &opts, &mut cursor.baseline, false);
         let unit_s = unit.to_string();
         self.engine.scan(
             AlertKind::Runaway,
@@ -955,6 +937,66 @@ fn beyond_context(values: &[f64], i: usize, k: usize, sigmas: f64) -> bool {
         (Some(m), Some(sd)) => (x - m).abs() > sigmas * sd,
         _ => false,
     }
+}
+
+/// Runaway options from the thresholds.
+pub fn runaway_options(t: &Thresholds) -> RunawayOptions {
+    RunawayOptions {
+        window: t.runaway_window.max(3),
+        min_r_squared: t.runaway_min_r2,
+        min_growth: RUNAWAY_MIN_GROWTH,
+        min_sigmas: t.runaway_min_sigmas,
+        far_sigmas: RUNAWAY_FAR_SIGMAS,
+    }
+}
+
+/// Rows in `rows` that grow exponentially or sit far out (with the growth's samples per
+/// decade, NaN for a far excursion), judged against the median and MAD of the
+/// [`RUNAWAY_BASELINE_ROWS`] rows before the checked window, recomputed every `window` rows
+/// (`cache` keeps the last baseline). O(rows) plus O(window) per row that passes the cheap
+/// size test. With `first_only` it stops at the first flagged row.
+fn runaway_flags(
+    values: &[f64],
+    rows: Range<usize>,
+    opts: &RunawayOptions,
+    cache: &mut Option<(usize, Option<stats::Baseline>)>,
+    first_only: bool,
+) -> Vec<(usize, f64)> {
+    let w = opts.window.max(3);
+    let mut flagged: Vec<(usize, f64)> = Vec::new();
+    for r in rows.start.max(2 * w - 1)..rows.end {
+        let Some(&x) = values.get(r) else { break };
+        if !x.is_finite() {
+            continue;
+        }
+        let base_end = ((r + 1 - w) / w) * w;
+        let base = match *cache {
+            Some((end, b)) if end == base_end => b,
+            _ => {
+                let b = values
+                    .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
+                    .and_then(stats::Baseline::from_slice);
+                *cache = Some((base_end, b));
+                b
+            }
+        };
+        let Some(base) = base else { continue };
+        let dev = (x - base.median).abs();
+        if dev <= opts.min_sigmas * base.scale {
+            continue;
+        }
+        let far = dev > opts.far_sigmas * base.scale;
+        let growth = values
+            .get(..=r)
+            .and_then(|v| stats::runaway::exponential_growth(v, &base, opts));
+        if far || growth.is_some() {
+            flagged.push((r, growth.map_or(f64::NAN, |g| g.samples_per_decade)));
+            if first_only {
+                break;
+            }
+        }
+    }
+    flagged
 }
 
 fn empty_analysis(nseg: usize) -> RunAnalysis {

@@ -320,6 +320,14 @@ impl AlertEngine {
         &self.alerts
     }
 
+    /// Every alert raised so far, ordered by row (alerts without a row last), then kind;
+    /// for reports of a whole file.
+    pub fn alerts_by_row(&self) -> Vec<Alert> {
+        let mut v = self.alerts.clone();
+        v.sort_by_key(|a| (a.row.is_none(), a.row, a.kind));
+        v
+    }
+
     /// Alerts raised since the list had `since` entries (for printing as they happen).
     pub fn alerts_since(&self, since: usize) -> &[Alert] {
         self.alerts.get(since..).unwrap_or(&[])

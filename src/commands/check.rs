@@ -320,7 +320,7 @@ fn check_file(
     let analysis = analyzer.update(&table, true, None, false);
     let file = path.display().to_string();
     let mut worst: Option<Severity> = None;
-    for a in analyzer.engine().alerts() {
+    for a in &analyzer.engine().alerts_by_row() {
         sinks.emit(out, &file, a)?;
         worst = worst.max(Some(a.severity));
     }

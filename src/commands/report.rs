@@ -75,7 +75,7 @@ pub fn analyse_file(
         },
         &table,
         &analysis,
-        analyzer.engine().alerts(),
+        &analyzer.engine().alerts_by_row(),
         target_sem.as_ref().map(|(c, v)| (c.as_str(), *v)),
         until,
     );
