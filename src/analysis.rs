@@ -143,6 +143,8 @@ pub struct ColumnAnalysis {
     pub fluctuation: Option<FluctuationCheck>,
     pub spikes: u64,
     pub last: Option<f64>,
+    /// Statistical inefficiency of the whole stable part (used while not equilibrated).
+    pub inefficiency_all: Option<f64>,
 }
 
 /// How the ensemble was known.
@@ -517,6 +519,11 @@ impl Analyzer {
                         .and_then(|v| v.iter().zip(&seg.columns).find(|(_, cc)| cc.spec.name == c.spec.name))
                         .map_or(0, |(cur, _)| cur.spikes),
                     last: values.last().copied(),
+                    inefficiency_all: if has_statistics(c.spec.role) {
+                        blockwise_inefficiency(x)
+                    } else {
+                        None
+                    },
                 }
             })
             .collect();
@@ -813,18 +820,26 @@ impl Analyzer {
             let Some(times) = time_values(seg) else {
                 continue;
             };
-            // Along a schedule: from the first row; a constant target: after the onset.
+            // Along a schedule: from the first row. A constant target: after the run's
+            // onset; while the run has none, after the column's MSER-5 truncation point (the
+            // usual warm-up cut), so a thermostat that leaves its target, which itself keeps
+            // the run from settling, is still reported.
+            let column = analysis
+                .as_ref()
+                .and_then(|a| a.columns.iter().find(|c| c.name == name));
             let start_row = if target.is_schedule() {
                 Some(0)
             } else {
-                run_row
+                run_row.or_else(|| column.and_then(|c| c.mser.map(|m| m.row)))
             };
             let Some(start_row) = start_row else { continue };
-            let g = analysis
-                .as_ref()
-                .and_then(|a| a.columns.iter().find(|c| c.name == name))
-                .and_then(|c| c.production.as_ref())
-                .and_then(|p| p.inefficiency)
+            let g = column
+                .and_then(|c| {
+                    c.production
+                        .as_ref()
+                        .and_then(|p| p.inefficiency)
+                        .or(c.inefficiency_all)
+                })
                 .unwrap_or(1.0);
             let input = OffTargetInput {
                 kind,
@@ -937,6 +952,25 @@ fn beyond_context(values: &[f64], i: usize, k: usize, sigmas: f64) -> bool {
         (Some(m), Some(sd)) => (x - m).abs() > sigmas * sd,
         _ => false,
     }
+}
+
+/// Rows per block of [`blockwise_inefficiency`] (common practice, no source).
+pub const INEFFICIENCY_BLOCK_ROWS: usize = 500;
+
+/// Statistical inefficiency of a series that may not be stationary: the median of g over
+/// blocks of [`INEFFICIENCY_BLOCK_ROWS`] rows (g of the whole would grow with any trend or
+/// step, METHODS §1.3). Used for the off-target window's standard error while the run has
+/// no onset. O(N log block).
+fn blockwise_inefficiency(x: &[f64]) -> Option<f64> {
+    if x.len() < 2 * INEFFICIENCY_BLOCK_ROWS {
+        return stats::inefficiency(x).map(|i| i.g);
+    }
+    let mut gs: Vec<f64> = x
+        .chunks_exact(INEFFICIENCY_BLOCK_ROWS)
+        .filter_map(|c| stats::inefficiency(c).map(|i| i.g))
+        .collect();
+    gs.sort_by(f64::total_cmp);
+    stats::median(&gs)
 }
 
 /// Runaway options from the thresholds.
