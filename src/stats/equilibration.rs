@@ -25,7 +25,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::acf::AcfEngine;
+use super::acf::{with_engine, AcfEngine};
 use super::inefficiency::{inefficiency_with, Estimator};
 
 /// Fewer samples than this: [`Equilibration::TooShort`].
@@ -92,6 +92,10 @@ fn score(y: &[f64], t0: usize, engine: &mut AcfEngine) -> Option<(f64, f64)> {
 /// Equilibration onset by N_eff maximisation (Chodera 2016). Input: finite, evenly spaced
 /// samples. A stationary series gets its onset at or near 0.
 pub fn detect_equilibration(x: &[f64]) -> Equilibration {
+    with_engine(|engine| detect_with(x, engine))
+}
+
+fn detect_with(x: &[f64], engine: &mut AcfEngine) -> Equilibration {
     let n = x.len();
     if n < MIN_SAMPLES {
         return Equilibration::TooShort;
@@ -110,7 +114,6 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     };
     let m = y.len();
     let upper = m / 2;
-    let mut engine = AcfEngine::new();
     let mut best: Option<(usize, f64)> = None;
     let consider = |t0: usize, best: &mut Option<(usize, f64)>, engine: &mut AcfEngine| {
         if let Some((neff, _)) = score(y, t0, engine) {
@@ -125,13 +128,13 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     };
     if m <= FULL_GRID_MAX {
         for t0 in 0..=upper {
-            consider(t0, &mut best, &mut engine);
+            consider(t0, &mut best, engine);
         }
     } else {
         let mut step = upper.div_ceil(COARSE_CANDIDATES).max(1);
         let mut t0 = 0;
         while t0 <= upper {
-            consider(t0, &mut best, &mut engine);
+            consider(t0, &mut best, engine);
             t0 += step;
         }
         while step > 1 {
@@ -141,7 +144,7 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
             step = (step / 20).max(1);
             let mut t = lo;
             while t <= hi {
-                consider(t, &mut best, &mut engine);
+                consider(t, &mut best, engine);
                 t += step;
             }
         }
@@ -157,7 +160,7 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     let Some(tail) = x.get(row..) else {
         return Equilibration::NotYet;
     };
-    match inefficiency_with(tail, Estimator::FirstNegative, &mut engine) {
+    match inefficiency_with(tail, Estimator::FirstNegative, engine) {
         Some(r) => Equilibration::Onset {
             row,
             g: r.g,
