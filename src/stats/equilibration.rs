@@ -12,7 +12,7 @@
 //! - too short: fewer than [`MIN_SAMPLES`] = 100 samples (a 50-sample minimum tail with
 //!   `t0 ≤ N/2` needs at least 100) → [`Equilibration::TooShort`];
 //! - candidates `t0 ≤ N/2` whose tail has at least `max(50, 10·g(t0))` samples;
-//! - every sample is a candidate for up to 5000 (block) samples; beyond that about 200
+//! - every sample is a candidate for up to 5000 (block) samples; beyond that about 100
 //!   evenly spaced candidates, then finer grids around the best until the step is 1;
 //! - series longer than 20 000 rows are searched on block means of `b = ⌈N/20000⌉` rows
 //!   and the chosen block is mapped back to row `b·t0_b`; `g` and `N_eff` reported for
@@ -21,7 +21,7 @@
 //!   in the last 5 % of the allowed range (its upper edge).
 //!
 //! Cost: one `g` per candidate, each O(M·t*) or O(M log M) on M ≤ 20 000 block means,
-//! so O(N) for the blocking plus a bounded search (≤ ~300 candidates): O(N + C·M log M).
+//! so O(N) for the blocking plus a bounded search (≤ ~160 candidates): O(N + C·M log M).
 
 use serde::{Deserialize, Serialize};
 
@@ -37,7 +37,7 @@ pub const TAIL_G_FACTOR: f64 = 10.0;
 /// Largest (block) series searched at every sample.
 pub const FULL_GRID_MAX: usize = 5000;
 /// Coarse candidates for longer series.
-pub const COARSE_CANDIDATES: usize = 200;
+pub const COARSE_CANDIDATES: usize = 100;
 /// Series longer than this are searched on block means.
 pub const BLOCK_TARGET: usize = 20_000;
 /// Fraction of the allowed range at its upper end that counts as "the edge".
