@@ -2,6 +2,8 @@
 //! trend tests on their 2000-point cap), and "all statistics for 1,000,000 rows × 10
 //! columns". Synthetic data made here (AR(1) noise with transients); not run in CI.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
+
 use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -68,24 +70,40 @@ fn benches(c: &mut Criterion) {
     let mut g = c.benchmark_group("stats_1e6");
     g.sample_size(10);
     g.bench_function("summarize", |b| b.iter(|| stats::summarize(black_box(&x))));
-    g.bench_function("moments", |b| b.iter(|| stats::Moments::from_slice(black_box(&x))));
-    g.bench_function("acf_biased_fft", |b| b.iter(|| stats::acf_biased(black_box(&x))));
+    g.bench_function("moments", |b| {
+        b.iter(|| stats::Moments::from_slice(black_box(&x)))
+    });
+    g.bench_function("acf_biased_fft", |b| {
+        b.iter(|| stats::acf_biased(black_box(&x)))
+    });
     for e in Estimator::ALL {
         g.bench_function(format!("inefficiency_{e}"), |b| {
             b.iter(|| stats::statistical_inefficiency(black_box(&x), e))
         });
     }
-    g.bench_function("block_average", |b| b.iter(|| stats::block_average(black_box(&x))));
-    g.bench_function("equilibration", |b| b.iter(|| stats::detect_equilibration(black_box(&x))));
+    g.bench_function("block_average", |b| {
+        b.iter(|| stats::block_average(black_box(&x)))
+    });
+    g.bench_function("equilibration", |b| {
+        b.iter(|| stats::detect_equilibration(black_box(&x)))
+    });
     g.bench_function("mser", |b| b.iter(|| stats::mser(black_box(&x))));
     g.bench_function("mser5", |b| b.iter(|| stats::mser5(black_box(&x))));
-    g.bench_function("ols", |b| b.iter(|| stats::ols(black_box(&t), black_box(&x))));
-    for m in [SlopeSeMethod::SqrtG, SlopeSeMethod::Ar1, SlopeSeMethod::NeweyWest] {
+    g.bench_function("ols", |b| {
+        b.iter(|| stats::ols(black_box(&t), black_box(&x)))
+    });
+    for m in [
+        SlopeSeMethod::SqrtG,
+        SlopeSeMethod::Ar1,
+        SlopeSeMethod::NeweyWest,
+    ] {
         g.bench_function(format!("drift_{m:?}"), |b| {
             b.iter(|| stats::drift(black_box(&t), black_box(&x), m, 0.95))
         });
     }
-    g.bench_function("trend_test_cap2000", |b| b.iter(|| stats::trend_test(black_box(&x), 2000)));
+    g.bench_function("trend_test_cap2000", |b| {
+        b.iter(|| stats::trend_test(black_box(&x), 2000))
+    });
     g.bench_function("hampel_k10", |b| {
         b.iter(|| stats::hampel(black_box(&x), &HampelOptions::default()))
     });
@@ -107,7 +125,11 @@ fn benches(c: &mut Criterion) {
     let mut g = c.benchmark_group("all_statistics");
     g.sample_size(10);
     g.bench_function("1e6_rows_x_10_columns", |b| {
-        b.iter(|| cols.iter().map(|x| all_for_column(&t, black_box(x))).sum::<usize>())
+        b.iter(|| {
+            cols.iter()
+                .map(|x| all_for_column(&t, black_box(x)))
+                .sum::<usize>()
+        })
     });
     g.finish();
 }

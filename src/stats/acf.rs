@@ -22,7 +22,11 @@ const DIRECT_LAGS: usize = 24;
 /// First lag window of the segmented FFT (lags below this from blocks of this size).
 const SEGMENT_LAGS: usize = 256;
 
-type Plans = (usize, Arc<dyn RealToComplex<f64>>, Arc<dyn ComplexToReal<f64>>);
+type Plans = (
+    usize,
+    Arc<dyn RealToComplex<f64>>,
+    Arc<dyn ComplexToReal<f64>>,
+);
 
 /// Reusable FFT plans (one thread-local engine serves all calls on a thread, so the
 /// twiddle tables of a length are computed once).
@@ -242,6 +246,7 @@ mod tests {
     use super::*;
 
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn fft_matches_direct_sums() {
         // Direct definition (METHODS §1.1 step 2) on a small irregular series.
         let x = [1.0, 3.0, -2.0, 0.5, 4.0, 4.0, -1.0];
@@ -260,9 +265,12 @@ mod tests {
     }
 
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn segmented_fft_matches_full() {
         // Same linear sums from blocks (overlap of two blocks, no wrap-around).
-        let x: Vec<f64> = (0..5000).map(|i| ((i * 7919) % 113) as f64 + (i as f64 * 0.01).sin()).collect();
+        let x: Vec<f64> = (0..5000)
+            .map(|i| ((i * 7919) % 113) as f64 + (i as f64 * 0.01).sin())
+            .collect();
         let full = lag_sums(&x).unwrap();
         let (_, dx) = centred(&x).unwrap();
         let mut eng = AcfEngine::new();
@@ -273,7 +281,10 @@ mod tests {
         }
         let mut lazy = LazyAcov::new(&x, &mut eng).unwrap();
         for t in [0, 5, 30, 300, 700, 4999] {
-            assert!((lazy.get(t).unwrap() - full[t]).abs() < 1e-9 * full[0], "lag {t}");
+            assert!(
+                (lazy.get(t).unwrap() - full[t]).abs() < 1e-9 * full[0],
+                "lag {t}"
+            );
         }
     }
 

@@ -131,7 +131,12 @@ pub fn exponential_growth(x: &[f64], base: &Baseline, opts: &RunawayOptions) -> 
 }
 
 /// First row (from `from`) with `|x − m| > far_sigmas·σ̂` (finite values only).
-pub fn far_excursion(x: &[f64], base: &Baseline, opts: &RunawayOptions, from: usize) -> Option<usize> {
+pub fn far_excursion(
+    x: &[f64],
+    base: &Baseline,
+    opts: &RunawayOptions,
+    from: usize,
+) -> Option<usize> {
     let lim = opts.far_sigmas * base.scale;
     x.iter()
         .enumerate()
@@ -149,7 +154,11 @@ pub const BASELINE_ROWS: usize = 5000;
 /// length. Empty input: nothing flagged.
 pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
     let w = opts.window.max(3);
-    let ref_end = if x.len() >= 2 * w { x.len() - w } else { x.len() };
+    let ref_end = if x.len() >= 2 * w {
+        x.len() - w
+    } else {
+        x.len()
+    };
     let ref_start = ref_end.saturating_sub(BASELINE_ROWS);
     let Some(base) = x.get(ref_start..ref_end).and_then(Baseline::from_slice) else {
         return RunawayCheck {

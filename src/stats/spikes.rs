@@ -249,7 +249,11 @@ mod tests {
             .map(|i| ((i * 7919) % 101) as f64 / 10.0 + if i % 37 == 0 { 30.0 } else { 0.0 })
             .collect();
         for k in [1, 2, 5, 10] {
-            let o = HampelOptions { half_window: k, threshold: 3.0, floor_fraction: 0.0 };
+            let o = HampelOptions {
+                half_window: k,
+                threshold: 3.0,
+                floor_fraction: 0.0,
+            };
             assert_eq!(hampel(&x, &o), brute(&x, k, 3.0), "k = {k}");
         }
         assert!(hampel(&[], &HampelOptions::default()).is_empty());
