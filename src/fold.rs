@@ -162,7 +162,7 @@ impl FoldedSeries {
         while self.blocks.len() > self.cap / 4 {
             // With an odd count the last block and the rows after it become the new block
             // being filled, so every whole block keeps the same length and alignment.
-            if self.blocks.len() % 2 == 1 {
+            if !self.blocks.len().is_multiple_of(2) {
                 if let Some(mut last) = self.blocks.pop() {
                     last.merge(&self.partial);
                     self.partial = last;
