@@ -21,7 +21,7 @@ use std::str::FromStr;
 
 use serde::{Deserialize, Serialize};
 
-use super::acf::{AcfEngine, LazyAcov};
+use super::acf::{with_engine, AcfEngine, LazyAcov};
 use super::finite;
 
 /// Lags at or below this are summed even when `C_t ≤ 0` (METHODS §1.2(a) "minimum lag ~3").
@@ -107,8 +107,7 @@ pub struct Inefficiency {
 /// Statistical inefficiency of `x` with the chosen estimator. `None` if fewer than 2
 /// values (or non-finite input). Cost O(N log N) at most.
 pub fn statistical_inefficiency(x: &[f64], estimator: Estimator) -> Option<Inefficiency> {
-    let mut engine = AcfEngine::new();
-    inefficiency_with(x, estimator, &mut engine)
+    with_engine(|engine| inefficiency_with(x, estimator, engine))
 }
 
 /// As [`statistical_inefficiency`] with the default estimator.
@@ -233,11 +232,17 @@ mod tests {
     #[test]
     fn alternating_is_clamped() {
         // METHODS §0: alternating ±1 has ρ_1 ≈ −1, raw g < 1, must clamp to 1.
-        let x: Vec<f64> = (0..200).map(|i| if i % 2 == 0 { 1.0 } else { -1.0 }).collect();
+        let x: Vec<f64> = (0..200)
+            .map(|i| if i % 2 == 0 { 1.0 } else { -1.0 })
+            .collect();
         for e in Estimator::ALL {
             let r = statistical_inefficiency(&x, e).unwrap();
             assert!(r.g >= 1.0, "{e}");
         }
-        assert!(statistical_inefficiency(&x, Estimator::FirstNegative).unwrap().clamped);
+        assert!(
+            statistical_inefficiency(&x, Estimator::FirstNegative)
+                .unwrap()
+                .clamped
+        );
     }
 }
