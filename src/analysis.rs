@@ -516,7 +516,11 @@ impl Analyzer {
                     spikes: self
                         .cursors
                         .get(si)
-                        .and_then(|v| v.iter().zip(&seg.columns).find(|(_, cc)| cc.spec.name == c.spec.name))
+                        .and_then(|v| {
+                            v.iter()
+                                .zip(&seg.columns)
+                                .find(|(_, cc)| cc.spec.name == c.spec.name)
+                        })
                         .map_or(0, |(cur, _)| cur.spikes),
                     last: values.last().copied(),
                     inefficiency_all: if has_statistics(c.spec.role) {
@@ -598,11 +602,12 @@ impl Analyzer {
         let times = time_values(seg);
         // After the run's onset; from the segment's start while the run has no onset (a
         // drift strong enough to keep the run from settling is still a drift).
-        let drift_from = run_row.or_else(|| {
-            matches!(run_eq, Some(Equilibration::NotYet)).then_some(0)
-        });
+        let drift_from =
+            run_row.or_else(|| matches!(run_eq, Some(Equilibration::NotYet)).then_some(0));
         if let (Some(role), Some(row), Some(times)) = (drift_role, drift_from, times) {
-            let cut = |v: &'_ [f64]| -> Vec<f64> { v.get(..stable_end.min(v.len())).unwrap_or(&[]).to_vec() };
+            let cut = |v: &'_ [f64]| -> Vec<f64> {
+                v.get(..stable_end.min(v.len())).unwrap_or(&[]).to_vec()
+            };
             let temperature_mean = seg
                 .column(Role::Temperature)
                 .and_then(|c| finite_part_mean(&cut(c.values()), row));

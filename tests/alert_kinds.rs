@@ -82,7 +82,11 @@ fn fixture(name: &str) -> PathBuf {
 #[test]
 fn healthy_generated_log_raises_nothing_at_all() {
     let dir = tempfile::tempdir().unwrap();
-    let p = write(dir.path(), "ok.log", &generated(Scenario::Equilibration, 3000));
+    let p = write(
+        dir.path(),
+        "ok.log",
+        &generated(Scenario::Equilibration, 3000),
+    );
     let r = report(&p, Some(3000), targets(Some("300K"), Some("1bar")));
     assert!(r.alerts.is_empty(), "{:#?}", r.alerts);
 }
@@ -96,14 +100,22 @@ fn nonfinite_at_the_first_bad_row() {
             f[2] = "nan".to_string();
         }
     });
-    let r = report(&write(dir.path(), "bad.log", &bad), None, AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "bad.log", &bad),
+        None,
+        AlertArgs::default(),
+    );
     let a = of_kind(&r, AlertKind::Nonfinite);
     assert_eq!(a.len(), 1, "{a:#?}");
     assert_eq!(a[0].row, Some(400));
     assert_eq!(a[0].line, Some(400 + HEADER_LINES + 1));
     assert_eq!(a[0].column.as_deref(), Some("temperature"));
     assert_eq!(a[0].severity, Severity::Critical);
-    let ok = report(&write(dir.path(), "ok.log", &healthy), None, AlertArgs::default());
+    let ok = report(
+        &write(dir.path(), "ok.log", &healthy),
+        None,
+        AlertArgs::default(),
+    );
     assert!(of_kind(&ok, AlertKind::Nonfinite).is_empty());
 }
 
@@ -118,14 +130,26 @@ fn spike_at_its_row_only() {
             shift(f, 4, 3000.0);
         }
     });
-    let r = report(&write(dir.path(), "spike.log", &bad), None, AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "spike.log", &bad),
+        None,
+        AlertArgs::default(),
+    );
     let a = of_kind(&r, AlertKind::Spike);
     assert_eq!(a.len(), 1, "{a:#?}");
     assert_eq!(a[0].row, Some(900));
     assert_eq!(a[0].column.as_deref(), Some("potential"));
     assert!(of_kind(&r, AlertKind::Runaway).is_empty());
-    let ok = report(&write(dir.path(), "ok.log", &healthy), None, AlertArgs::default());
-    assert!(of_kind(&ok, AlertKind::Spike).is_empty(), "{:#?}", ok.alerts);
+    let ok = report(
+        &write(dir.path(), "ok.log", &healthy),
+        None,
+        AlertArgs::default(),
+    );
+    assert!(
+        of_kind(&ok, AlertKind::Spike).is_empty(),
+        "{:#?}",
+        ok.alerts
+    );
 }
 
 #[test]
@@ -133,7 +157,11 @@ fn runaway_before_the_first_nonfinite_row() {
     let dir = tempfile::tempdir().unwrap();
     let rows = 1200;
     let text = generated(Scenario::BlowUp, rows);
-    let r = report(&write(dir.path(), "b.log", &text), None, AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "b.log", &text),
+        None,
+        AlertArgs::default(),
+    );
     let first_nonfinite = of_kind(&r, AlertKind::Nonfinite)
         .iter()
         .filter_map(|a| a.row)
@@ -147,7 +175,10 @@ fn runaway_before_the_first_nonfinite_row() {
     // The generator starts the exponential growth at 70 % of the rows.
     let start = rows * 7 / 10;
     assert!(first_runaway >= start, "{first_runaway} < {start}");
-    assert!(first_runaway < first_nonfinite, "{first_runaway} >= {first_nonfinite}");
+    assert!(
+        first_runaway < first_nonfinite,
+        "{first_runaway} >= {first_nonfinite}"
+    );
     assert_eq!(r.status, plateau::alert::RunStatus::Unstable);
     // The same run cut before the growth: nothing.
     let calm: String = text
@@ -155,8 +186,16 @@ fn runaway_before_the_first_nonfinite_row() {
         .take((start as usize) + HEADER_LINES as usize)
         .map(|l| format!("{l}\n"))
         .collect();
-    let ok = report(&write(dir.path(), "calm.log", &calm), None, AlertArgs::default());
-    assert!(of_kind(&ok, AlertKind::Runaway).is_empty(), "{:#?}", ok.alerts);
+    let ok = report(
+        &write(dir.path(), "calm.log", &calm),
+        None,
+        AlertArgs::default(),
+    );
+    assert!(
+        of_kind(&ok, AlertKind::Runaway).is_empty(),
+        "{:#?}",
+        ok.alerts
+    );
 }
 
 #[test]
@@ -180,7 +219,11 @@ fn blow_up_demo_log_is_reported_before_its_first_nonfinite_row() {
 fn drift_of_the_conserved_energy() {
     let dir = tempfile::tempdir().unwrap();
     let text = generated(Scenario::NveDrift, 2000);
-    let r = report(&write(dir.path(), "d.log", &text), Some(3000), AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "d.log", &text),
+        Some(3000),
+        AlertArgs::default(),
+    );
     let a = of_kind(&r, AlertKind::Drift);
     assert_eq!(a.len(), 1, "{:#?}", r.alerts);
     assert_eq!(a[0].column.as_deref(), Some("conserved"));
@@ -195,8 +238,16 @@ fn drift_of_the_conserved_energy() {
         shift(f, 7, -0.4 * t);
         shift(f, 6, -0.4 * t);
     });
-    let ok = report(&write(dir.path(), "flat.log", &flat), Some(3000), AlertArgs::default());
-    assert!(of_kind(&ok, AlertKind::Drift).is_empty(), "{:#?}", ok.alerts);
+    let ok = report(
+        &write(dir.path(), "flat.log", &flat),
+        Some(3000),
+        AlertArgs::default(),
+    );
+    assert!(
+        of_kind(&ok, AlertKind::Drift).is_empty(),
+        "{:#?}",
+        ok.alerts
+    );
 }
 
 #[test]
@@ -274,18 +325,34 @@ fn pressure_off_target_after_the_barostat_slips() {
 fn fluctuation_size_of_a_suppressing_thermostat() {
     let dir = tempfile::tempdir().unwrap();
     let bad = generated(Scenario::ThermostatFailure, 2000);
-    let r = report(&write(dir.path(), "f.log", &bad), Some(3000), AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "f.log", &bad),
+        Some(3000),
+        AlertArgs::default(),
+    );
     let a = of_kind(&r, AlertKind::FluctuationSize);
     assert_eq!(a.len(), 1, "{:#?}", r.alerts);
     assert!(a[0].message.contains("too small"));
-    assert!(a[0].message.contains("8997"), "names N_df: {}", a[0].message);
+    assert!(
+        a[0].message.contains("8997"),
+        "names N_df: {}",
+        a[0].message
+    );
     // Raised at the run's onset (the start of the tested part).
     assert_eq!(a[0].row, r.equilibration.map(|o| o.row));
     let ok = generated(Scenario::Equilibration, 2000);
-    let r = report(&write(dir.path(), "ok.log", &ok), Some(3000), AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "ok.log", &ok),
+        Some(3000),
+        AlertArgs::default(),
+    );
     assert!(of_kind(&r, AlertKind::FluctuationSize).is_empty());
     // Without N_df the test does not run (Contract).
-    let r = report(&write(dir.path(), "f2.log", &bad), None, AlertArgs::default());
+    let r = report(
+        &write(dir.path(), "f2.log", &bad),
+        None,
+        AlertArgs::default(),
+    );
     assert!(of_kind(&r, AlertKind::FluctuationSize).is_empty());
 }
 

@@ -152,10 +152,7 @@ impl AlertEngine {
             column,
             sustain,
             off + start..off + end,
-            |r| {
-                stat_at(r - off)
-                    .is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se)
-            },
+            |r| stat_at(r - off).is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se),
             |since, now| {
                 let (m, t, se) = stat_at(now - off).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
                 let direction = if m < t { "below" } else { "above" };

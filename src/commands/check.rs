@@ -337,7 +337,11 @@ fn check_file(
         analyzer.engine().alerts().len(),
         sinks.fail_at
     );
-    Ok(if failing > 0 { EXIT_ALERTS } else { EXIT_HEALTHY })
+    Ok(if failing > 0 {
+        EXIT_ALERTS
+    } else {
+        EXIT_HEALTHY
+    })
 }
 
 /// Runs `plateau check`.

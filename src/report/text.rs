@@ -22,6 +22,22 @@ pub fn value_with_error(mean: f64, error: Option<f64>) -> String {
     }
 }
 
+/// Three significant digits (for spreads and g, where more digits are noise).
+pub fn sig3(v: f64) -> String {
+    if !v.is_finite() {
+        return format_number(v, "");
+    }
+    if v == 0.0 {
+        return "0".to_string();
+    }
+    let e = v.abs().log10().floor() as i32;
+    if !(-3..6).contains(&e) {
+        return format!("{v:.2e}");
+    }
+    let decimals = (2 - e).max(0) as usize;
+    format!("{v:.decimals$}")
+}
+
 fn opt_number(v: Option<f64>, unit: &str) -> String {
     v.map(|x| format_number(x, unit))
         .unwrap_or_else(|| "-".to_string())
@@ -83,8 +99,8 @@ fn column_rows(r: &Report) -> Vec<[String; 7]> {
             let (mean, std, g, neff) = match &c.production {
                 Some(p) => (
                     value_with_error(p.mean, p.sem.or(p.sem_from_g)),
-                    opt_number(p.std, ""),
-                    opt_number(p.inefficiency, ""),
+                    p.std.map(sig3).unwrap_or_else(|| "-".to_string()),
+                    p.inefficiency.map(sig3).unwrap_or_else(|| "-".to_string()),
                     p.effective_samples
                         .map(|n| format!("{n:.0}"))
                         .unwrap_or_else(|| "-".to_string()),
@@ -242,6 +258,13 @@ pub fn render_text(r: &Report) -> String {
             let _ = writeln!(out, "{l}");
         }
     }
+    if !r.skipped.is_empty() {
+        out.push('\n');
+        let _ = writeln!(out, "skipped lines (first {}):", r.skipped.len().min(10));
+        for s in r.skipped.iter().take(10) {
+            let _ = writeln!(out, "  line {}: {}", s.line, s.reason);
+        }
+    }
     out.push('\n');
     if r.alerts.is_empty() {
         let _ = writeln!(out, "alerts: none");
@@ -322,5 +345,8 @@ mod tests {
         assert_eq!(value_with_error(300.0234, Some(0.1149)), "300.02 ± 0.11");
         assert_eq!(value_with_error(-41500.7, Some(12.3)), "-41501 ± 12");
         assert_eq!(value_with_error(5.0, None), "5");
+        assert_eq!(sig3(2.12553), "2.13");
+        assert_eq!(sig3(163.284), "163");
+        assert_eq!(sig3(1.0), "1.00");
     }
 }
