@@ -4,6 +4,8 @@
 //! The logs come from plateau's own scenario generator (invented, deterministic) and are
 //! changed in known rows here; small hand-written ones live in `tests/fixtures/alerts/`.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
 use std::path::{Path, PathBuf};
 
 use plateau::alert::{AlertKind, Severity};

@@ -2,6 +2,8 @@
 //! or bad arguments, 2 wins over 1), one line per alert, the JSONL alert log, and
 //! `--on-alert` never executing anything but the user's own command.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
 use std::path::{Path, PathBuf};
 
 use assert_cmd::Command;

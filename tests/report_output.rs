@@ -3,6 +3,8 @@
 //! deliberate change of the output, run the tests with `PLATEAU_UPDATE_SNAPSHOTS=1` and
 //! review the diff.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
 use std::path::{Path, PathBuf};
 
 use assert_cmd::Command;

@@ -1,0 +1,220 @@
+//! `plateau check --follow`: alerts as they happen, beside a running simulation.
+//!
+//! Every file (or standard input, `-`) is followed by name; complete lines are fed to a
+//! parser per file, the analysis is updated incrementally (see `analysis` for the schedule)
+//! and each new alert is printed (and logged, bell, `--on-alert`) at once. Stalled output
+//! is checked twice a second against the rows' arrival times. Watching ends when
+//! - every file reached `--until` (a simulated time, or a step count),
+//! - the process given by `--pid` has exited (checked through `/proc/PID`, Linux), or
+//! - standard input ended (when reading `-`),
+//!
+//! and then the remaining rows are judged as a finished file would be. The exit code is the
+//! same as without `--follow`.
+
+use std::collections::BTreeMap;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::sync::mpsc::RecvTimeoutError;
+use std::sync::Arc;
+use std::time::{Duration, SystemTime, UNIX_EPOCH};
+
+use crate::analysis::Analyzer;
+use crate::config::Settings;
+use crate::error::Error;
+use crate::follow::{FollowEvent, FollowOptions, FollowSet, SourceId, SystemClock};
+use crate::mapping::Role;
+use crate::parse::LogParser;
+use crate::table::RunTable;
+use crate::units::TimeSpec;
+
+use super::{analysis_options, parse_until, CheckArgs, Sinks, EXIT_ALERTS, EXIT_HEALTHY};
+
+/// How often the loop wakes up without data (stall checks, `--pid`).
+const TICK: Duration = Duration::from_millis(500);
+
+struct Run {
+    label: String,
+    parser: LogParser,
+    analyzer: Analyzer,
+    /// Arrival second (Unix epoch) of each row of the table.
+    arrivals: Vec<f64>,
+    emitted: usize,
+    dirty: bool,
+    ended: bool,
+}
+
+fn seconds(t: SystemTime) -> f64 {
+    t.duration_since(UNIX_EPOCH)
+        .map(|d| d.as_secs_f64())
+        .unwrap_or(0.0)
+}
+
+/// True when the run's last row reached `until`.
+pub fn reached(table: &RunTable, until: TimeSpec, timestep_ps: Option<f64>) -> bool {
+    let Some(seg) = table.segments.last() else {
+        return false;
+    };
+    let last = |role: Role| seg.column(role).and_then(|c| c.values().last().copied());
+    match until {
+        TimeSpec::Ps(t) => last(Role::Time).is_some_and(|x| x >= t),
+        TimeSpec::Steps(n) => match last(Role::Step) {
+            Some(s) => s >= n,
+            None => match (timestep_ps, last(Role::Time)) {
+                (Some(dt), Some(x)) => x >= n * dt,
+                _ => false,
+            },
+        },
+    }
+}
+
+fn process_alive(pid: u32) -> bool {
+    Path::new("/proc").join(pid.to_string()).exists()
+}
+
+impl Run {
+    fn emit_new(&mut self, sinks: &mut Sinks, out: &mut dyn Write) -> Result<(), Error> {
+        let new: Vec<_> = self
+            .analyzer
+            .engine()
+            .alerts_since(self.emitted)
+            .to_vec();
+        self.emitted += new.len();
+        for a in &new {
+            sinks.emit(out, &self.label, a)?;
+        }
+        Ok(())
+    }
+
+    fn track_rows(&mut self, arrival: f64) {
+        let rows = self.parser.table().rows();
+        if self.arrivals.len() > rows {
+            self.arrivals.truncate(rows);
+        }
+        while self.arrivals.len() < rows {
+            self.arrivals.push(arrival);
+        }
+    }
+}
+
+/// Runs `plateau check --follow`.
+pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
+    let cwd = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let settings = Settings::resolve(&args.input, &cwd)?;
+    let opts = analysis_options(&settings, &args.alerts)?;
+    let until = args.alerts.until.as_deref().map(parse_until).transpose()?;
+    let mut sinks = Sinks::new(args)?;
+    let (mut set, rx) = FollowSet::start(FollowOptions::default(), Arc::new(SystemClock))
+        .map_err(|e| Error::Usage(format!("cannot start following: {e}")))?;
+    let mut runs: BTreeMap<SourceId, Run> = BTreeMap::new();
+    let mut stdin_used = false;
+    for path in &args.files {
+        let is_stdin = path.as_os_str() == "-";
+        let id = if is_stdin {
+            if stdin_used {
+                return Err(Error::Usage("standard input (-) can be read only once".into()));
+            }
+            stdin_used = true;
+            set.add_stdin()
+        } else {
+            set.add_path(path.clone())
+        }
+        .map_err(|e| Error::Usage(format!("cannot follow {}: {e}", path.display())))?;
+        runs.insert(
+            id,
+            Run {
+                label: path.display().to_string(),
+                parser: LogParser::new(settings.parse.clone()),
+                analyzer: Analyzer::new(opts.clone()),
+                arrivals: Vec::new(),
+                emitted: 0,
+                dirty: false,
+                ended: false,
+            },
+        );
+    }
+    let mut errors = false;
+    loop {
+        match rx.recv_timeout(TICK) {
+            Ok((id, event)) => {
+                if let Some(run) = runs.get_mut(&id) {
+                    match event {
+                        FollowEvent::Data { bytes, arrival, .. } => {
+                            run.parser.feed(&bytes);
+                            run.track_rows(seconds(arrival));
+                            run.dirty = true;
+                        }
+                        FollowEvent::EndOfInput { .. } => {
+                            run.parser.finish();
+                            run.ended = true;
+                            run.dirty = true;
+                        }
+                        FollowEvent::Error { path, message } => {
+                            eprintln!("plateau: {}: {message}", path.display());
+                            errors = true;
+                        }
+                        _ => {}
+                    }
+                }
+            }
+            Err(RecvTimeoutError::Timeout) => {}
+            Err(RecvTimeoutError::Disconnected) => break,
+        }
+        let now = seconds(SystemTime::now());
+        for run in runs.values_mut() {
+            if run.dirty {
+                run.dirty = false;
+                run.analyzer
+                    .update(run.parser.table(), run.ended, Some(&run.arrivals), run.ended);
+            }
+            if !run.ended {
+                let last_row = run.parser.table().rows().checked_sub(1);
+                run.analyzer.check_stall(now, &run.arrivals, last_row);
+            }
+            run.emit_new(&mut sinks, out)?;
+        }
+        let all_reached = until.is_some_and(|u| {
+            runs.values()
+                .all(|r| reached(r.parser.table(), u, settings.timestep_ps))
+        });
+        let pid_gone = args.pid.is_some_and(|p| !process_alive(p));
+        let input_over = stdin_used && runs.values().all(|r| r.ended);
+        if all_reached || pid_gone || input_over {
+            break;
+        }
+    }
+    set.stop();
+    let mut code = EXIT_HEALTHY;
+    for run in runs.values_mut() {
+        run.parser.finish();
+        let analysis = run.analyzer.update(
+            run.parser.table(),
+            true,
+            Some(&run.arrivals),
+            true,
+        );
+        run.emit_new(&mut sinks, out)?;
+        let failing = run
+            .analyzer
+            .engine()
+            .alerts()
+            .iter()
+            .filter(|a| a.severity >= sinks.fail_at)
+            .count();
+        eprintln!(
+            "{}: {} ({} rows, {} alerts, {failing} at or above {})",
+            run.label,
+            analysis.status,
+            run.parser.table().rows(),
+            run.analyzer.engine().alerts().len(),
+            sinks.fail_at
+        );
+        if failing > 0 {
+            code = EXIT_ALERTS;
+        }
+    }
+    sinks.finish();
+    if errors {
+        code = super::combine_exit(code, super::EXIT_ERROR);
+    }
+    Ok(code)
+}
