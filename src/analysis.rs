@@ -48,6 +48,10 @@ pub const TREND_MAX_POINTS: usize = 2000;
 /// Rows before the checked window whose median and MAD are the runaway baseline
 /// (common practice, no source).
 pub const RUNAWAY_BASELINE_ROWS: usize = 200;
+/// The runaway baseline is recomputed every this many rows (a median and a MAD of
+/// [`RUNAWAY_BASELINE_ROWS`] values; recomputing it for every window would dominate the
+/// cost on long runs).
+pub const RUNAWAY_BASELINE_STEP: usize = 100;
 /// Runaway growth factor across the window (stats default: tenfold).
 pub const RUNAWAY_MIN_GROWTH: f64 = 10.0;
 /// Far excursion in robust SDs of the baseline (METHODS §8).
@@ -747,6 +751,12 @@ impl Analyzer {
             .as_ref()
             .and_then(|a| a.equilibration.and_then(|e| e.row()));
 
+        let analysed = seg
+            .columns
+            .iter()
+            .filter(|c| has_statistics(c.spec.role))
+            .count();
+        let context_sigmas = spike_threshold(t.spike_sigmas, n.saturating_mul(analysed));
         for (ci, col) in seg.columns.iter().enumerate() {
             let name = col.spec.name.as_str();
             let unit = col.spec.unit.map(|u| u.to_string()).unwrap_or_default();
@@ -773,7 +783,7 @@ impl Analyzer {
                     .into_iter()
                     .map(|i| i + lo)
                     .filter(|i| (spike_start..spike_end).contains(i))
-                    .filter(|&i| beyond_context(values, i, k, t.spike_sigmas))
+                    .filter(|&i| beyond_context(values, i, k, context_sigmas))
                     .collect();
                 if let Some(cur) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) {
                     cur.spikes += flagged.len() as u64;
@@ -796,7 +806,7 @@ impl Analyzer {
                                  (more than {} robust SDs from the moving median); look at this \
                                  step in the simulation's output",
                                 crate::alert::format_number(v, &unit_s),
-                                t.spike_sigmas
+                                crate::alert::format_number(context_sigmas, "")
                             ),
                         )
                         .column(name)
@@ -928,13 +938,32 @@ impl Analyzer {
 
 /// Rows around a spike whose robust SD is the spike's yardstick besides the Hampel
 /// window's own (common practice, no source).
-pub const SPIKE_CONTEXT_ROWS: usize = 100;
+pub const SPIKE_CONTEXT_ROWS: usize = 250;
+
+/// Family-wise false-alarm probability of the spike test over a whole segment (all its
+/// analysed columns): 1 % (common practice, no source).
+pub const SPIKE_FAMILY_ALPHA: f64 = 0.01;
+
+/// Threshold of the second spike test, in robust SDs: at least `sigmas`, and at least the
+/// Bonferroni bound z with P(|Z| > z) = α / tests for `tests` Gaussian values (textbook
+/// multiple-testing correction), so a healthy run of any length raises a spike alert with
+/// probability about α at most. 5 SD for 2·10⁴ values, about 6.1 for 10⁷; capped at 8.
+pub fn spike_threshold(sigmas: f64, tests: usize) -> f64 {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    let p = SPIKE_FAMILY_ALPHA / (2.0 * tests.max(1) as f64);
+    let z = Normal::new(0.0, 1.0)
+        .ok()
+        .map(|n| -n.inverse_cdf(p))
+        .filter(|z| z.is_finite())
+        .unwrap_or(sigmas);
+    sigmas.max(z.min(8.0))
+}
 
 /// Second spike test: the value must also lie `sigmas` robust SDs of its wider context
 /// (the 2·[`SPIKE_CONTEXT_ROWS`] rows around it) from the Hampel window's median. The MAD of
 /// 2k+1 = 21 correlated rows is itself noisy (relative error about a quarter), so the
-/// Hampel identifier alone flags about one healthy row in a thousand; the wider scale keeps
-/// the Gaussian false-alarm rate near P(|z| > 5) ≈ 6e-7 per row.
+/// Hampel identifier alone flags about one healthy row in a thousand; the wider scale and
+/// [`spike_threshold`] keep false alarms rare however long the run.
 fn beyond_context(values: &[f64], i: usize, k: usize, sigmas: f64) -> bool {
     let Some(&x) = values.get(i) else {
         return false;
@@ -991,8 +1020,8 @@ pub fn runaway_options(t: &Thresholds) -> RunawayOptions {
 
 /// Rows in `rows` that grow exponentially or sit far out (with the growth's samples per
 /// decade, NaN for a far excursion), judged against the median and MAD of the
-/// [`RUNAWAY_BASELINE_ROWS`] rows before the checked window, recomputed every `window` rows
-/// (`cache` keeps the last baseline). O(rows) plus O(window) per row that passes the cheap
+/// [`RUNAWAY_BASELINE_ROWS`] rows that end at the last multiple of
+/// [`RUNAWAY_BASELINE_STEP`] before the checked window (`cache` keeps the last baseline). O(rows) plus O(window) per row that passes the cheap
 /// size test. With `first_only` it stops at the first flagged row.
 fn runaway_flags(
     values: &[f64],
@@ -1008,7 +1037,7 @@ fn runaway_flags(
         if !x.is_finite() {
             continue;
         }
-        let base_end = ((r + 1 - w) / w) * w;
+        let base_end = ((r + 1 - w) / RUNAWAY_BASELINE_STEP) * RUNAWAY_BASELINE_STEP;
         let base = match *cache {
             Some((end, b)) if end == base_end => b,
             _ => {
