@@ -6,6 +6,9 @@
 //! re-creation), and the product Contract: a line without its newline is held back; at the
 //! end of input it is reported as given up.
 
+// Test helpers may unwrap: a failure there is a test failure.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
 use std::fs::{self, OpenOptions};
 use std::io::{Cursor, Read, Write};
 use std::path::Path;

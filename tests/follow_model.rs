@@ -11,6 +11,9 @@
 //!   truncation (bytes truncated before anyone looked at them are gone for any reader);
 //!   writes may pile up between checks, and a rotated or deleted file is drained afterwards.
 
+// Test helpers may unwrap: a failure there is a test failure.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
 use std::fs::{self, OpenOptions};
 use std::io::Write;
 use std::path::{Path, PathBuf};

@@ -528,3 +528,57 @@ fn describe_watch_error(e: &notify::Error) -> DirWatch {
         },
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::follow::SystemClock;
+
+    fn wait_for_mode(rx: &FollowReceiver, want: impl Fn(&WatchMode) -> bool) -> WatchMode {
+        let deadline = Instant::now() + Duration::from_secs(20);
+        loop {
+            let left = deadline.saturating_duration_since(Instant::now());
+            match rx.recv_timeout(left) {
+                Ok((_, FollowEvent::Mode(m))) if want(&m) => return m,
+                Ok(_) => {}
+                Err(e) => panic!("mode never came: {e}"),
+            }
+        }
+    }
+
+    /// A lost-events notice (inotify queue overflow) switches to polling and says why
+    /// (notify-types: `Event::need_rescan` marks a queue overflow).
+    #[test]
+    fn queue_overflow_falls_back_to_polling() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("run.log");
+        std::fs::write(&p, "a\n").unwrap();
+        let (mut set, rx) =
+            FollowSet::start(FollowOptions::default(), Arc::new(SystemClock)).unwrap();
+        set.add_path(&p).unwrap();
+        wait_for_mode(&rx, |m| matches!(m, WatchMode::Events { .. }));
+        let overflow = notify::Event::new(EventKind::Other).set_flag(notify::event::Flag::Rescan);
+        set.control.send(Control::Fs(Ok(overflow))).unwrap();
+        let m = wait_for_mode(&rx, |m| matches!(m, WatchMode::PollingFallback { .. }));
+        assert!(matches!(m, WatchMode::PollingFallback { reason, .. } if reason.contains("lost")));
+        set.stop();
+    }
+
+    /// The inotify watch limit reported by the watcher switches to polling and names the limit.
+    #[test]
+    fn watch_limit_falls_back_to_polling() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("run.log");
+        let (mut set, rx) =
+            FollowSet::start(FollowOptions::default(), Arc::new(SystemClock)).unwrap();
+        set.add_path(&p).unwrap();
+        wait_for_mode(&rx, |m| matches!(m, WatchMode::Events { .. }));
+        let limit = notify::Error::new(notify::ErrorKind::MaxFilesWatch);
+        set.control.send(Control::Fs(Err(limit))).unwrap();
+        let m = wait_for_mode(&rx, |m| matches!(m, WatchMode::PollingFallback { .. }));
+        assert!(
+            matches!(m, WatchMode::PollingFallback { reason, .. } if reason.contains("max_user_watches"))
+        );
+        set.stop();
+    }
+}
