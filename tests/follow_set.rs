@@ -246,3 +246,75 @@ fn following_leaves_the_file_untouched() {
     );
     assert_eq!(before, after);
 }
+
+#[test]
+fn removed_folder_is_polled_then_watched_again() {
+    let dir = tempfile::tempdir().unwrap();
+    let sub = dir.path().join("job");
+    fs::create_dir(&sub).unwrap();
+    let p = sub.join("run.log");
+    fs::write(&p, "a\n").unwrap();
+    let (mut set, rx) = FollowSet::start(FollowOptions::default(), Arc::new(SystemClock)).unwrap();
+    let id = set.add_path(&p).unwrap();
+    let mut got = Vec::new();
+    wait_until(&rx, &mut got, |g| text_of(g, id) == "a\n");
+    if !has(&got, id, |e| {
+        matches!(e, FollowEvent::Mode(WatchMode::Events { .. }))
+    }) {
+        eprintln!("skipped: no file events here");
+        return;
+    }
+    fs::remove_dir_all(&sub).unwrap();
+    wait_until(&rx, &mut got, |g| {
+        has(g, id, |e| matches!(e, FollowEvent::Deleted { .. }))
+            && has(
+                g,
+                id,
+                |e| matches!(e, FollowEvent::Mode(WatchMode::PollingFallback { reason, .. }) if reason.contains("removed")),
+            )
+    });
+    fs::create_dir(&sub).unwrap();
+    fs::write(&p, "b\n").unwrap();
+    set.poll_now();
+    wait_until(&rx, &mut got, |g| text_of(g, id) == "a\nb\n");
+    // The next stat check watches the folder again.
+    let events_again = |g: &[(SourceId, FollowEvent)]| {
+        g.iter()
+            .rev()
+            .find_map(|(s, e)| match e {
+                FollowEvent::Mode(m) if *s == id => Some(matches!(m, WatchMode::Events { .. })),
+                _ => None,
+            })
+            .unwrap_or(false)
+    };
+    wait_until(&rx, &mut got, events_again);
+    set.stop();
+}
+
+#[cfg(unix)]
+#[test]
+fn symbolic_link_is_woken_by_events_in_the_target_folder() {
+    let link_dir = tempfile::tempdir().unwrap();
+    let real_dir = tempfile::tempdir().unwrap();
+    let real = real_dir.path().join("run.log");
+    fs::write(&real, "a\n").unwrap();
+    let link = link_dir.path().join("current.log");
+    std::os::unix::fs::symlink(&real, &link).unwrap();
+    let options = FollowOptions {
+        heartbeat: NEVER,
+        ..FollowOptions::default()
+    };
+    let (mut set, rx) = FollowSet::start(options, Arc::new(SystemClock)).unwrap();
+    let id = set.add_path(&link).unwrap();
+    let mut got = Vec::new();
+    wait_until(&rx, &mut got, |g| text_of(g, id) == "a\n");
+    if !has(&got, id, |e| {
+        matches!(e, FollowEvent::Mode(WatchMode::Events { .. }))
+    }) {
+        eprintln!("skipped: no file events here");
+        return;
+    }
+    append(&real, "b\n");
+    wait_until(&rx, &mut got, |g| text_of(g, id) == "a\nb\n");
+    set.stop();
+}

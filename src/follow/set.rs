@@ -289,7 +289,15 @@ impl Driver {
                     *all = true;
                 } else if !matches!(event.kind, EventKind::Access(_)) {
                     // Our own opening and reading of a file shows up as access events.
+                    let gone = matches!(
+                        event.kind,
+                        EventKind::Remove(_)
+                            | EventKind::Modify(notify::event::ModifyKind::Name(_))
+                    );
                     for path in &event.paths {
+                        if gone && self.dirs.contains_key(path.as_path()) {
+                            self.lost_dir(path);
+                        }
                         self.hint(path);
                     }
                 }
@@ -328,12 +336,21 @@ impl Driver {
             .as_ref()
             .and_then(|p| p.parent())
             .map(Path::to_path_buf);
-        if let Some(p) = target {
-            self.by_path.entry(p).or_default().push(index);
-        }
         if let Some(d) = &dir {
             self.by_dir.entry(d.clone()).or_default().push(index);
             self.watch_dir(d);
+        }
+        if let Some(p) = target {
+            // A symbolic link: appends show up as events in the target's folder.
+            let real = std::fs::canonicalize(&p).ok().filter(|r| *r != p);
+            if let Some(real_dir) = real.as_ref().and_then(|r| r.parent()) {
+                let real_dir = real_dir.to_path_buf();
+                self.watch_dir(&real_dir);
+            }
+            self.by_path.entry(p).or_default().push(index);
+            if let Some(r) = real {
+                self.by_path.entry(r).or_default().push(index);
+            }
         }
         self.entries.push(Entry {
             id,
@@ -381,6 +398,22 @@ impl Driver {
         if changed {
             self.update_modes();
         }
+    }
+
+    /// A watched folder was removed or renamed: its watch is gone; poll its files and try
+    /// to watch it again on each stat check.
+    fn lost_dir(&mut self, dir: &Path) {
+        if let Some(watcher) = self.watcher.as_mut() {
+            let _ = watcher.unwatch(dir);
+        }
+        self.dirs.insert(
+            dir.to_path_buf(),
+            DirWatch::Unwatched {
+                reason: "folder was removed or renamed".into(),
+                retry: true,
+            },
+        );
+        self.update_modes();
     }
 
     fn fall_back(&mut self, reason: String) {
@@ -445,7 +478,7 @@ impl Driver {
         if all_events && !self.options.force_poll && self.fallback.is_none() {
             self.options.heartbeat
         } else {
-            self.options.poll_interval.min(self.options.heartbeat)
+            self.options.poll_interval
         }
     }
 
