@@ -1,1 +1,425 @@
 //! Settings: `plateau.toml` (current folder or `--config`) merged with the command line.
+//!
+//! Precedence: command line > the chosen layout > the file's top level > defaults, resolved
+//! once into a validated [`Settings`]. Keys are the command-line option names:
+//!
+//! ```toml
+//! # plateau.toml
+//! comment = ["#", ";"]
+//! delimiter = "auto"            # auto | whitespace | comma | tab
+//! timestep = "2fs"              # or a number in ps
+//! atoms = 3000
+//! constraints = 0
+//! dof = 8997
+//! ensemble = "nvt"              # nve | nvt | npt
+//! layout = "chatty"             # layout used when --layout is not given
+//!
+//! [layouts.chatty]              # any name; pick with --layout chatty
+//! row-tag = "THERMO"
+//! map = ["temperature=Temp", "pressure=3:atm"]
+//! ```
+//!
+//! A layout holds the same keys as the top level (except `layout` and `layouts`). Unknown
+//! keys are rejected with the file name and the key. `--map` entries merge by role: a role
+//! given at a higher level replaces that role's entries from lower levels.
+
+use std::collections::BTreeMap;
+use std::fmt;
+use std::path::{Path, PathBuf};
+use std::str::FromStr;
+
+use serde::{Deserialize, Serialize};
+
+use crate::cli::InputArgs;
+use crate::error::ConfigError;
+use crate::mapping::MapRequest;
+use crate::parse::{DelimiterChoice, ParseOptions, DEFAULT_COMMENT_PREFIXES};
+use crate::units::{parse_quantity, Dimension};
+
+/// The settings file looked for in the current folder.
+pub const CONFIG_FILE_NAME: &str = "plateau.toml";
+
+/// Thermodynamic ensemble of a run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Ensemble {
+    /// Constant energy.
+    Nve,
+    /// Constant temperature.
+    Nvt,
+    /// Constant temperature and pressure.
+    Npt,
+}
+
+impl FromStr for Ensemble {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Ensemble, String> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "nve" => Ok(Ensemble::Nve),
+            "nvt" => Ok(Ensemble::Nvt),
+            "npt" => Ok(Ensemble::Npt),
+            _ => Err(format!("'{s}' is not an ensemble (nve, nvt, npt)")),
+        }
+    }
+}
+
+impl fmt::Display for Ensemble {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Ensemble::Nve => "nve",
+            Ensemble::Nvt => "nvt",
+            Ensemble::Npt => "npt",
+        })
+    }
+}
+
+/// A number in the canonical unit or a text with a suffix (`timestep = 0.002` or `"2fs"`).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(untagged)]
+pub enum NumberOrText {
+    /// A bare number (canonical unit).
+    Number(f64),
+    /// A number with a unit suffix.
+    Text(String),
+}
+
+/// Input options as written in the file (top level or a layout).
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct InputConfig {
+    /// `--map` entries.
+    pub map: Option<Vec<String>>,
+    /// `--row-tag`.
+    pub row_tag: Option<String>,
+    /// `--comment` prefixes.
+    pub comment: Option<Vec<String>>,
+    /// `--delimiter`.
+    pub delimiter: Option<DelimiterChoice>,
+    /// `--timestep`.
+    pub timestep: Option<NumberOrText>,
+    /// `--atoms`.
+    pub atoms: Option<u64>,
+    /// `--constraints`.
+    pub constraints: Option<u64>,
+    /// `--dof`.
+    pub dof: Option<u64>,
+    /// `--ensemble`.
+    pub ensemble: Option<Ensemble>,
+}
+
+/// The whole settings file.
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct FileConfig {
+    /// Layout used when `--layout` is not given.
+    pub layout: Option<String>,
+    /// Named layouts.
+    #[serde(default)]
+    pub layouts: BTreeMap<String, InputConfig>,
+    /// `--map` entries.
+    pub map: Option<Vec<String>>,
+    /// `--row-tag`.
+    pub row_tag: Option<String>,
+    /// `--comment` prefixes.
+    pub comment: Option<Vec<String>>,
+    /// `--delimiter`.
+    pub delimiter: Option<DelimiterChoice>,
+    /// `--timestep`.
+    pub timestep: Option<NumberOrText>,
+    /// `--atoms`.
+    pub atoms: Option<u64>,
+    /// `--constraints`.
+    pub constraints: Option<u64>,
+    /// `--dof`.
+    pub dof: Option<u64>,
+    /// `--ensemble`.
+    pub ensemble: Option<Ensemble>,
+}
+
+impl FileConfig {
+    /// Reads and checks a settings file.
+    pub fn load(path: &Path) -> Result<FileConfig, ConfigError> {
+        let text = std::fs::read_to_string(path).map_err(|source| ConfigError::Read {
+            path: path.to_path_buf(),
+            source,
+        })?;
+        FileConfig::parse(&text, path)
+    }
+
+    /// Parses settings text (`path` only names it in errors).
+    pub fn parse(text: &str, path: &Path) -> Result<FileConfig, ConfigError> {
+        toml::from_str(text).map_err(|e| ConfigError::Parse {
+            path: path.to_path_buf(),
+            message: e.to_string().trim_end().to_string(),
+        })
+    }
+
+    fn top(&self) -> InputConfig {
+        InputConfig {
+            map: self.map.clone(),
+            row_tag: self.row_tag.clone(),
+            comment: self.comment.clone(),
+            delimiter: self.delimiter,
+            timestep: self.timestep.clone(),
+            atoms: self.atoms,
+            constraints: self.constraints,
+            dof: self.dof,
+            ensemble: self.ensemble,
+        }
+    }
+}
+
+/// Validated settings for reading a log.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Settings {
+    /// What the parser needs.
+    pub parse: ParseOptions,
+    /// Time step in ps.
+    pub timestep_ps: Option<f64>,
+    /// `--atoms`.
+    pub atoms: Option<u64>,
+    /// `--constraints`.
+    pub constraints: Option<u64>,
+    /// `--dof`.
+    pub dof: Option<u64>,
+    /// `--ensemble`.
+    pub ensemble: Option<Ensemble>,
+    /// The settings file used, if any.
+    pub config_file: Option<PathBuf>,
+    /// The layout used, if any.
+    pub layout: Option<String>,
+}
+
+impl Settings {
+    /// Degrees of freedom: `--dof`, else 3N − constraints − 3 when `--atoms` is known.
+    pub fn degrees_of_freedom(&self) -> Option<u64> {
+        self.dof.or_else(|| {
+            let n = self.atoms?;
+            (3 * n).checked_sub(self.constraints.unwrap_or(0) + 3)
+        })
+    }
+
+    /// Resolves the command line with the settings file (`--config`, else `plateau.toml`
+    /// in `cwd` if it exists) into settings.
+    pub fn resolve(args: &InputArgs, cwd: &Path) -> Result<Settings, ConfigError> {
+        let (file, path) = match &args.config {
+            Some(p) => (Some(FileConfig::load(p)?), Some(p.clone())),
+            None => {
+                let p = cwd.join(CONFIG_FILE_NAME);
+                if p.is_file() {
+                    (Some(FileConfig::load(&p)?), Some(p))
+                } else {
+                    (None, None)
+                }
+            }
+        };
+        Settings::merge(args, file.as_ref(), path.as_deref())
+    }
+
+    /// Merges the command line over a parsed settings file.
+    pub fn merge(
+        args: &InputArgs,
+        file: Option<&FileConfig>,
+        path: Option<&Path>,
+    ) -> Result<Settings, ConfigError> {
+        let origin = path.map_or_else(|| CONFIG_FILE_NAME.to_string(), |p| p.display().to_string());
+        let mut levels: Vec<(String, InputConfig)> = Vec::new();
+        let mut layout_used = None;
+        if let Some(file) = file {
+            levels.push((origin.clone(), file.top()));
+            let wanted = args.layout.clone().or_else(|| file.layout.clone());
+            if let Some(name) = wanted {
+                let layout = file
+                    .layouts
+                    .get(&name)
+                    .ok_or_else(|| ConfigError::UnknownLayout {
+                        name: name.clone(),
+                        known: file.layouts.keys().cloned().collect(),
+                        origin: origin.clone(),
+                    })?;
+                levels.push((format!("{origin} [layouts.{name}]"), layout.clone()));
+                layout_used = Some(name);
+            }
+        } else if let Some(name) = &args.layout {
+            return Err(ConfigError::UnknownLayout {
+                name: name.clone(),
+                known: Vec::new(),
+                origin: "the settings (no plateau.toml found; use --config FILE)".to_string(),
+            });
+        }
+
+        let mut s = Settings {
+            config_file: path.map(Path::to_path_buf),
+            layout: layout_used,
+            ..Settings::default()
+        };
+        let mut maps: Vec<MapRequest> = Vec::new();
+        for (origin, level) in &levels {
+            if let Some(list) = &level.map {
+                let mut parsed = Vec::new();
+                for m in list {
+                    parsed.push(m.parse::<MapRequest>().map_err(|e| ConfigError::Value {
+                        origin: origin.clone(),
+                        key: "map".into(),
+                        message: e.to_string(),
+                    })?);
+                }
+                merge_maps(&mut maps, parsed);
+            }
+            if let Some(t) = &level.row_tag {
+                s.parse.row_tag = Some(t.clone());
+            }
+            if let Some(c) = &level.comment {
+                s.parse.comment_prefixes = c.clone();
+            }
+            if let Some(d) = level.delimiter {
+                s.parse.delimiter = d;
+            }
+            if let Some(t) = &level.timestep {
+                s.timestep_ps = Some(timestep(t).map_err(|message| ConfigError::Value {
+                    origin: origin.clone(),
+                    key: "timestep".into(),
+                    message,
+                })?);
+            }
+            s.atoms = level.atoms.or(s.atoms);
+            s.constraints = level.constraints.or(s.constraints);
+            s.dof = level.dof.or(s.dof);
+            s.ensemble = level.ensemble.or(s.ensemble);
+        }
+        // The command line.
+        merge_maps(&mut maps, args.map.clone());
+        if let Some(t) = &args.row_tag {
+            s.parse.row_tag = Some(t.clone());
+        }
+        if !args.comment.is_empty() {
+            s.parse.comment_prefixes = args.comment.clone();
+        }
+        if let Some(d) = &args.delimiter {
+            s.parse.delimiter = match d.as_str() {
+                "whitespace" => DelimiterChoice::Whitespace,
+                "comma" => DelimiterChoice::Comma,
+                "tab" => DelimiterChoice::Tab,
+                _ => DelimiterChoice::Auto,
+            };
+        }
+        s.timestep_ps = args.timestep.or(s.timestep_ps);
+        s.atoms = args.atoms.or(s.atoms);
+        s.constraints = args.constraints.or(s.constraints);
+        s.dof = args.dof.or(s.dof);
+        s.ensemble = args.ensemble.or(s.ensemble);
+
+        s.parse.maps = maps;
+        s.parse.timestep_ps = s.timestep_ps;
+        s.parse.comment_prefixes.retain(|p| !p.trim().is_empty());
+        if s.parse
+            .row_tag
+            .as_deref()
+            .is_some_and(|t| t.trim().is_empty())
+        {
+            return Err(ConfigError::Value {
+                origin: "settings".into(),
+                key: "row-tag".into(),
+                message: "the row tag must not be empty".into(),
+            });
+        }
+        if let (Some(n), Some(c)) = (s.atoms, s.constraints) {
+            if s.dof.is_none() && (3 * n) < c + 3 {
+                return Err(ConfigError::Value {
+                    origin: "settings".into(),
+                    key: "constraints".into(),
+                    message: format!("{c} constraints leave no degrees of freedom for {n} atoms"),
+                });
+            }
+        }
+        Ok(s)
+    }
+
+    /// The comment prefixes in force, or the defaults' description.
+    pub fn default_comment_prefixes() -> Vec<String> {
+        DEFAULT_COMMENT_PREFIXES
+            .iter()
+            .map(|s| s.to_string())
+            .collect()
+    }
+}
+
+fn timestep(t: &NumberOrText) -> Result<f64, String> {
+    let ps = match t {
+        NumberOrText::Number(n) => *n,
+        NumberOrText::Text(s) => parse_quantity(s, Dimension::Time).map_err(|e| e.to_string())?,
+    };
+    if ps > 0.0 && ps.is_finite() {
+        Ok(ps)
+    } else {
+        Err("the time step must be positive".into())
+    }
+}
+
+/// A role given at a higher level replaces that role's entries from lower levels.
+fn merge_maps(base: &mut Vec<MapRequest>, over: Vec<MapRequest>) {
+    let roles: Vec<_> = over.iter().map(|m| m.role).collect();
+    base.retain(|m| !roles.contains(&m.role));
+    base.extend(over);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::mapping::Role;
+
+    #[test]
+    fn precedence() {
+        let file = FileConfig::parse(
+            r#"
+timestep = 0.001
+atoms = 10
+map = ["temperature=2", "pressure=3"]
+[layouts.a]
+timestep = "2fs"
+map = ["pressure=4:atm"]
+row-tag = "DATA"
+"#,
+            Path::new("plateau.toml"),
+        )
+        .unwrap();
+        let args = InputArgs {
+            layout: Some("a".into()),
+            map: vec!["temperature=5".parse().unwrap()],
+            ..InputArgs::default()
+        };
+        let s = Settings::merge(&args, Some(&file), Some(Path::new("plateau.toml"))).unwrap();
+        assert_eq!(s.timestep_ps, Some(0.002));
+        assert_eq!(s.atoms, Some(10));
+        assert_eq!(s.parse.row_tag.as_deref(), Some("DATA"));
+        assert_eq!(s.parse.maps.len(), 2);
+        assert!(s
+            .parse
+            .maps
+            .iter()
+            .any(|m| m.role == Role::Pressure && m.column == crate::mapping::ColumnRef::Index(4)));
+        assert!(s.parse.maps.iter().any(
+            |m| m.role == Role::Temperature && m.column == crate::mapping::ColumnRef::Index(5)
+        ));
+        assert_eq!(s.degrees_of_freedom(), Some(27));
+    }
+
+    #[test]
+    fn unknown_key_and_layout() {
+        let e = FileConfig::parse("colour = 1\n", Path::new("x/plateau.toml")).unwrap_err();
+        let msg = e.to_string();
+        assert!(
+            msg.contains("x/plateau.toml") && msg.contains("colour"),
+            "{msg}"
+        );
+        let e = FileConfig::parse("[layouts.a]\nrowtag = 'X'\n", Path::new("p.toml")).unwrap_err();
+        assert!(e.to_string().contains("rowtag"));
+        let file = FileConfig::parse("[layouts.a]\n", Path::new("p.toml")).unwrap();
+        let args = InputArgs {
+            layout: Some("b".into()),
+            ..InputArgs::default()
+        };
+        let e = Settings::merge(&args, Some(&file), Some(Path::new("p.toml"))).unwrap_err();
+        assert!(e.to_string().contains("'b'") && e.to_string().contains("a"));
+    }
+}

@@ -1,2 +1,28 @@
 //! Thin binary: everything lives in the library.
-fn main() {}
+//!
+//! Exit codes: 0 success, 1 check failed (later commands), 2 unreadable input, bad
+//! arguments or bad settings (clap's own usage errors exit 2 too). A closed pipe on
+//! standard output exits 0 quietly.
+
+use std::io::Write;
+use std::process::ExitCode;
+
+use clap::Parser;
+
+fn main() -> ExitCode {
+    let cli = plateau::cli::Cli::parse();
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    let result = plateau::commands::run(cli, &mut out).and_then(|code| {
+        out.flush().map_err(plateau::error::Error::Output)?;
+        Ok(code)
+    });
+    match result {
+        Ok(code) => ExitCode::from(code),
+        Err(e) if e.is_broken_pipe() => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("plateau: error: {e}");
+            ExitCode::from(2)
+        }
+    }
+}

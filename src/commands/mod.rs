@@ -1,1 +1,53 @@
 //! One module per subcommand: each turns validated settings into output and an outcome.
+//!
+//! [`run`] dispatches; each command writes its output to the writer it is given (stdout in
+//! the binary) and returns an exit code (0 here; `check` will return 1 on alerts). Errors
+//! (unreadable input, bad settings) are returned to `main`, which prints them and exits 2.
+
+pub mod columns;
+pub mod generate;
+pub mod report;
+
+use std::io::Write;
+use std::path::Path;
+
+use crate::cli::{Cli, Command, InputArgs};
+use crate::config::Settings;
+use crate::error::Error;
+use crate::table::RunTable;
+
+/// Runs a parsed command line, writing output to `out`. Returns the exit code.
+pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
+    match cli.command {
+        Command::Columns(args) => columns::run(&args, out),
+        Command::Report(args) => report::run(&args, out),
+        Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
+    }
+}
+
+/// Resolves the settings (current folder's `plateau.toml` or `--config`) and reads a whole
+/// file into a table.
+pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Error> {
+    let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
+    let settings = Settings::resolve(input, &cwd)?;
+    let table = crate::ingest::read_path(file, settings.parse.clone())?;
+    Ok((settings, table))
+}
+
+/// A JSON value for a float: non-finite as the strings "nan", "inf", "-inf" (Contract).
+pub fn json_f64(v: f64) -> serde_json::Value {
+    if v.is_nan() {
+        serde_json::Value::from("nan")
+    } else if v == f64::INFINITY {
+        serde_json::Value::from("inf")
+    } else if v == f64::NEG_INFINITY {
+        serde_json::Value::from("-inf")
+    } else {
+        serde_json::Value::from(v)
+    }
+}
+
+/// Writes a line to `out`, mapping failures to [`Error::Output`].
+pub(crate) fn emit(out: &mut dyn Write, text: &str) -> Result<(), Error> {
+    out.write_all(text.as_bytes()).map_err(Error::Output)
+}

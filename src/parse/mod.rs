@@ -1,1 +1,531 @@
 //! The log reader: a pure, chunk-fed parser for any engine's tabular energy log.
+//!
+//! No I/O: feed bytes with [`LogParser::feed`] in chunks of any size, call
+//! [`LogParser::finish`] at the end of input, read the [`RunTable`]. Feeding a file in
+//! arbitrary chunks gives exactly the same table as feeding it whole.
+//!
+//! # Lines
+//! * Lines end at `\n`; a `\r` before it is dropped (CRLF). A line without its newline is
+//!   held back until the newline arrives, never parsed half; at `finish()` it is ignored and
+//!   recorded as [`RunTable::partial_line`].
+//! * A line whose first non-blank characters are a comment prefix is a comment (default
+//!   prefixes [`DEFAULT_COMMENT_PREFIXES`]: `#`, `!`, `;`, `@`, `%`, `//`; replaced by
+//!   `--comment`). A comment may hold a header (`# step temp press`).
+//! * Without a row tag, a line whose first field reads as a number (or `****`) is a
+//!   **data-like** line: it becomes a row, or is skipped with its line number and reason
+//!   (a field that is not a number; a field count that does not match the header).
+//!   Any other line is free text, counted and never an error.
+//! * With a row tag (`--row-tag TAG`), only lines whose first word is `TAG` (or `TAG:`)
+//!   are data-like; the tag is dropped. The header may be tagged too (`TAG step temp`) or be
+//!   an untagged line before the rows: both work, the nearest one wins.
+//!
+//! # Headers and segments
+//! A header is a line whose fields are all names (see [`layout`]). It takes effect at the
+//! next row with the same number of fields: the latest header candidate since the previous
+//! row with that many columns names the columns (so a warning between header and rows does
+//! no harm). Then:
+//! * no segment yet, or a different number of fields: a new segment under that header;
+//! * the same names as the current segment: a repeated header (e.g. after a restart), same
+//!   segment;
+//! * different names, same count: a new segment, but only when the header is the last
+//!   non-blank line before the row (so a chatty line that happens to have as many words
+//!   does not start a segment).
+//!
+//! A row whose field count differs from its segment's, with no header for it, is skipped.
+//! Rows before any header start a segment with names `col1..colN`.
+//!
+//! # Restarts
+//! When the step column goes back or repeats (or, without a step column, the time column
+//! goes back), the rows from that step on are replaced by the new ones; the number replaced
+//! is recorded in [`Segment::restarts`](crate::table::Segment).
+//!
+//! # Numbers
+//! See [`number`]: `nan`/`inf` (counted as non-finite), Fortran `D` exponents, `****`
+//! (stored as NaN and counted as overflow).
+//!
+//! # Two stages, for two cores
+//! [`block::parse_block`] parses complete lines independently of any state;
+//! [`LogParser::apply_block`] merges a block's items in order. `feed` is just the two
+//! applied to the complete lines of each chunk; [`crate::ingest`] splits a large file on
+//! line boundaries, parses the pieces on two threads and applies them in order.
+
+pub mod block;
+pub mod layout;
+pub mod number;
+
+use std::collections::VecDeque;
+
+use crate::mapping::{self, MapRequest, SegmentMapping};
+use crate::table::{Column, PartialLine, RunTable, Segment, SkipReason};
+
+pub use block::{parse_block, parse_block_into, BlockResult};
+use block::{BlockSkip, Item, MAX_LINE};
+pub use layout::{Delimiter, DelimiterChoice, HeaderName};
+
+/// Comment prefixes used unless `--comment` is given.
+pub const DEFAULT_COMMENT_PREFIXES: [&str; 6] = ["#", "!", ";", "@", "%", "//"];
+
+/// How header candidates are remembered between rows.
+const CANDIDATES_KEPT: usize = 4;
+
+/// What the parser needs to know about the log.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParseOptions {
+    /// Field separator.
+    pub delimiter: DelimiterChoice,
+    /// Comment prefixes (an empty list: no comments).
+    pub comment_prefixes: Vec<String>,
+    /// Only lines starting with this word are data.
+    pub row_tag: Option<String>,
+    /// `--map` requests.
+    pub maps: Vec<MapRequest>,
+    /// Time step in ps, to derive time from step.
+    pub timestep_ps: Option<f64>,
+}
+
+impl Default for ParseOptions {
+    fn default() -> ParseOptions {
+        ParseOptions {
+            delimiter: DelimiterChoice::Auto,
+            comment_prefixes: DEFAULT_COMMENT_PREFIXES
+                .iter()
+                .map(|s| s.to_string())
+                .collect(),
+            row_tag: None,
+            maps: Vec::new(),
+            timestep_ps: None,
+        }
+    }
+}
+
+#[derive(Debug, Clone)]
+struct Candidate {
+    line: u64,
+    text: Vec<u8>,
+    columns: usize,
+    delim: Delimiter,
+    commented: bool,
+}
+
+/// The chunk-fed parser. See the module docs.
+#[derive(Debug, Clone)]
+pub struct LogParser {
+    options: ParseOptions,
+    table: RunTable,
+    pending: Vec<u8>,
+    pending_overlong: bool,
+    scratch: BlockResult,
+    /// Complete lines consumed so far.
+    lines_done: u64,
+    current: Option<usize>,
+    candidates: VecDeque<Candidate>,
+    spare: Vec<Vec<u8>>,
+    /// True when the last non-blank line was the newest candidate.
+    adjacent: bool,
+}
+
+impl LogParser {
+    /// A parser with no input yet.
+    pub fn new(options: ParseOptions) -> LogParser {
+        LogParser {
+            options,
+            table: RunTable::default(),
+            pending: Vec::new(),
+            pending_overlong: false,
+            scratch: BlockResult::default(),
+            lines_done: 0,
+            current: None,
+            candidates: VecDeque::new(),
+            spare: Vec::new(),
+            adjacent: false,
+        }
+    }
+
+    /// The options.
+    pub fn options(&self) -> &ParseOptions {
+        &self.options
+    }
+
+    /// The table so far.
+    pub fn table(&self) -> &RunTable {
+        &self.table
+    }
+
+    /// The table, consuming the parser.
+    pub fn into_table(self) -> RunTable {
+        self.table
+    }
+
+    /// Bytes of a line held back until its newline arrives.
+    pub fn pending_bytes(&self) -> usize {
+        self.pending.len()
+    }
+
+    /// Complete lines consumed so far.
+    pub fn lines(&self) -> u64 {
+        self.lines_done
+    }
+
+    /// Feeds the next bytes of the input (any chunking).
+    pub fn feed(&mut self, mut chunk: &[u8]) {
+        if !self.pending.is_empty() || self.pending_overlong {
+            match memchr::memchr(b'\n', chunk) {
+                None => {
+                    self.hold(chunk);
+                    return;
+                }
+                Some(i) => {
+                    let (head, rest) = chunk.split_at(i + 1);
+                    chunk = rest;
+                    if self.pending_overlong {
+                        self.pending_overlong = false;
+                        self.pending.clear();
+                        self.table.text_lines += 1;
+                        self.table.lines += 1;
+                        self.lines_done += 1;
+                    } else {
+                        let mut line = std::mem::take(&mut self.pending);
+                        line.extend_from_slice(head);
+                        self.parse_and_apply(&line);
+                        line.clear();
+                        self.pending = line;
+                    }
+                }
+            }
+        }
+        match memchr::memrchr(b'\n', chunk) {
+            None => self.hold(chunk),
+            Some(i) => {
+                let (complete, rest) = chunk.split_at(i + 1);
+                self.parse_and_apply(complete);
+                self.hold(rest);
+            }
+        }
+    }
+
+    fn hold(&mut self, bytes: &[u8]) {
+        if self.pending_overlong {
+            return;
+        }
+        if self.pending.len() + bytes.len() > MAX_LINE {
+            self.pending.clear();
+            self.pending_overlong = !bytes.is_empty();
+            return;
+        }
+        self.pending.extend_from_slice(bytes);
+    }
+
+    fn parse_and_apply(&mut self, complete: &[u8]) {
+        let mut scratch = std::mem::take(&mut self.scratch);
+        parse_block_into(complete, &self.options, &mut scratch);
+        self.apply_block(&scratch);
+        self.scratch = scratch;
+    }
+
+    /// Ends the input: a held-back partial line is ignored and recorded.
+    pub fn finish(&mut self) {
+        if !self.pending.is_empty() || self.pending_overlong {
+            self.table.partial_line = Some(PartialLine {
+                line: self.lines_done + 1,
+                bytes: self.pending.len() as u64,
+            });
+            self.pending.clear();
+            self.pending_overlong = false;
+        }
+    }
+
+    /// Applies a block parsed by [`parse_block`] from the bytes that follow everything fed so
+    /// far (the block must start at a line boundary: use it only while
+    /// [`pending_bytes`](Self::pending_bytes) is 0, as [`crate::ingest`] does).
+    pub fn apply_block(&mut self, block: &BlockResult) {
+        let base = self.lines_done;
+        let mut vpos = 0usize;
+        let mut opos = 0usize;
+        for item in &block.items {
+            match *item {
+                Item::Row {
+                    line,
+                    fields,
+                    delim,
+                    overflows,
+                } => {
+                    let n = fields as usize;
+                    let values = block.values.get(vpos..vpos + n).unwrap_or_default();
+                    let ov = block
+                        .overflow_fields
+                        .get(opos..opos + overflows as usize)
+                        .unwrap_or_default();
+                    vpos += n;
+                    opos += overflows as usize;
+                    self.on_row(base + line + 1, delim, values, ov, block);
+                }
+                Item::Candidate {
+                    line,
+                    start,
+                    len,
+                    columns,
+                    delim,
+                    commented,
+                } => {
+                    let text = block.text.get(start..start + len).unwrap_or_default();
+                    if commented {
+                        self.table.comment_lines += 1;
+                    } else {
+                        self.table.text_lines += 1;
+                    }
+                    self.push_candidate(base + line + 1, text, columns as usize, delim, commented);
+                }
+                Item::Skipped { line, why } => {
+                    let reason = || match why {
+                        BlockSkip::NotANumber { field, start, len } => SkipReason::NotANumber {
+                            field: field as usize + 1,
+                            text: String::from_utf8_lossy(
+                                block.text.get(start..start + len).unwrap_or_default(),
+                            )
+                            .into_owned(),
+                        },
+                        BlockSkip::TaggedNotData => SkipReason::TaggedNotData,
+                    };
+                    self.table.skip(base + line + 1, reason);
+                }
+                Item::Text { .. } | Item::Overlong { .. } => {
+                    self.table.text_lines += 1;
+                    self.adjacent = false;
+                }
+                Item::Comment { .. } => {
+                    self.table.comment_lines += 1;
+                    self.adjacent = false;
+                }
+                Item::Blank { .. } => self.table.blank_lines += 1,
+            }
+        }
+        self.lines_done += block.lines;
+        self.table.lines += block.lines;
+    }
+
+    fn push_candidate(
+        &mut self,
+        line: u64,
+        text: &[u8],
+        columns: usize,
+        delim: Delimiter,
+        commented: bool,
+    ) {
+        let mut buf = if self.candidates.len() >= CANDIDATES_KEPT {
+            self.candidates
+                .pop_front()
+                .map(|c| c.text)
+                .unwrap_or_default()
+        } else {
+            self.spare.pop().unwrap_or_default()
+        };
+        buf.clear();
+        buf.extend_from_slice(text);
+        self.candidates.push_back(Candidate {
+            line,
+            text: buf,
+            columns,
+            delim,
+            commented,
+        });
+        self.adjacent = true;
+    }
+
+    fn clear_candidates(&mut self) {
+        while let Some(c) = self.candidates.pop_front() {
+            self.spare.push(c.text);
+        }
+        self.adjacent = false;
+    }
+
+    /// The header (if any) that applies to a row of `fields` fields: Some(new segment names).
+    fn header_for(&mut self, fields: usize) -> Option<(Vec<HeaderName>, u64, Delimiter, bool)> {
+        let ci = self.candidates.iter().rposition(|c| c.columns == fields)?;
+        let newest = ci + 1 == self.candidates.len() && self.adjacent;
+        let cand = self.candidates.get(ci)?;
+        let names = layout::header_names(&cand.text, cand.delim);
+        let (line, delim, commented) = (cand.line, cand.delim, cand.commented);
+        let current = self.current.and_then(|i| self.table.segments.get(i));
+        match current {
+            Some(seg) if seg.fields == fields => {
+                if seg.names == names {
+                    self.count_header(commented);
+                    if let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) {
+                        seg.header_repeats += 1;
+                    }
+                    None
+                } else if newest && looks_like_header(&names) {
+                    self.count_header(commented);
+                    Some((names, line, delim, commented))
+                } else {
+                    None
+                }
+            }
+            _ => {
+                self.count_header(commented);
+                Some((names, line, delim, commented))
+            }
+        }
+    }
+
+    /// A candidate became a header: count it as a header instead of text or comment.
+    fn count_header(&mut self, commented: bool) {
+        if commented {
+            self.table.comment_lines = self.table.comment_lines.saturating_sub(1);
+        } else {
+            self.table.text_lines = self.table.text_lines.saturating_sub(1);
+        }
+        self.table.header_lines += 1;
+    }
+
+    fn start_segment(
+        &mut self,
+        names: Vec<HeaderName>,
+        header_line: Option<u64>,
+        delim: Delimiter,
+        commented: bool,
+    ) {
+        let SegmentMapping {
+            columns,
+            order_column,
+            derived_time,
+            warnings,
+        } = mapping::resolve(&names, &self.options.maps, self.options.timestep_ps);
+        for w in warnings {
+            self.table.warn(w);
+        }
+        let fields = names.len();
+        self.table.segments.push(Segment {
+            header_line,
+            names,
+            header_commented: commented,
+            delimiter: delim,
+            fields,
+            columns: columns.into_iter().map(Column::new).collect(),
+            lines: Vec::new(),
+            restarts: Vec::new(),
+            header_repeats: 0,
+            order_column,
+            derived_time,
+        });
+        self.current = Some(self.table.segments.len() - 1);
+    }
+
+    fn on_row(
+        &mut self,
+        line: u64,
+        delim: Delimiter,
+        values: &[f64],
+        overflows: &[u32],
+        _block: &BlockResult,
+    ) {
+        let fields = values.len();
+        if !self.candidates.is_empty() {
+            if let Some((names, hline, hdelim, commented)) = self.header_for(fields) {
+                self.start_segment(names, Some(hline), hdelim, commented);
+            }
+        }
+        let seg_fields = self
+            .current
+            .and_then(|i| self.table.segments.get(i))
+            .map(|s| s.fields);
+        match seg_fields {
+            Some(n) if n == fields => {}
+            Some(n) => {
+                self.table.skip(line, || SkipReason::FieldCount {
+                    expected: n,
+                    found: fields,
+                });
+                return;
+            }
+            None => {
+                let data_delim = if delim == Delimiter::Whitespace
+                    && self.options.delimiter == DelimiterChoice::Tab
+                {
+                    Delimiter::Tab
+                } else {
+                    delim
+                };
+                self.start_segment(mapping::generic_names(fields), None, data_delim, false);
+            }
+        }
+        self.clear_candidates();
+        let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) else {
+            return;
+        };
+        push_row(seg, line, values, overflows);
+    }
+}
+
+/// A candidate may replace a header of the same width only if at least half of its names
+/// (and at least one) read as a role: "step temp volume" does, "Note: list rebuilt now"
+/// does not.
+fn looks_like_header(names: &[HeaderName]) -> bool {
+    let roles = names
+        .iter()
+        .filter(|n| mapping::guess_role(&n.name).is_some())
+        .count();
+    roles >= 1 && 2 * roles >= names.len()
+}
+
+/// Appends one row (source values) to a segment, converting to canonical units and applying
+/// a restart when the order column goes back.
+fn push_row(seg: &mut Segment, line: u64, values: &[f64], overflows: &[u32]) {
+    if let Some(oc) = seg.order_column {
+        if let Some(col) = seg.columns.get(oc) {
+            let v = source_value(col, values, seg.derived_time);
+            let is_step = col.spec.role == Some(mapping::Role::Step);
+            if let Some(&last) = col.values.last() {
+                let back = if is_step { v <= last } else { v < last };
+                if v.is_finite() && last.is_finite() && back {
+                    let cut = col.values.partition_point(|&x| x < v);
+                    let replaced = seg.rows().saturating_sub(cut);
+                    seg.truncate(cut);
+                    seg.restarts.push(crate::table::Restart {
+                        line,
+                        step: v,
+                        rows_replaced: replaced as u64,
+                    });
+                }
+            }
+        }
+    }
+    let derived = seg.derived_time;
+    for col in &mut seg.columns {
+        match col.spec.field {
+            Some(f) => {
+                let raw = values.get(f).copied().unwrap_or(f64::NAN);
+                let overflow = !overflows.is_empty() && overflows.contains(&(f as u32));
+                col.push(raw * col.spec.scale + col.spec.offset, overflow);
+            }
+            None => {
+                let step = derived
+                    .and_then(|(s, _)| values.get(s).copied())
+                    .unwrap_or(f64::NAN);
+                col.push(step * col.spec.scale, false);
+            }
+        }
+    }
+    seg.lines.push(line);
+}
+
+/// The canonical value a row would store in `col`.
+fn source_value(col: &Column, values: &[f64], derived: Option<(usize, f64)>) -> f64 {
+    match col.spec.field {
+        Some(f) => values.get(f).copied().unwrap_or(f64::NAN) * col.spec.scale + col.spec.offset,
+        None => {
+            derived
+                .and_then(|(s, _)| values.get(s).copied())
+                .unwrap_or(f64::NAN)
+                * col.spec.scale
+        }
+    }
+}
+
+/// Parses a whole input held in memory (convenience for tests and small inputs).
+pub fn parse_bytes(bytes: &[u8], options: ParseOptions) -> RunTable {
+    let mut p = LogParser::new(options);
+    p.feed(bytes);
+    p.finish();
+    p.into_table()
+}

@@ -1,0 +1,345 @@
+//! `plateau columns FILE`: the detected layout of a log and a ready-to-paste `--map` line.
+
+use std::fmt::Write as _;
+use std::io::Write;
+use std::path::PathBuf;
+
+use clap::Args;
+use serde::Serialize;
+
+use crate::cli::{InputArgs, OutputFormat};
+use crate::config::Settings;
+use crate::error::Error;
+use crate::mapping::{map_line, Role, RoleSource};
+use crate::parse::{Delimiter, DelimiterChoice};
+use crate::table::{PartialLine, Restart, RunTable};
+
+/// Options of `plateau columns`.
+#[derive(Debug, Clone, Args)]
+pub struct ColumnsArgs {
+    /// The log file (`-` for standard input).
+    pub file: PathBuf,
+    /// How the log is described.
+    #[command(flatten)]
+    pub input: InputArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = OutputFormat::Text)]
+    pub format: OutputFormat,
+}
+
+/// Version of the JSON written by `columns --format json`.
+pub const COLUMNS_SCHEMA_VERSION: u32 = 1;
+
+/// What `columns` shows (also its JSON form).
+#[derive(Debug, Clone, Serialize)]
+pub struct ColumnsView {
+    /// JSON schema version.
+    pub schema_version: u32,
+    /// The file read.
+    pub file: String,
+    /// The delimiter setting (`auto` or fixed).
+    pub delimiter_setting: DelimiterChoice,
+    /// Comment prefixes in force.
+    pub comment_prefixes: Vec<String>,
+    /// Row tag, if any.
+    pub row_tag: Option<String>,
+    /// Complete lines read.
+    pub lines: u64,
+    /// Rows in all segments.
+    pub rows: usize,
+    /// Segments.
+    pub segments: Vec<SegmentView>,
+    /// Number of skipped data-like lines.
+    pub skipped_lines: u64,
+    /// The first hundred skipped lines.
+    pub skipped: Vec<SkippedView>,
+    /// Free-text lines.
+    pub text_lines: u64,
+    /// Comment lines (not headers).
+    pub comment_lines: u64,
+    /// Blank lines.
+    pub blank_lines: u64,
+    /// Header lines.
+    pub header_lines: u64,
+    /// The ignored last line without newline, if any.
+    pub partial_line: Option<PartialLine>,
+    /// Mapping warnings.
+    pub warnings: Vec<String>,
+}
+
+/// One segment in [`ColumnsView`].
+#[derive(Debug, Clone, Serialize)]
+pub struct SegmentView {
+    /// 1-based segment number.
+    pub segment: usize,
+    /// Header line, if any.
+    pub header_line: Option<u64>,
+    /// Header behind a comment prefix.
+    pub header_commented: bool,
+    /// Detected delimiter.
+    pub delimiter: Delimiter,
+    /// Rows.
+    pub rows: usize,
+    /// First row's line.
+    pub first_line: Option<u64>,
+    /// Last row's line.
+    pub last_line: Option<u64>,
+    /// Repeated identical headers.
+    pub header_repeats: u64,
+    /// Restarts.
+    pub restarts: Vec<Restart>,
+    /// Columns.
+    pub columns: Vec<ColumnView>,
+    /// Ready-to-paste mapping for this segment.
+    pub map: String,
+}
+
+/// One column in [`SegmentView`].
+#[derive(Debug, Clone, Serialize)]
+pub struct ColumnView {
+    /// 1-based field index (null for a derived column).
+    pub index: Option<usize>,
+    /// Name.
+    pub name: String,
+    /// Unit text from the header.
+    pub header_unit: Option<String>,
+    /// Role.
+    pub role: Option<Role>,
+    /// Given or guessed.
+    pub role_source: Option<RoleSource>,
+    /// Stored (canonical) unit.
+    pub unit: Option<String>,
+    /// Unit in the file.
+    pub source_unit: Option<String>,
+    /// Unit assumed (not stated).
+    pub assumed: bool,
+    /// Values from `nan`/`inf` tokens.
+    pub non_finite: u64,
+    /// `****` fields.
+    pub overflow: u64,
+}
+
+/// A skipped line in [`ColumnsView`].
+#[derive(Debug, Clone, Serialize)]
+pub struct SkippedView {
+    /// 1-based line.
+    pub line: u64,
+    /// Why.
+    pub reason: String,
+}
+
+impl ColumnsView {
+    /// Builds the view of a parsed table.
+    pub fn new(file: &str, settings: &Settings, table: &RunTable) -> ColumnsView {
+        let segments = table
+            .segments
+            .iter()
+            .enumerate()
+            .map(|(i, s)| SegmentView {
+                segment: i + 1,
+                header_line: s.header_line,
+                header_commented: s.header_commented,
+                delimiter: s.delimiter,
+                rows: s.rows(),
+                first_line: s.lines.first().copied(),
+                last_line: s.lines.last().copied(),
+                header_repeats: s.header_repeats,
+                restarts: s.restarts.clone(),
+                columns: s
+                    .columns
+                    .iter()
+                    .map(|c| ColumnView {
+                        index: c.spec.field.map(|f| f + 1),
+                        name: c.spec.name.clone(),
+                        header_unit: c.spec.header_unit.clone(),
+                        role: c.spec.role,
+                        role_source: c.spec.role_source,
+                        unit: c.spec.unit.map(|u| u.to_string()),
+                        source_unit: c.spec.source_unit.map(|u| u.to_string()),
+                        assumed: c.spec.assumed,
+                        non_finite: c.non_finite,
+                        overflow: c.overflow,
+                    })
+                    .collect(),
+                map: map_line(&s.columns.iter().map(|c| c.spec.clone()).collect::<Vec<_>>()),
+            })
+            .collect();
+        ColumnsView {
+            schema_version: COLUMNS_SCHEMA_VERSION,
+            file: file.to_string(),
+            delimiter_setting: settings.parse.delimiter,
+            comment_prefixes: settings.parse.comment_prefixes.clone(),
+            row_tag: settings.parse.row_tag.clone(),
+            lines: table.lines,
+            rows: table.rows(),
+            segments,
+            skipped_lines: table.skipped_count,
+            skipped: table
+                .skipped
+                .iter()
+                .map(|s| SkippedView {
+                    line: s.line,
+                    reason: s.reason.to_string(),
+                })
+                .collect(),
+            text_lines: table.text_lines,
+            comment_lines: table.comment_lines,
+            blank_lines: table.blank_lines,
+            header_lines: table.header_lines,
+            partial_line: table.partial_line,
+            warnings: table.warnings.clone(),
+        }
+    }
+
+    /// The text form.
+    pub fn to_text(&self) -> String {
+        let mut o = String::new();
+        let _ = writeln!(o, "file        {}", self.file);
+        let prefixes = if self.comment_prefixes.is_empty() {
+            "(none)".to_string()
+        } else {
+            self.comment_prefixes.join(" ")
+        };
+        let _ = writeln!(o, "comments    {prefixes}");
+        if let Some(tag) = &self.row_tag {
+            let _ = writeln!(o, "row tag     {tag}");
+        }
+        let _ = writeln!(
+            o,
+            "lines       {} read: {} rows, {} skipped, {} free text, {} comments, {} headers, {} blank",
+            self.lines,
+            self.rows,
+            self.skipped_lines,
+            self.text_lines,
+            self.comment_lines,
+            self.header_lines,
+            self.blank_lines
+        );
+        let _ = writeln!(o, "segments    {}", self.segments.len());
+        for s in &self.segments {
+            let header = match s.header_line {
+                Some(l) if s.header_commented => {
+                    format!("header at line {l} (behind a comment prefix)")
+                }
+                Some(l) => format!("header at line {l}"),
+                None => "no header".to_string(),
+            };
+            let span = match (s.first_line, s.last_line) {
+                (Some(a), Some(b)) => format!(", lines {a}-{b}"),
+                _ => String::new(),
+            };
+            let _ = writeln!(o);
+            let _ = writeln!(
+                o,
+                "segment {}: {header}, {}-separated, {} rows{span}",
+                s.segment,
+                s.delimiter.name(),
+                s.rows
+            );
+            let name_w = s
+                .columns
+                .iter()
+                .map(|c| c.name.chars().count())
+                .max()
+                .unwrap_or(4)
+                .max(4);
+            let _ = writeln!(
+                o,
+                "  {:>3}  {:<name_w$}  {:<12}  {:<8}  source unit",
+                "#", "name", "role", "unit"
+            );
+            for c in &s.columns {
+                let idx = c.index.map_or("-".to_string(), |i| i.to_string());
+                let role = match (c.role, c.role_source) {
+                    (Some(r), Some(RoleSource::Guessed)) => format!("{r}?"),
+                    (Some(r), _) => r.to_string(),
+                    (None, _) => "-".to_string(),
+                };
+                let source = match (&c.source_unit, c.index) {
+                    (Some(u), _) if c.assumed => format!("{u} (assumed)"),
+                    (Some(u), Some(_)) => u.clone(),
+                    (Some(_), None) => "derived from step".to_string(),
+                    (None, _) => c
+                        .header_unit
+                        .clone()
+                        .map_or("-".into(), |u| format!("{u} (not understood)")),
+                };
+                let mut notes = String::new();
+                if c.non_finite > 0 {
+                    let _ = write!(notes, "  [{} non-finite]", c.non_finite);
+                }
+                if c.overflow > 0 {
+                    let _ = write!(notes, "  [{} overflow ****]", c.overflow);
+                }
+                let _ = writeln!(
+                    o,
+                    "  {idx:>3}  {:<name_w$}  {role:<12}  {:<8}  {source}{notes}",
+                    c.name,
+                    c.unit.as_deref().unwrap_or("-"),
+                );
+            }
+            if s.header_repeats > 0 {
+                let _ = writeln!(o, "  header repeated {} time(s)", s.header_repeats);
+            }
+            for r in &s.restarts {
+                let _ = writeln!(
+                    o,
+                    "  restart at line {}: back to {}, {} row(s) replaced",
+                    r.line, r.step, r.rows_replaced
+                );
+            }
+            if !s.map.is_empty() {
+                let _ = writeln!(o, "  map: {}", s.map);
+            }
+        }
+        let _ = writeln!(o);
+        if self.segments.iter().any(|s| {
+            s.columns
+                .iter()
+                .any(|c| c.role_source == Some(RoleSource::Guessed))
+        }) {
+            let _ = writeln!(o, "roles marked ? are guessed from the header; fix them with --map ROLE=COLUMN[:UNIT]");
+        }
+        if self.skipped_lines > 0 {
+            let _ = writeln!(o, "skipped lines: {}", self.skipped_lines);
+            for s in self.skipped.iter().take(10) {
+                let _ = writeln!(o, "  {}:{}: {}", self.file, s.line, s.reason);
+            }
+            if self.skipped_lines > 10 {
+                let _ = writeln!(
+                    o,
+                    "  ... (first {} listed in --format json)",
+                    self.skipped.len()
+                );
+            }
+        }
+        if let Some(p) = &self.partial_line {
+            let _ = writeln!(
+                o,
+                "last line {} ({} bytes) has no newline: ignored (it may be a row cut in half)",
+                p.line, p.bytes
+            );
+        }
+        for w in &self.warnings {
+            let _ = writeln!(o, "warning: {w}");
+        }
+        o
+    }
+}
+
+/// Runs `plateau columns`.
+pub fn run(args: &ColumnsArgs, out: &mut dyn Write) -> Result<u8, Error> {
+    let (settings, table) = super::load(&args.file, &args.input)?;
+    let view = ColumnsView::new(&args.file.display().to_string(), &settings, &table);
+    let text = match args.format {
+        OutputFormat::Text => view.to_text(),
+        OutputFormat::Json => {
+            let mut s = serde_json::to_string_pretty(&view)
+                .map_err(|e| Error::Output(std::io::Error::other(e)))?;
+            s.push('\n');
+            s
+        }
+    };
+    super::emit(out, &text)?;
+    Ok(0)
+}

@@ -1,0 +1,264 @@
+//! The first stage: classify and parse the complete lines of a block, independently of any
+//! other block (so blocks can be parsed on several cores).
+//!
+//! [`parse_block`] needs only the options (delimiter, comment prefixes, row tag), never the
+//! state of the run: it does not know the header in force. It records, in line order, each
+//! line's kind: a row of numbers (values kept row-major in one buffer), a header candidate
+//! (its text kept), a skipped data-like line, free text, a comment or a blank line. Line
+//! numbers are relative to the block; [`super::LogParser::apply_block`] applies the items in
+//! order and decides headers, segments, field counts and restarts.
+
+use super::layout::{header_column_count, Delimiter, Fields};
+use super::number::{parse_field, Field};
+use super::ParseOptions;
+
+/// Longest field text kept for a skip reason.
+const REASON_TEXT: usize = 32;
+
+/// Why a line of a block was skipped (before the merge knows the header).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum BlockSkip {
+    /// Field `field` (0-based) is not a number; its text is in `text[start..start+len]`.
+    NotANumber {
+        field: u32,
+        start: usize,
+        len: usize,
+    },
+    /// A tagged line that is neither numbers nor a header.
+    TaggedNotData,
+}
+
+/// One classified line of a block (`line` is 0-based within the block).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Item {
+    /// A row of `fields` numbers (in `values`), `overflows` of them `****` (in `overflow_fields`).
+    Row {
+        line: u64,
+        fields: u32,
+        delim: Delimiter,
+        overflows: u32,
+    },
+    /// A line that may be a header naming `columns` columns; its text is `text[start..start+len]`.
+    Candidate {
+        line: u64,
+        start: usize,
+        len: usize,
+        columns: u32,
+        delim: Delimiter,
+        commented: bool,
+    },
+    /// A data-like line that failed.
+    Skipped { line: u64, why: BlockSkip },
+    /// Free text.
+    Text { line: u64 },
+    /// A comment that is not a header.
+    Comment { line: u64 },
+    /// An empty line.
+    Blank { line: u64 },
+    /// A line too long to keep (over 1 MiB): counted as free text.
+    Overlong { line: u64 },
+}
+
+/// The result of [`parse_block`]: items in line order plus their data.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct BlockResult {
+    pub(crate) items: Vec<Item>,
+    pub(crate) values: Vec<f64>,
+    pub(crate) overflow_fields: Vec<u32>,
+    pub(crate) text: Vec<u8>,
+    /// Complete lines in the block.
+    pub lines: u64,
+}
+
+impl BlockResult {
+    /// Empties the result, keeping its allocations.
+    pub fn clear(&mut self) {
+        self.items.clear();
+        self.values.clear();
+        self.overflow_fields.clear();
+        self.text.clear();
+        self.lines = 0;
+    }
+
+    /// Rows of numbers found (before the merge checks their field counts).
+    pub fn candidate_rows(&self) -> usize {
+        self.items
+            .iter()
+            .filter(|i| matches!(i, Item::Row { .. }))
+            .count()
+    }
+}
+
+/// Parses the complete lines of `bytes` (everything up to and including its last `\n`).
+/// Returns the number of bytes consumed; bytes after the last newline are not looked at.
+pub fn parse_block(bytes: &[u8], options: &ParseOptions) -> (BlockResult, usize) {
+    let mut out = BlockResult::default();
+    let used = parse_block_into(bytes, options, &mut out);
+    (out, used)
+}
+
+/// Like [`parse_block`], reusing `out`'s allocations.
+pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockResult) -> usize {
+    out.clear();
+    let mut start = 0usize;
+    let mut line = 0u64;
+    for nl in memchr::memchr_iter(b'\n', bytes) {
+        let text = bytes.get(start..nl).unwrap_or_default();
+        classify(text, line, options, out);
+        line += 1;
+        start = nl + 1;
+    }
+    out.lines = line;
+    start
+}
+
+/// Lines longer than this are not parsed (counted as free text).
+pub const MAX_LINE: usize = 1 << 20;
+
+#[inline]
+fn classify(raw: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) {
+    if raw.len() > MAX_LINE {
+        out.items.push(Item::Overlong { line });
+        return;
+    }
+    let raw = match raw {
+        [head @ .., b'\r'] => head,
+        _ => raw,
+    };
+    let t = super::layout::trim(raw);
+    if t.is_empty() {
+        out.items.push(Item::Blank { line });
+        return;
+    }
+    for prefix in &options.comment_prefixes {
+        if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
+            if !prefix.is_empty() {
+                if !candidate(rest, line, true, options, out) {
+                    out.items.push(Item::Comment { line });
+                }
+                return;
+            }
+        }
+    }
+    if let Some(tag) = &options.row_tag {
+        let tag = tag.as_bytes();
+        let end = t
+            .iter()
+            .position(|&b| b == b' ' || b == b'\t' || b == b',')
+            .unwrap_or(t.len());
+        let (first, rest) = t.split_at(end);
+        let tagged = first == tag
+            || (first.len() == tag.len() + 1
+                && first.starts_with(tag)
+                && first.last() == Some(&b':'));
+        if !tagged {
+            if !candidate(t, line, false, options, out) {
+                out.items.push(Item::Text { line });
+            }
+            return;
+        }
+        let rest = rest.strip_prefix(b",").unwrap_or(rest);
+        match data(rest, line, options, out) {
+            DataOutcome::Done => {}
+            DataOutcome::NotData => {
+                if !candidate(rest, line, false, options, out) {
+                    out.items.push(Item::Skipped {
+                        line,
+                        why: BlockSkip::TaggedNotData,
+                    });
+                }
+            }
+        }
+        return;
+    }
+    match data(t, line, options, out) {
+        DataOutcome::Done => {}
+        DataOutcome::NotData => {
+            if !candidate(t, line, false, options, out) {
+                out.items.push(Item::Text { line });
+            }
+        }
+    }
+}
+
+enum DataOutcome {
+    /// A row or a skipped data-like line was recorded.
+    Done,
+    /// The first field is not a number: not a data line.
+    NotData,
+}
+
+#[inline]
+fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) -> DataOutcome {
+    let delim = options.delimiter.for_data(payload);
+    let values_start = out.values.len();
+    let overflow_start = out.overflow_fields.len();
+    let mut fields = 0u32;
+    for field in Fields::new(payload, delim) {
+        match parse_field(field) {
+            Field::Value(v) => out.values.push(v),
+            Field::Overflow => {
+                out.values.push(f64::NAN);
+                out.overflow_fields.push(fields);
+            }
+            Field::Invalid => {
+                out.values.truncate(values_start);
+                out.overflow_fields.truncate(overflow_start);
+                if fields == 0 {
+                    return DataOutcome::NotData;
+                }
+                let start = out.text.len();
+                let cut = field.len().min(REASON_TEXT);
+                out.text
+                    .extend_from_slice(field.get(..cut).unwrap_or_default());
+                out.items.push(Item::Skipped {
+                    line,
+                    why: BlockSkip::NotANumber {
+                        field: fields,
+                        start,
+                        len: cut,
+                    },
+                });
+                return DataOutcome::Done;
+            }
+        }
+        fields += 1;
+    }
+    if fields == 0 {
+        return DataOutcome::NotData;
+    }
+    let overflows = u32::try_from(out.overflow_fields.len() - overflow_start).unwrap_or(u32::MAX);
+    out.items.push(Item::Row {
+        line,
+        fields,
+        delim,
+        overflows,
+    });
+    DataOutcome::Done
+}
+
+/// Records `text` as a header candidate if it looks like one.
+fn candidate(
+    text: &[u8],
+    line: u64,
+    commented: bool,
+    options: &ParseOptions,
+    out: &mut BlockResult,
+) -> bool {
+    let text = super::layout::trim(text);
+    let delim = options.delimiter.for_header(text);
+    let Some(columns) = header_column_count(text, delim) else {
+        return false;
+    };
+    let start = out.text.len();
+    out.text.extend_from_slice(text);
+    out.items.push(Item::Candidate {
+        line,
+        start,
+        len: text.len(),
+        columns: u32::try_from(columns).unwrap_or(u32::MAX),
+        delim,
+        commented,
+    });
+    true
+}

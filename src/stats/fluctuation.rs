@@ -1,0 +1,233 @@
+//! Kinetic-temperature fluctuations against the canonical expectation (METHODS §6), the
+//! degrees-of-freedom helper and ensemble inference.
+//!
+//! In the canonical ensemble `N_df·T_inst/T ~ χ²(N_df)`, so `σ_T/⟨T⟩ = sqrt(2/N_df)`
+//! (Frenkel & Smit 2002; Allen & Tildesley 1987). [`temperature_fluctuation`] compares the
+//! observed `σ_T/⟨T⟩` with that value inside a χ² band for the sample variance: with
+//! `n_eff = N/g` effectively independent samples (`g` of `(T − ⟨T⟩)²`, METHODS §6) the
+//! sample variance is approximately `σ²·χ²(ν)/ν` with `ν = n_eff − 1`, widened for the
+//! excess kurtosis `12/N_df` of a χ²(N_df) variable by matching the variance
+//! `2/ν' = 2/ν + 12/(N_df·n_eff)` (our moment-matching approximation).
+//! Cost O(N log N) (one `g`).
+
+use serde::{Deserialize, Serialize};
+use statrs::distribution::{ChiSquared, ContinuousCDF};
+
+use super::descriptive::{mean, std_dev};
+use super::finite;
+use super::inefficiency::{statistical_inefficiency, Estimator};
+
+/// `N_df = 3N − constraints − 3` (centre-of-mass motion removed; Allen & Tildesley) unless
+/// `dof` is given. `None` if the result is not positive.
+pub fn degrees_of_freedom(atoms: u64, constraints: u64, dof: Option<f64>) -> Option<f64> {
+    if let Some(d) = dof {
+        return (d > 0.0 && d.is_finite()).then_some(d);
+    }
+    let v = 3.0 * atoms as f64 - constraints as f64 - 3.0;
+    (v > 0.0).then_some(v)
+}
+
+/// Canonical relative SD of the kinetic temperature `sqrt(2/N_df)`. `None` if `N_df ≤ 0`.
+pub fn canonical_relative_sd(n_df: f64) -> Option<f64> {
+    (n_df > 0.0).then(|| (2.0 / n_df).sqrt()).and_then(finite)
+}
+
+/// Central band of `χ²(ν)/ν` with probability `coverage` (e.g. 0.999): the per-sample
+/// band of `T_inst/T` for `ν = N_df` (METHODS §6). `None` if `ν ≤ 0` or coverage not in (0,1).
+pub fn chi2_band(nu: f64, coverage: f64) -> Option<(f64, f64)> {
+    if !(nu > 0.0 && coverage > 0.0 && coverage < 1.0) {
+        return None;
+    }
+    let d = ChiSquared::new(nu).ok()?;
+    let lo = d.inverse_cdf((1.0 - coverage) / 2.0) / nu;
+    let hi = d.inverse_cdf((1.0 + coverage) / 2.0) / nu;
+    Some((finite(lo)?, finite(hi)?))
+}
+
+/// Verdict of the fluctuation-size test. JSON kebab-case.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum FluctuationVerdict {
+    /// Fluctuations smaller than canonical (e.g. a weak-coupling thermostat).
+    TooSmall,
+    /// Within the band.
+    Consistent,
+    /// Fluctuations larger than canonical (heating/cooling, wrong N_df).
+    TooLarge,
+}
+
+/// Result of the fluctuation-size test.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct FluctuationCheck {
+    /// Degrees of freedom used (named in the verdict).
+    pub n_df: f64,
+    /// Observed `σ_T/⟨T⟩` (σ with n − 1).
+    pub observed: f64,
+    /// Canonical `sqrt(2/N_df)`.
+    pub expected: f64,
+    /// Band on `σ_T/⟨T⟩` for this sample size.
+    pub low: f64,
+    /// Upper end of the band.
+    pub high: f64,
+    /// Coverage of the band.
+    pub coverage: f64,
+    /// Samples.
+    pub n: usize,
+    /// Inefficiency of `(T − ⟨T⟩)²` used for the sample size.
+    pub g: f64,
+    /// Verdict.
+    pub verdict: FluctuationVerdict,
+}
+
+impl FluctuationCheck {
+    /// Human text naming the N_df used.
+    pub fn describe(&self) -> String {
+        let what = match self.verdict {
+            FluctuationVerdict::TooSmall => "too small",
+            FluctuationVerdict::Consistent => "consistent with canonical",
+            FluctuationVerdict::TooLarge => "too large",
+        };
+        format!(
+            "σ_T/⟨T⟩ = {:.4} vs sqrt(2/N_df) = {:.4} for N_df = {} (band {:.4}–{:.4}): {what}",
+            self.observed, self.expected, self.n_df, self.low, self.high
+        )
+    }
+}
+
+/// Fluctuation-size test of kinetic temperatures (K) for `n_df` degrees of freedom. `g`
+/// of the squared deviations is estimated unless given. `None` if fewer than 3 values,
+/// `⟨T⟩ ≤ 0`, `n_df ≤ 0`, coverage not in (0, 1) or too few effective samples (< 2).
+pub fn temperature_fluctuation(
+    temps: &[f64],
+    n_df: f64,
+    g: Option<f64>,
+    coverage: f64,
+) -> Option<FluctuationCheck> {
+    let n = temps.len();
+    if n < 3 {
+        return None;
+    }
+    let expected = canonical_relative_sd(n_df)?;
+    let m = mean(temps)?;
+    if m <= 0.0 {
+        return None;
+    }
+    let sd = std_dev(temps)?;
+    let observed = finite(sd / m)?;
+    let g = match g {
+        Some(g) if g >= 1.0 => g,
+        Some(_) => 1.0,
+        None => {
+            let sq: Vec<f64> = temps.iter().map(|t| (t - m) * (t - m)).collect();
+            statistical_inefficiency(&sq, Estimator::FirstNegative)?.g
+        }
+    };
+    let n_eff = n as f64 / g;
+    let nu = n_eff - 1.0;
+    if nu < 1.0 {
+        return None;
+    }
+    let nu_eff = 2.0 / (2.0 / nu + 12.0 / (n_df * n_eff));
+    let (lo, hi) = chi2_band(nu_eff, coverage)?;
+    let low = expected * lo.sqrt();
+    let high = expected * hi.sqrt();
+    let verdict = if observed < low {
+        FluctuationVerdict::TooSmall
+    } else if observed > high {
+        FluctuationVerdict::TooLarge
+    } else {
+        FluctuationVerdict::Consistent
+    };
+    Some(FluctuationCheck {
+        n_df,
+        observed,
+        expected,
+        low,
+        high,
+        coverage,
+        n,
+        g,
+        verdict,
+    })
+}
+
+/// Thermodynamic ensemble.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Ensemble {
+    /// Constant energy.
+    Nve,
+    /// Constant temperature.
+    Nvt,
+    /// Constant pressure.
+    Npt,
+}
+
+/// An inferred ensemble with the reason, as text.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct EnsembleGuess {
+    /// The ensemble.
+    pub ensemble: Ensemble,
+    /// Why.
+    pub reason: String,
+}
+
+/// Relative SD of the volume above which it "varies" (common practice, no source).
+pub const VOLUME_VARIES_REL_SD: f64 = 1e-6;
+/// SD(total)/SD(kinetic) below which the run is taken as NVE (common practice, no source).
+pub const NVE_TOTAL_OVER_KINETIC: f64 = 0.1;
+
+/// Infer the ensemble (common practice, no source): volume with relative SD above
+/// [`VOLUME_VARIES_REL_SD`] → NPT; else SD(total) < [`NVE_TOTAL_OVER_KINETIC`]·SD(kinetic)
+/// → NVE; else NVT when both energies are known. `None` when nothing can be inferred.
+pub fn infer_ensemble(
+    total: Option<&[f64]>,
+    kinetic: Option<&[f64]>,
+    volume: Option<&[f64]>,
+) -> Option<EnsembleGuess> {
+    if let Some(v) = volume {
+        if let (Some(m), Some(sd)) = (mean(v), std_dev(v)) {
+            let rel = if m != 0.0 { sd / m.abs() } else { sd };
+            if rel > VOLUME_VARIES_REL_SD {
+                return Some(EnsembleGuess {
+                    ensemble: Ensemble::Npt,
+                    reason: format!("volume varies (relative SD {rel:.2e} > {VOLUME_VARIES_REL_SD:.0e})"),
+                });
+            }
+        }
+    }
+    let sd_t = std_dev(total?)?;
+    let sd_k = std_dev(kinetic?)?;
+    if sd_k <= 0.0 {
+        return None;
+    }
+    let ratio = sd_t / sd_k;
+    let (ensemble, reason) = if ratio < NVE_TOTAL_OVER_KINETIC {
+        (
+            Ensemble::Nve,
+            format!("total-energy SD is {ratio:.3} of the kinetic-energy SD (< {NVE_TOTAL_OVER_KINETIC})"),
+        )
+    } else {
+        (
+            Ensemble::Nvt,
+            format!("total energy fluctuates ({ratio:.3} of the kinetic-energy SD) and the volume does not vary"),
+        )
+    };
+    Some(EnsembleGuess { ensemble, reason })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn dof_helper() {
+        // N_df = 3N - constraints - 3 (METHODS §4.3, Allen & Tildesley).
+        assert_eq!(degrees_of_freedom(1000, 0, None), Some(2997.0));
+        assert_eq!(degrees_of_freedom(1000, 500, None), Some(2497.0));
+        assert_eq!(degrees_of_freedom(1, 0, None), None);
+        assert_eq!(degrees_of_freedom(1, 0, Some(12.0)), Some(12.0));
+        assert_eq!(canonical_relative_sd(0.0), None);
+        assert!(chi2_band(10.0, 1.0).is_none());
+    }
+}

@@ -1,0 +1,159 @@
+//! Runaway (blow-up) detection before values turn non-finite (METHODS §8, rules are
+//! common practice and configurable):
+//! - **sustained exponential growth**: a linear fit of `ln|x − m|` against the row over
+//!   the last `window` (default 20) samples with positive slope, `R² > 0.9`, a total
+//!   growth over the window of at least `min_growth` (default 10×) and a last deviation
+//!   beyond `min_sigmas` (default 5) robust SDs. The growth-factor and size conditions
+//!   are ours: they keep a slow linear ramp or plain noise from passing the R² test.
+//! - **far excursion**: `|x − m| > 50 σ̂` (METHODS §8).
+//!
+//! `m` and `σ̂` come from a [`Baseline`] (median and 1.4826·MAD of a reference part,
+//! usually the rows before the checked window). An exponential blow-up grows by orders of
+//! magnitude per window while a double overflows only near 1e308, so the growth rule fires
+//! long before a non-finite value. Cost O(window) per check, O(N) for the baseline.
+
+use serde::{Deserialize, Serialize};
+
+use super::spikes::{median, robust_sd};
+use super::{finite, regression::ols};
+
+/// Robust centre and scale of a reference part.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Baseline {
+    /// Median.
+    pub median: f64,
+    /// Robust SD (1.4826·MAD), floored at a tiny positive value.
+    pub scale: f64,
+}
+
+impl Baseline {
+    /// Baseline from the finite values of a slice. `None` if there are none. O(N).
+    pub fn from_slice(x: &[f64]) -> Option<Baseline> {
+        let v: Vec<f64> = x.iter().copied().filter(|a| a.is_finite()).collect();
+        let m = median(&v)?;
+        let s = robust_sd(&v)?;
+        let floor = f64::EPSILON * m.abs().max(1.0);
+        Some(Baseline {
+            median: m,
+            scale: s.max(floor),
+        })
+    }
+}
+
+/// Runaway settings.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct RunawayOptions {
+    /// Samples in the growth fit.
+    pub window: usize,
+    /// Minimum R² of the log-linear fit.
+    pub min_r_squared: f64,
+    /// Minimum growth factor of `|x − m|` across the window.
+    pub min_growth: f64,
+    /// Minimum last deviation in robust SDs for the growth rule.
+    pub min_sigmas: f64,
+    /// Far-excursion threshold in robust SDs.
+    pub far_sigmas: f64,
+}
+
+impl Default for RunawayOptions {
+    fn default() -> Self {
+        Self {
+            window: 20,
+            min_r_squared: 0.9,
+            min_growth: 10.0,
+            min_sigmas: 5.0,
+            far_sigmas: 50.0,
+        }
+    }
+}
+
+/// Exponential growth found at the end of a series.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Growth {
+    /// Growth rate of `ln|x − m|` per sample.
+    pub rate_per_sample: f64,
+    /// R² of the fit.
+    pub r_squared: f64,
+    /// First row of the fitted window.
+    pub start_row: usize,
+    /// Samples for `|x − m|` to grow tenfold.
+    pub samples_per_decade: f64,
+}
+
+/// Result of a runaway check on a series.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct RunawayCheck {
+    /// Sustained exponential growth over the last window, if any.
+    pub growth: Option<Growth>,
+    /// First row with `|x − m| > far_sigmas·σ̂`, if any.
+    pub far_row: Option<usize>,
+}
+
+impl RunawayCheck {
+    /// Either rule fired.
+    pub fn is_runaway(&self) -> bool {
+        self.growth.is_some() || self.far_row.is_some()
+    }
+}
+
+/// Growth rule on the last `opts.window` values of `x` (rows are `x` indices).
+pub fn exponential_growth(x: &[f64], base: &Baseline, opts: &RunawayOptions) -> Option<Growth> {
+    let w = opts.window.max(3);
+    let start = x.len().checked_sub(w)?;
+    let tail = x.get(start..)?;
+    if tail.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    let tiny = base.scale * 1e-6;
+    let rows: Vec<f64> = (start..x.len()).map(|i| i as f64).collect();
+    let logs: Vec<f64> = tail
+        .iter()
+        .map(|v| (v - base.median).abs().max(tiny).ln())
+        .collect();
+    let fit = ols(&rows, &logs)?;
+    let r2 = fit.r_squared?;
+    let last_dev = (tail.last()? - base.median).abs();
+    let growth = (fit.slope * (w - 1) as f64).exp();
+    if fit.slope > 0.0
+        && r2 > opts.min_r_squared
+        && growth >= opts.min_growth
+        && last_dev > opts.min_sigmas * base.scale
+    {
+        Some(Growth {
+            rate_per_sample: fit.slope,
+            r_squared: r2,
+            start_row: start,
+            samples_per_decade: finite(std::f64::consts::LN_10 / fit.slope)?,
+        })
+    } else {
+        None
+    }
+}
+
+/// First row (from `from`) with `|x − m| > far_sigmas·σ̂` (finite values only).
+pub fn far_excursion(x: &[f64], base: &Baseline, opts: &RunawayOptions, from: usize) -> Option<usize> {
+    let lim = opts.far_sigmas * base.scale;
+    x.iter()
+        .enumerate()
+        .skip(from)
+        .find(|(_, v)| v.is_finite() && (*v - base.median).abs() > lim)
+        .map(|(i, _)| i)
+}
+
+/// Runaway check: baseline from all but the last window (or the whole series when it is
+/// shorter than two windows), growth rule on the last window, far rule on the checked
+/// window. Empty input: nothing flagged.
+pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
+    let w = opts.window.max(3);
+    let ref_end = if x.len() >= 2 * w { x.len() - w } else { x.len() };
+    let Some(base) = x.get(..ref_end).and_then(Baseline::from_slice) else {
+        return RunawayCheck {
+            growth: None,
+            far_row: None,
+        };
+    };
+    RunawayCheck {
+        growth: exponential_growth(x, &base, opts),
+        far_row: far_excursion(x, &base, opts, x.len().saturating_sub(w)),
+    }
+}
