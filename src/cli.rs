@@ -27,6 +27,8 @@ pub enum Command {
     Columns(crate::commands::columns::ColumnsArgs),
     /// Read a finished log and summarise each column.
     Report(crate::commands::report::ReportArgs),
+    /// Write the mapped rows in canonical units (CSV, TSV or JSONL), live with `--follow`.
+    Export(crate::commands::export::ExportArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(crate::commands::generate::GenerateArgs),
 }

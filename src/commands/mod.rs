@@ -5,6 +5,7 @@
 //! (unreadable input, bad settings) are returned to `main`, which prints them and exits 2.
 
 pub mod columns;
+pub mod export;
 pub mod generate;
 pub mod report;
 
@@ -21,6 +22,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
     match cli.command {
         Command::Columns(args) => columns::run(&args, out),
         Command::Report(args) => report::run(&args, out),
+        Command::Export(args) => export::run(&args, out),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
     }
 }
