@@ -53,7 +53,10 @@ fn edge_cases_return_none_or_flags_not_nan() {
     let g = stats::inefficiency(&constant).unwrap();
     assert!(g.constant && g.g == 1.0);
     assert_eq!(stats::acf_biased(&constant), None);
-    assert!(matches!(stats::detect_equilibration(&constant), Equilibration::Onset { row: 0, .. }));
+    assert!(matches!(
+        stats::detect_equilibration(&constant),
+        Equilibration::Onset { row: 0, .. }
+    ));
     assert!(stats::mann_kendall(&constant).is_none());
     assert!(stats::hampel(&constant, &Default::default()).is_empty());
     assert_eq!(stats::std_dev(&constant), Some(0.0));
@@ -70,7 +73,10 @@ fn edge_cases_return_none_or_flags_not_nan() {
     assert!(!stats::runaway(&all_nan, &Default::default()).is_runaway());
     let t: Vec<f64> = (0..200).map(|i| i as f64).collect();
     assert!(stats::ols(&t, &all_nan).is_none());
-    assert!(!matches!(stats::detect_equilibration(&all_nan), Equilibration::Onset { .. }));
+    assert!(!matches!(
+        stats::detect_equilibration(&all_nan),
+        Equilibration::Onset { .. }
+    ));
 }
 
 #[test]
@@ -126,14 +132,22 @@ fn runaway_is_flagged_before_values_turn_non_finite() {
     }
     let first_bad = stats::non_finite_positions(&x)[0];
     let opts = stats::RunawayOptions::default();
-    let flagged = (40..x.len()).find(|&end| stats::runaway(&x[..end], &opts).is_runaway()).unwrap();
+    let flagged = (40..x.len())
+        .find(|&end| stats::runaway(&x[..end], &opts).is_runaway())
+        .unwrap();
     assert!(flagged < first_bad, "{flagged} vs {first_bad}");
-    assert!(flagged < 600, "flagged at {flagged}: growth is visible within ~100 samples");
+    assert!(
+        flagged < 600,
+        "flagged at {flagged}: growth is visible within ~100 samples"
+    );
     let quiet = rng.ar1(1500, 0.8);
     let ramp: Vec<f64> = (0..1500).map(|t| 0.005 * t as f64 + rng.normal()).collect();
     for s in [&quiet, &ramp] {
         for end in (40..s.len()).step_by(7) {
-            assert!(!stats::runaway(&s[..end], &opts).is_runaway(), "false alarm at {end}");
+            assert!(
+                !stats::runaway(&s[..end], &opts).is_runaway(),
+                "false alarm at {end}"
+            );
         }
     }
 }
@@ -153,7 +167,12 @@ fn fluctuation_verdicts() {
     let t = chi2_temperatures(&mut rng, 4000, ndf, 300.0);
     let check = |v: &[f64]| stats::temperature_fluctuation(v, ndf as f64, None, 0.999).unwrap();
     let c = check(&t);
-    assert_eq!(c.verdict, FluctuationVerdict::Consistent, "{}", c.describe());
+    assert_eq!(
+        c.verdict,
+        FluctuationVerdict::Consistent,
+        "{}",
+        c.describe()
+    );
     assert!(c.describe().contains("N_df = 30"));
     let small: Vec<f64> = t.iter().map(|v| 300.0 + 0.5 * (v - 300.0)).collect();
     assert_eq!(check(&small).verdict, FluctuationVerdict::TooSmall);

@@ -9,7 +9,9 @@ use plateau::stats::{self, Equilibration, Estimator, HampelOptions, SlopeSeMetho
 use serde_json::Value;
 
 fn data(rel: &str) -> String {
-    let p = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/data").join(rel);
+    let p = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data")
+        .join(rel);
     std::fs::read_to_string(&p).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
 }
 
@@ -40,8 +42,19 @@ struct Univariate {
 fn nist_univariate(name: &str) -> Univariate {
     let text = data(&format!("nist-strd/univariate/{name}.dat"));
     let lines: Vec<&str> = text.lines().collect();
-    let find = |p: &str| after_colon(lines.iter().find(|l| l.trim_start().starts_with(p)).unwrap());
-    let start = lines.iter().rposition(|l| l.starts_with("Data: Y")).unwrap() + 2;
+    let find = |p: &str| {
+        after_colon(
+            lines
+                .iter()
+                .find(|l| l.trim_start().starts_with(p))
+                .unwrap(),
+        )
+    };
+    let start = lines
+        .iter()
+        .rposition(|l| l.starts_with("Data: Y"))
+        .unwrap()
+        + 2;
     let y: Vec<f64> = lines[start..]
         .iter()
         .filter(|l| !l.trim().is_empty())
@@ -75,18 +88,40 @@ fn nist_univariate_mean_sd_r1() {
         let m = stats::mean(&u.y).unwrap();
         let sd = stats::std_dev(&u.y).unwrap();
         let r1 = stats::lag1_autocorrelation(&u.y).unwrap();
-        assert!(lre(m, u.mean) >= min_lre, "{name} mean {m} LRE {}", lre(m, u.mean));
-        assert!(lre(sd, u.sd) >= min_lre, "{name} sd {sd} LRE {}", lre(sd, u.sd));
-        assert!(lre(r1, u.r1) >= min_lre, "{name} r1 {r1} LRE {}", lre(r1, u.r1));
+        assert!(
+            lre(m, u.mean) >= min_lre,
+            "{name} mean {m} LRE {}",
+            lre(m, u.mean)
+        );
+        assert!(
+            lre(sd, u.sd) >= min_lre,
+            "{name} sd {sd} LRE {}",
+            lre(sd, u.sd)
+        );
+        assert!(
+            lre(r1, u.r1) >= min_lre,
+            "{name} r1 {r1} LRE {}",
+            lre(r1, u.r1)
+        );
         // The biased lag-1 value of the FFT acf is the same quantity (METHODS §0).
         let acf = stats::acf_biased(&u.y).unwrap();
-        assert!(lre(acf[1], u.r1) >= min_lre.min(10.0), "{name} fft r1 {}", acf[1]);
+        assert!(
+            lre(acf[1], u.r1) >= min_lre.min(10.0),
+            "{name} fft r1 {}",
+            acf[1]
+        );
         // Welford accumulator, split in two and merged, agrees as well.
         let half = u.y.len() / 2;
         let mut a = stats::Moments::from_slice(&u.y[..half]);
         a.merge(&stats::Moments::from_slice(&u.y[half..]));
-        assert!(lre(a.mean().unwrap(), u.mean) >= min_lre, "{name} moments mean");
-        assert!(lre(a.std_dev().unwrap(), u.sd) >= min_lre.min(8.0), "{name} moments sd");
+        assert!(
+            lre(a.mean().unwrap(), u.mean) >= min_lre,
+            "{name} moments mean"
+        );
+        assert!(
+            lre(a.std_dev().unwrap(), u.sd) >= min_lre.min(8.0),
+            "{name} moments sd"
+        );
     }
 }
 
@@ -115,10 +150,17 @@ struct Regression {
 fn nist_regression(name: &str) -> Regression {
     let text = data(&format!("nist-strd/regression/{name}.dat"));
     let lines: Vec<&str> = text.lines().collect();
-    let start = lines.iter().rposition(|l| l.trim_start().starts_with("Data:")).unwrap() + 1;
+    let start = lines
+        .iter()
+        .rposition(|l| l.trim_start().starts_with("Data:"))
+        .unwrap()
+        + 1;
     let (mut x, mut y) = (vec![], vec![]);
     for l in &lines[start..] {
-        let f: Vec<f64> = l.split_whitespace().filter_map(|v| v.parse().ok()).collect();
+        let f: Vec<f64> = l
+            .split_whitespace()
+            .filter_map(|v| v.parse().ok())
+            .collect();
         if f.len() == 2 {
             y.push(f[0]);
             x.push(f[1]);
@@ -173,7 +215,10 @@ fn nist_no_intercept() {
         let (b1, s1) = r.params[0];
         assert!(lre(f.slope, b1) >= 9.0, "{name} B1 {}", f.slope);
         assert!(lre(f.se_slope.unwrap(), s1) >= 9.0, "{name} SD");
-        assert!(lre(f.residual_sd.unwrap(), r.resid_sd) >= 9.0, "{name} resid");
+        assert!(
+            lre(f.residual_sd.unwrap(), r.resid_sd) >= 9.0,
+            "{name} resid"
+        );
         assert!(lre(f.r_squared.unwrap(), r.r2) >= 9.0, "{name} R2");
     }
 }
@@ -182,7 +227,11 @@ fn csv(rel: &str) -> Vec<Vec<f64>> {
     data(rel)
         .lines()
         .skip(1)
-        .map(|l| l.split(',').map(|v| v.trim().parse::<f64>().unwrap()).collect())
+        .map(|l| {
+            l.split(',')
+                .map(|v| v.trim().parse::<f64>().unwrap())
+                .collect()
+        })
         .collect()
 }
 
@@ -226,14 +275,29 @@ fn ar1_inefficiency_estimators() {
     let r = reference();
     let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs();
     let fnn = stats::statistical_inefficiency(&x, Estimator::FirstNegative).unwrap();
-    assert!(close(fnn.g, num(&r, "ar1.script.g_truncated_first_nonpositive_mintime3")), "{}", fnn.g);
+    assert!(
+        close(
+            fnn.g,
+            num(&r, "ar1.script.g_truncated_first_nonpositive_mintime3")
+        ),
+        "{}",
+        fnn.g
+    );
     let sok = stats::statistical_inefficiency(&x, Estimator::SokalWindow).unwrap();
     assert!(close(sok.g, num(&r, "ar1.script.g_sokal_c5")), "{}", sok.g);
     assert_eq!(sok.lags_used, 40);
     let ips = stats::statistical_inefficiency(&x, Estimator::GeyerIps).unwrap();
     let ims = stats::statistical_inefficiency(&x, Estimator::GeyerIms).unwrap();
-    assert!(close(ips.g, num(&r, "ar1.script.g_geyer_initial_positive")), "{}", ips.g);
-    assert!(close(ims.g, num(&r, "ar1.script.g_geyer_initial_monotone")), "{}", ims.g);
+    assert!(
+        close(ips.g, num(&r, "ar1.script.g_geyer_initial_positive")),
+        "{}",
+        ips.g
+    );
+    assert!(
+        close(ims.g, num(&r, "ar1.script.g_geyer_initial_monotone")),
+        "{}",
+        ims.g
+    );
     assert_eq!(ips.lags_used, 18);
     // Theory (closed form, METHODS §0): g = (1+φ)/(1−φ) = 9 → sampling noise: [6, 13].
     for e in Estimator::ALL {
@@ -265,7 +329,11 @@ fn ar1_blocking_levels() {
     assert!(b.resolved);
     assert_eq!(b.plateau_level, Some(5));
     let theory = num(&r, "ar1.script.se_mean_theory");
-    assert!((b.sem - theory).abs() <= b.sem_error, "{} vs {theory}", b.sem);
+    assert!(
+        (b.sem - theory).abs() <= b.sem_error,
+        "{} vs {theory}",
+        b.sem
+    );
 }
 
 #[test]
@@ -278,7 +346,10 @@ fn equilibration_series_onset_and_mser() {
     match stats::detect_equilibration(&y) {
         Equilibration::Onset { row, g, n_eff } => {
             assert!((100..=400).contains(&row), "{row}");
-            assert_eq!(row as f64, num(&r, "equilibration.script.chodera_max_neff.t0"));
+            assert_eq!(
+                row as f64,
+                num(&r, "equilibration.script.chodera_max_neff.t0")
+            );
             let gw = num(&r, "equilibration.script.chodera_max_neff.g");
             assert!((g - gw).abs() < 1e-9 * gw, "{g}");
             let nw = num(&r, "equilibration.script.chodera_max_neff.neff");
@@ -291,7 +362,10 @@ fn equilibration_series_onset_and_mser() {
     assert!((m.value - num(&r, "equilibration.script.mser.mser")).abs() < 1e-12);
     let m5 = stats::mser5(&y).unwrap();
     assert_eq!(m5.d as f64, num(&r, "equilibration.script.mser5.d_batches"));
-    assert_eq!(m5.row as f64, num(&r, "equilibration.script.mser5.t0_samples"));
+    assert_eq!(
+        m5.row as f64,
+        num(&r, "equilibration.script.mser5.t0_samples")
+    );
     assert!((m5.value - num(&r, "equilibration.script.mser5.mser")).abs() < 1e-12);
     assert!(!m.near_limit && !m5.near_limit);
     // g of the whole non-stationary series (script): 80.81762922300487.
@@ -321,27 +395,54 @@ fn trend_series_slope_se_and_mann_kendall() {
     let rel = |a: f64, b: f64, tol: f64| (a - b).abs() <= tol * b.abs();
     let f = stats::ols(&t, &y).unwrap();
     assert!(rel(f.slope, num(&r, "trend.external.ols_slope"), 1e-10));
-    assert!(rel(f.intercept, num(&r, "trend.external.ols_intercept"), 1e-10));
-    assert!(rel(f.se_slope.unwrap(), num(&r, "trend.external.ols_se_slope"), 1e-10));
-    assert!(rel(f.residual_sd.unwrap(), num(&r, "trend.external.ols_residual_sd"), 1e-10));
+    assert!(rel(
+        f.intercept,
+        num(&r, "trend.external.ols_intercept"),
+        1e-10
+    ));
+    assert!(rel(
+        f.se_slope.unwrap(),
+        num(&r, "trend.external.ols_se_slope"),
+        1e-10
+    ));
+    assert!(rel(
+        f.residual_sd.unwrap(),
+        num(&r, "trend.external.ols_residual_sd"),
+        1e-10
+    ));
     let res = f.residuals(&t, &y);
     let r1 = stats::lag1_autocorrelation(&res).unwrap();
     assert!(rel(r1, num(&r, "trend.external.residual_acf_lag1"), 1e-10));
 
     let g = stats::drift(&t, &y, SlopeSeMethod::SqrtG, 0.95).unwrap();
-    assert!(rel(g.inflation, num(&r, "trend.script.g_residuals_truncated"), 1e-9));
+    assert!(rel(
+        g.inflation,
+        num(&r, "trend.script.g_residuals_truncated"),
+        1e-9
+    ));
     assert!(rel(g.se, num(&r, "trend.script.se_slope_sqrt_g"), 1e-9));
-    assert!(g.ci_low < 0.01 && 0.01 < g.ci_high, "true slope 0.01 inside the 95 % CI");
+    assert!(
+        g.ci_low < 0.01 && 0.01 < g.ci_high,
+        "true slope 0.01 inside the 95 % CI"
+    );
 
     let hac = stats::drift(&t, &y, SlopeSeMethod::NeweyWest, 0.95).unwrap();
     assert_eq!(hac.lags, Some(5));
-    assert!(rel(hac.se, num(&r, "trend.external.hac_se_slope"), 1e-9), "{}", hac.se);
+    assert!(
+        rel(hac.se, num(&r, "trend.external.hac_se_slope"), 1e-9),
+        "{}",
+        hac.se
+    );
 
     let ar = stats::drift(&t, &y, SlopeSeMethod::Ar1, 0.95).unwrap();
     // Large-N AR(1) form SE·sqrt((1+r1)/(1−r1)) (script) equals SE_OLS·sqrt(N/N_eff).
     let neff = stats::drift::ar1_effective_n(t.len(), r1).unwrap();
     let large_n = f.se_slope.unwrap() * (t.len() as f64 / neff).sqrt();
-    assert!(rel(large_n, num(&r, "trend.script.se_slope_ar1_neff"), 1e-9));
+    assert!(rel(
+        large_n,
+        num(&r, "trend.script.se_slope_ar1_neff"),
+        1e-9
+    ));
     // Finite-N Santer form: SE_OLS·sqrt((N−2)/(N_eff−2)).
     let santer = f.se_slope.unwrap() * ((t.len() as f64 - 2.0) / (neff - 2.0)).sqrt();
     assert!(rel(ar.se, santer, 1e-12));
@@ -353,10 +454,21 @@ fn trend_series_slope_se_and_mann_kendall() {
     assert!(rel(mk.var_s, num(&r, "trend.script.mk_var_S"), 1e-12));
     assert!(rel(mk.z, num(&r, "trend.script.mk_Z"), 1e-12));
     let sen = stats::sen_slope(&t, &y).unwrap();
-    assert!(rel(sen, num(&r, "trend.external.scipy_theilslopes_slope"), 1e-12));
+    assert!(rel(
+        sen,
+        num(&r, "trend.external.scipy_theilslopes_slope"),
+        1e-12
+    ));
     let hr = stats::hamed_rao(&y, &mk, sen).unwrap();
-    assert!(rel(hr.n_over_nstar, num(&r, "trend.script.hamed_rao_n_over_nstar"), 1e-9));
-    assert_eq!(hr.significant_lags as f64, num(&r, "trend.script.hamed_rao_significant_lags"));
+    assert!(rel(
+        hr.n_over_nstar,
+        num(&r, "trend.script.hamed_rao_n_over_nstar"),
+        1e-9
+    ));
+    assert_eq!(
+        hr.significant_lags as f64,
+        num(&r, "trend.script.hamed_rao_significant_lags")
+    );
     assert!(rel(hr.z, num(&r, "trend.script.hamed_rao_Z"), 1e-9));
     let tt = stats::trend_test(&y, 2000).unwrap();
     assert_eq!(tt.block_size, 1);
@@ -375,13 +487,27 @@ fn spikes_series_flags() {
         .collect();
     let r = reference();
     let list = |v: &Value| -> Vec<usize> {
-        v.as_array().unwrap().iter().map(|i| i.as_u64().unwrap() as usize).collect()
+        v.as_array()
+            .unwrap()
+            .iter()
+            .map(|i| i.as_u64().unwrap() as usize)
+            .collect()
     };
-    assert_eq!(stats::non_finite_positions(&y), list(&r["spikes"]["external"]["nonfinite_indices"]));
+    assert_eq!(
+        stats::non_finite_positions(&y),
+        list(&r["spikes"]["external"]["nonfinite_indices"])
+    );
     let flags = stats::hampel(&y, &HampelOptions::default());
-    assert_eq!(flags, list(&r["spikes"]["external"]["pandas_rolling_flags"]["k10_t5_conservative"]));
+    assert_eq!(
+        flags,
+        list(&r["spikes"]["external"]["pandas_rolling_flags"]["k10_t5_conservative"])
+    );
     assert_eq!(flags, list(&r["spikes"]["injected_spike_indices"]));
-    let o = HampelOptions { half_window: 5, threshold: 3.0, ..HampelOptions::default() };
+    let o = HampelOptions {
+        half_window: 5,
+        threshold: 3.0,
+        ..HampelOptions::default()
+    };
     assert_eq!(
         stats::hampel(&y, &o),
         list(&r["spikes"]["external"]["pandas_rolling_flags"]["k5_t3_pearson_default"])
@@ -401,10 +527,21 @@ fn kinetic_temperature_bands() {
         let ndf = r[0];
         let rel = stats::canonical_relative_sd(ndf).unwrap();
         assert!((rel - r[1]).abs() <= 1e-14 * r[1], "rel sd {ndf}");
-        for (cov, lo, hi) in [(0.95, r[3], r[4]), (0.99, r[5], r[6]), (0.999, r[7], r[8]), (0.9999, r[9], r[10])] {
+        for (cov, lo, hi) in [
+            (0.95, r[3], r[4]),
+            (0.99, r[5], r[6]),
+            (0.999, r[7], r[8]),
+            (0.9999, r[9], r[10]),
+        ] {
             let (a, b) = stats::chi2_band(ndf, cov).unwrap();
-            assert!((a / lo - 1.0).abs() < 1e-8, "N_df {ndf} cov {cov} low {a} vs {lo}");
-            assert!((b / hi - 1.0).abs() < 1e-8, "N_df {ndf} cov {cov} high {b} vs {hi}");
+            assert!(
+                (a / lo - 1.0).abs() < 1e-8,
+                "N_df {ndf} cov {cov} low {a} vs {lo}"
+            );
+            assert!(
+                (b / hi - 1.0).abs() < 1e-8,
+                "N_df {ndf} cov {cov} high {b} vs {hi}"
+            );
         }
     }
 }
@@ -437,7 +574,10 @@ fn verlet_oscillator_energy_error_and_no_drift() {
         let (t, h) = verlet_energy(dt, steps);
         let sd = stats::std_dev(&h).unwrap();
         let theory = dt * dt / (16.0 * 2f64.sqrt());
-        assert!((sd / theory - 1.0).abs() < 1e-3, "dt {dt}: {sd} vs {theory}");
+        assert!(
+            (sd / theory - 1.0).abs() < 1e-3,
+            "dt {dt}: {sd} vs {theory}"
+        );
         assert!((sd / j[&key]["sd_H"].as_f64().unwrap() - 1.0).abs() < 1e-3);
         // Our drift test says "no drift": |slope|/SE <= 3 (METHODS §4.2 rule).
         let d = stats::drift(&t, &h, SlopeSeMethod::SqrtG, 0.95).unwrap();

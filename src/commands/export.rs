@@ -214,9 +214,9 @@ impl Exporter {
             FollowEvent::Error { path, message } => {
                 eprintln!("plateau: {}: {message}", path.display());
             }
-            FollowEvent::Mode(WatchMode::PollingFallback { interval, reason }) => self.note(
-                &format!("polling every {interval:?}: {reason}"),
-            ),
+            FollowEvent::Mode(WatchMode::PollingFallback { interval, reason }) => {
+                self.note(&format!("polling every {interval:?}: {reason}"))
+            }
             FollowEvent::Mode(_) => {}
         }
         Ok(true)
@@ -226,12 +226,10 @@ impl Exporter {
         let table = self.parser.table();
         let new = table.skipped_count.saturating_sub(self.skipped_told);
         if new > 0 {
-            let first = table
-                .skipped
-                .iter()
-                .rev()
-                .take(new as usize)
-                .last()
+            // The first lines skipped are kept with their reason; later ones only counted.
+            let first = usize::try_from(self.skipped_told)
+                .ok()
+                .and_then(|i| table.skipped.get(i))
                 .map(|s| format!(" (line {}: {})", s.line, s.reason))
                 .unwrap_or_default();
             self.note(&format!("{new} data-like line(s) skipped{first}"));
@@ -353,7 +351,11 @@ fn format_row(line: &mut String, format: ExportFormat, segment: usize, seg: &Seg
             let _ = write!(line, "{segment}{sep}{src_line}");
             for c in &seg.columns {
                 line.push(sep);
-                number(line, c.values().get(row).copied().unwrap_or(f64::NAN), false);
+                number(
+                    line,
+                    c.values().get(row).copied().unwrap_or(f64::NAN),
+                    false,
+                );
             }
             line.push('\n');
         }

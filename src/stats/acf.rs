@@ -23,7 +23,11 @@ const DIRECT_LAGS: usize = 24;
 /// (the equilibration search calls it once per candidate start).
 pub(crate) struct AcfEngine {
     planner: RealFftPlanner<f64>,
-    plans: Option<(usize, Arc<dyn RealToComplex<f64>>, Arc<dyn ComplexToReal<f64>>)>,
+    plans: Option<(
+        usize,
+        Arc<dyn RealToComplex<f64>>,
+        Arc<dyn ComplexToReal<f64>>,
+    )>,
     input: Vec<f64>,
     spectrum: Vec<Complex<f64>>,
     output: Vec<f64>,

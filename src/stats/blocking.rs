@@ -97,10 +97,7 @@ pub fn block_average(x: &[f64]) -> Option<BlockAverage> {
     let levels = block_levels(x);
     let first = levels.first()?;
     finite(first.se)?;
-    let eligible: Vec<&BlockLevel> = levels
-        .iter()
-        .filter(|l| l.n_blocks >= MIN_BLOCKS)
-        .collect();
+    let eligible: Vec<&BlockLevel> = levels.iter().filter(|l| l.n_blocks >= MIN_BLOCKS).collect();
     let mut plateau = None;
     for pair in eligible.windows(2) {
         if let [a, b] = pair {

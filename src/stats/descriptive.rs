@@ -96,10 +96,13 @@ pub fn lag1_autocorrelation(x: &[f64]) -> Option<f64> {
     if den <= 0.0 {
         return None;
     }
-    let num: f64 = x.windows(2).map(|w| match w {
-        [a, b] => (a - m) * (b - m),
-        _ => 0.0,
-    }).sum();
+    let num: f64 = x
+        .windows(2)
+        .map(|w| match w {
+            [a, b] => (a - m) * (b - m),
+            _ => 0.0,
+        })
+        .sum();
     finite(num / den)
 }
 
@@ -239,7 +242,10 @@ mod tests {
         assert_eq!(variance(&[1.0]), None);
         assert_eq!(summarize(&[]), None);
         let s = summarize(&[2.5]).unwrap();
-        assert_eq!((s.count, s.mean, s.std, s.min, s.max), (1, 2.5, None, 2.5, 2.5));
+        assert_eq!(
+            (s.count, s.mean, s.std, s.min, s.max),
+            (1, 2.5, None, 2.5, 2.5)
+        );
         assert_eq!(lag1_autocorrelation(&[3.0, 3.0, 3.0]), None);
     }
 

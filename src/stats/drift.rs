@@ -193,7 +193,11 @@ pub fn per_atom(value: f64, atoms: u64) -> Option<f64> {
 
 /// Energy drift in `k_B T` per ns per degree of freedom: `b/(N_df k_B T)` with `b` in
 /// kJ mol⁻¹ ns⁻¹ (METHODS §4.3, common practice). `None` unless `n_df > 0`, `T > 0`.
-pub fn kt_per_ns_per_dof(slope_kj_per_mol_per_ns: f64, n_df: f64, temperature_k: f64) -> Option<f64> {
+pub fn kt_per_ns_per_dof(
+    slope_kj_per_mol_per_ns: f64,
+    n_df: f64,
+    temperature_k: f64,
+) -> Option<f64> {
     if n_df <= 0.0 || temperature_k <= 0.0 {
         return None;
     }
@@ -221,6 +225,12 @@ mod tests {
     #[test]
     fn undefined_cases() {
         assert!(drift(&[0.0, 1.0], &[1.0, 2.0], SlopeSeMethod::SqrtG, 0.95).is_none());
-        assert!(drift(&[0.0, 1.0, 2.0, 3.0], &[1.0, 2.0, 3.0, 4.5], SlopeSeMethod::SqrtG, 1.5).is_none());
+        assert!(drift(
+            &[0.0, 1.0, 2.0, 3.0],
+            &[1.0, 2.0, 3.0, 4.5],
+            SlopeSeMethod::SqrtG,
+            1.5
+        )
+        .is_none());
     }
 }

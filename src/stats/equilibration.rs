@@ -180,10 +180,7 @@ pub fn combine_onsets(onsets: &[Equilibration]) -> Option<Equilibration> {
     if onsets.iter().any(|o| matches!(o, Equilibration::NotYet)) {
         return Some(Equilibration::NotYet);
     }
-    onsets
-        .iter()
-        .copied()
-        .max_by_key(|o| o.row().unwrap_or(0))
+    onsets.iter().copied().max_by_key(|o| o.row().unwrap_or(0))
 }
 
 /// MSER result.
@@ -286,10 +283,21 @@ mod tests {
     fn too_short_and_combine() {
         assert_eq!(detect_equilibration(&[1.0; 50]), Equilibration::TooShort);
         assert_eq!(detect_equilibration(&[]), Equilibration::TooShort);
-        let a = Equilibration::Onset { row: 10, g: 2.0, n_eff: 5.0 };
-        let b = Equilibration::Onset { row: 30, g: 3.0, n_eff: 4.0 };
+        let a = Equilibration::Onset {
+            row: 10,
+            g: 2.0,
+            n_eff: 5.0,
+        };
+        let b = Equilibration::Onset {
+            row: 30,
+            g: 3.0,
+            n_eff: 4.0,
+        };
         assert_eq!(combine_onsets(&[a, b]), Some(b));
-        assert_eq!(combine_onsets(&[a, Equilibration::NotYet]), Some(Equilibration::NotYet));
+        assert_eq!(
+            combine_onsets(&[a, Equilibration::NotYet]),
+            Some(Equilibration::NotYet)
+        );
         assert_eq!(combine_onsets(&[]), None);
     }
 }

@@ -191,7 +191,9 @@ pub fn infer_ensemble(
             if rel > VOLUME_VARIES_REL_SD {
                 return Some(EnsembleGuess {
                     ensemble: Ensemble::Npt,
-                    reason: format!("volume varies (relative SD {rel:.2e} > {VOLUME_VARIES_REL_SD:.0e})"),
+                    reason: format!(
+                        "volume varies (relative SD {rel:.2e} > {VOLUME_VARIES_REL_SD:.0e})"
+                    ),
                 });
             }
         }

@@ -233,11 +233,17 @@ mod tests {
     #[test]
     fn alternating_is_clamped() {
         // METHODS §0: alternating ±1 has ρ_1 ≈ −1, raw g < 1, must clamp to 1.
-        let x: Vec<f64> = (0..200).map(|i| if i % 2 == 0 { 1.0 } else { -1.0 }).collect();
+        let x: Vec<f64> = (0..200)
+            .map(|i| if i % 2 == 0 { 1.0 } else { -1.0 })
+            .collect();
         for e in Estimator::ALL {
             let r = statistical_inefficiency(&x, e).unwrap();
             assert!(r.g >= 1.0, "{e}");
         }
-        assert!(statistical_inefficiency(&x, Estimator::FirstNegative).unwrap().clamped);
+        assert!(
+            statistical_inefficiency(&x, Estimator::FirstNegative)
+                .unwrap()
+                .clamped
+        );
     }
 }

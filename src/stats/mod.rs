@@ -39,12 +39,10 @@ pub use descriptive::{
 pub use drift::{
     drift, kt_per_ns_per_dof, per_atom, per_ns, Drift, SlopeSeMethod, BOLTZMANN_KJ_PER_MOL_K,
 };
-pub use equilibration::{
-    combine_onsets, detect_equilibration, mser, mser5, Equilibration, Mser,
-};
+pub use equilibration::{combine_onsets, detect_equilibration, mser, mser5, Equilibration, Mser};
 pub use fluctuation::{
-    canonical_relative_sd, chi2_band, degrees_of_freedom, infer_ensemble,
-    temperature_fluctuation, Ensemble, EnsembleGuess, FluctuationCheck, FluctuationVerdict,
+    canonical_relative_sd, chi2_band, degrees_of_freedom, infer_ensemble, temperature_fluctuation,
+    Ensemble, EnsembleGuess, FluctuationCheck, FluctuationVerdict,
 };
 pub use inefficiency::{
     inefficiency, sem_from_g, statistical_inefficiency, Estimator, Inefficiency,
@@ -54,8 +52,7 @@ pub use runaway::{runaway, Baseline, RunawayCheck, RunawayOptions};
 pub use spikes::{hampel, mad, median, robust_sd, HampelOptions, MAD_SCALE};
 pub use throughput::{eta_seconds, precision_eta, throughput, PrecisionEta, Throughput};
 pub use trend::{
-    hamed_rao, mann_kendall, sen_slope, slope_t_test, trend_test, HamedRao, MannKendall,
-    TrendTest,
+    hamed_rao, mann_kendall, sen_slope, slope_t_test, trend_test, HamedRao, MannKendall, TrendTest,
 };
 
 /// Positions (0-based rows) of NaN and ±inf values, ascending. O(N).

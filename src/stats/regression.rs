@@ -44,7 +44,10 @@ impl LinearFit {
         if t.len() != y.len() {
             return Vec::new();
         }
-        t.iter().zip(y).map(|(ti, yi)| yi - self.predict(*ti)).collect()
+        t.iter()
+            .zip(y)
+            .map(|(ti, yi)| yi - self.predict(*ti))
+            .collect()
     }
 }
 

@@ -131,7 +131,12 @@ pub fn exponential_growth(x: &[f64], base: &Baseline, opts: &RunawayOptions) -> 
 }
 
 /// First row (from `from`) with `|x − m| > far_sigmas·σ̂` (finite values only).
-pub fn far_excursion(x: &[f64], base: &Baseline, opts: &RunawayOptions, from: usize) -> Option<usize> {
+pub fn far_excursion(
+    x: &[f64],
+    base: &Baseline,
+    opts: &RunawayOptions,
+    from: usize,
+) -> Option<usize> {
     let lim = opts.far_sigmas * base.scale;
     x.iter()
         .enumerate()
@@ -145,7 +150,11 @@ pub fn far_excursion(x: &[f64], base: &Baseline, opts: &RunawayOptions, from: us
 /// window. Empty input: nothing flagged.
 pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
     let w = opts.window.max(3);
-    let ref_end = if x.len() >= 2 * w { x.len() - w } else { x.len() };
+    let ref_end = if x.len() >= 2 * w {
+        x.len() - w
+    } else {
+        x.len()
+    };
     let Some(base) = x.get(..ref_end).and_then(Baseline::from_slice) else {
         return RunawayCheck {
             growth: None,

@@ -120,7 +120,11 @@ impl SortedWindow {
         let mut prev = 0.0;
         let mut cur = 0.0;
         for _ in 0..=want_hi {
-            let left = if l > 0 { self.v.get(l - 1).map(|a| m - a) } else { None };
+            let left = if l > 0 {
+                self.v.get(l - 1).map(|a| m - a)
+            } else {
+                None
+            };
             let right = self.v.get(r).map(|a| a - m);
             prev = cur;
             cur = match (left, right) {
@@ -227,7 +231,11 @@ mod tests {
             .map(|i| ((i * 7919) % 101) as f64 / 10.0 + if i % 37 == 0 { 30.0 } else { 0.0 })
             .collect();
         for k in [1, 2, 5, 10] {
-            let o = HampelOptions { half_window: k, threshold: 3.0, floor_fraction: 0.0 };
+            let o = HampelOptions {
+                half_window: k,
+                threshold: 3.0,
+                floor_fraction: 0.0,
+            };
             assert_eq!(hampel(&x, &o), brute(&x, k, 3.0), "k = {k}");
         }
         assert!(hampel(&[], &HampelOptions::default()).is_empty());

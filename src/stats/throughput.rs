@@ -86,7 +86,12 @@ pub fn precision_eta(
     sample_interval_ps: f64,
     ps_per_second: f64,
 ) -> Option<PrecisionEta> {
-    if target_sem <= 0.0 || sample_interval_ps <= 0.0 || ps_per_second <= 0.0 || var < 0.0 || g < 1.0 {
+    if target_sem <= 0.0
+        || sample_interval_ps <= 0.0
+        || ps_per_second <= 0.0
+        || var < 0.0
+        || g < 1.0
+    {
         return None;
     }
     let needed = finite(var * g / (target_sem * target_sem))?;

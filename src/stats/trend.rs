@@ -256,7 +256,11 @@ pub struct TrendTest {
 /// see module doc). `None` if fewer than 2 points or all tied. Cost O(N + max_points²).
 pub fn trend_test(x: &[f64], max_points: usize) -> Option<TrendTest> {
     let cap = max_points.max(3);
-    let b = if x.len() > cap { x.len().div_ceil(cap) } else { 1 };
+    let b = if x.len() > cap {
+        x.len().div_ceil(cap)
+    } else {
+        1
+    };
     let owned;
     let y: &[f64] = if b > 1 {
         owned = x
@@ -291,7 +295,11 @@ mod tests {
         assert!((r.var_s - 50.0 / 3.0).abs() < 1e-12);
         assert!((r.z - 2.2045407685048604).abs() < 1e-12);
         // statrs erfc is accurate to ~1e-10 relative here.
-        assert!((r.p_value / 0.02748633611151033 - 1.0).abs() < 1e-9, "{}", r.p_value);
+        assert!(
+            (r.p_value / 0.02748633611151033 - 1.0).abs() < 1e-9,
+            "{}",
+            r.p_value
+        );
         // Ties: [1,2,2,3] -> S = 5, Var = 7.6667 (tie term 18), Z = 1.4446302370292303.
         let r = mann_kendall(&[1.0, 2.0, 2.0, 3.0]).unwrap();
         assert_eq!(r.s, 5);
