@@ -170,8 +170,14 @@ fn export_finished_file_as_csv_tsv_and_jsonl() {
 
 #[test]
 fn export_standard_input_until_it_ends() {
+    standard_input(&["export", "-", "--format", "jsonl"]);
+    // `ssh host tail -F run.log | plateau export --follow -` ends when the pipe closes.
+    standard_input(&["export", "--follow", "-", "--format", "jsonl"]);
+}
+
+fn standard_input(args: &[&str]) {
     let mut child = plateau()
-        .args(["export", "-", "--format", "jsonl"])
+        .args(args)
         .stdin(Stdio::piped())
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
@@ -203,4 +209,23 @@ fn export_of_a_missing_file_without_follow_fails_with_its_path() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8(out.stderr).unwrap().contains("nope.log"));
+}
+
+#[test]
+fn export_follow_leaves_the_file_untouched() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("md.log");
+    fs::write(&p, "step temp press\n0 300 1.0\n10 301").unwrap();
+    let before = (
+        fs::read(&p).unwrap(),
+        fs::metadata(&p).unwrap().modified().unwrap(),
+    );
+    let mut live = Live::start(&["export", "--follow", p.to_str().unwrap()]);
+    live.expect(&[HEADER, "1,2,0,300,1"]);
+    drop(live);
+    let after = (
+        fs::read(&p).unwrap(),
+        fs::metadata(&p).unwrap().modified().unwrap(),
+    );
+    assert_eq!(before, after);
 }

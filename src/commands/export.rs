@@ -361,3 +361,48 @@ fn format_row(line: &mut String, format: ExportFormat, segment: usize, seg: &Seg
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(256))]
+        /// Written numbers read back to the same value (Rust's float parser, IEEE 754
+        /// round-trip of the shortest representation).
+        #[test]
+        fn numbers_read_back_exactly(bits in proptest::prelude::any::<u64>()) {
+            let v = f64::from_bits(bits);
+            let mut s = String::new();
+            number(&mut s, v, false);
+            let back: f64 = s.parse().unwrap();
+            if v.is_nan() {
+                proptest::prop_assert!(back.is_nan());
+            } else {
+                proptest::prop_assert_eq!(back.to_bits(), v.to_bits());
+            }
+        }
+    }
+
+    #[test]
+    fn non_finite_values_are_words_and_json_strings() {
+        let mut s = String::new();
+        for v in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            number(&mut s, v, false);
+            s.push(' ');
+            number(&mut s, v, true);
+            s.push(' ');
+        }
+        assert_eq!(s, "nan \"nan\" inf \"inf\" -inf \"-inf\" ");
+    }
+
+    #[test]
+    fn header_fields_are_quoted_per_rfc_4180() {
+        let mut s = String::new();
+        field(&mut s, ExportFormat::Csv, "E \"pot\", total");
+        assert_eq!(s, "\"E \"\"pot\"\", total\"");
+        s.clear();
+        field(&mut s, ExportFormat::Tsv, "a\tb");
+        assert_eq!(s, "a b");
+    }
+}
