@@ -442,3 +442,24 @@ fn reader_source_complete_input_ends_without_a_dropped_line() {
     );
     assert_eq!(read_all(&mut empty), vec![Ev::End(None)]);
 }
+
+#[cfg(unix)]
+#[test]
+fn named_pipe_is_refused_without_blocking() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("fifo.log");
+    let made = std::process::Command::new("mkfifo").arg(&p).status();
+    if !made.is_ok_and(|s| s.success()) {
+        eprintln!("skipped: mkfifo not available");
+        return;
+    }
+    let mut f = follower(&p);
+    let mut out = Vec::new();
+    // Opening a named pipe with no writer would block here forever.
+    f.poll(&mut out);
+    assert!(
+        matches!(out.as_slice(), [FollowEvent::Error { path, message }]
+            if path == &p && message.contains("not a regular file")),
+        "{out:?}"
+    );
+}

@@ -76,6 +76,19 @@ enum State {
 /// Follows one path by name: keeps the file's identity (device, inode), the byte offset and
 /// the unfinished last line; handles truncation, rotation, deletion and a missing file.
 ///
+/// Semantics and limits:
+/// - a line is handed out once its `\n` has been read; lines are numbered from 1 in each
+///   generation of the file (a new generation starts after truncation, rotation, deletion
+///   and re-creation);
+/// - truncation is seen when the length drops below the offset, or when the 32 bytes just
+///   before the offset changed (truncated and rewritten past the offset between two
+///   checks); a file rewritten with the very same bytes up to the offset is taken as grown;
+/// - a rotated or deleted file is read to its end through the open handle before letting
+///   go; a rename and re-creation seen between the two steps shows as `Deleted` then
+///   `Appeared` rather than `Rotated` (no line is lost either way); a file replaced twice
+///   between two checks loses the middle one (as `tail -F` does);
+/// - named pipes and devices are refused (they would block): use standard input.
+///
 /// It does nothing by itself: each [`Source::step`] (or [`FileFollower::poll`]) checks the
 /// path once (one `stat`) and reads at most one buffer of new bytes. A [`super::FollowSet`]
 /// calls it on wake-ups; tests call it by hand.
@@ -141,6 +154,15 @@ impl FileFollower {
                     self.close(|dropped| FollowEvent::Deleted { dropped }, out);
                 }
                 self.fail("is a folder, not a file".to_string(), out);
+                Step::Idle
+            }
+            Ok(meta) if !meta.is_file() => {
+                // Opening a named pipe would block every file on this thread.
+                self.fail(
+                    "not a regular file (a pipe or a device); read it as standard input `-`"
+                        .to_string(),
+                    out,
+                );
                 Step::Idle
             }
             Ok(meta) => self.on_present(&meta, out),
