@@ -318,3 +318,56 @@ fn symbolic_link_is_woken_by_events_in_the_target_folder() {
     wait_until(&rx, &mut got, |g| text_of(g, id) == "a\nb\n");
     set.stop();
 }
+
+#[test]
+fn a_burst_from_another_writer_arrives_complete_in_bounded_batches() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("burst.log");
+    fs::write(&p, "").unwrap();
+    let options = FollowOptions {
+        max_read_bytes: 8192,
+        channel_capacity: 4,
+        ..FollowOptions::default()
+    };
+    let (mut set, rx) = FollowSet::start(options, Arc::new(SystemClock)).unwrap();
+    let id = set.add_path(&p).unwrap();
+    let expected: String = (0..20_000)
+        .map(|i| format!("{i} {}.5\n", i % 977))
+        .collect();
+    let writer = {
+        let p = p.clone();
+        let text = expected.clone();
+        std::thread::spawn(move || {
+            let mut f = OpenOptions::new().append(true).open(&p).unwrap();
+            // Odd-sized writes so lines are often cut between two writes.
+            for chunk in text.as_bytes().chunks(777) {
+                f.write_all(chunk).unwrap();
+            }
+        })
+    };
+    let mut text = String::new();
+    let mut next_line = 1;
+    let deadline = Instant::now() + PATIENCE;
+    while text.len() < expected.len() {
+        let left = deadline.saturating_duration_since(Instant::now());
+        let (s, e) = rx.recv_timeout(left).expect("burst did not arrive");
+        if let (
+            true,
+            FollowEvent::Data {
+                bytes,
+                first_line,
+                lines,
+                ..
+            },
+        ) = (s == id, e)
+        {
+            assert!(bytes.len() <= 8192 + 64, "batch of {} bytes", bytes.len());
+            assert_eq!(first_line, next_line);
+            next_line += lines;
+            text.push_str(std::str::from_utf8(&bytes).unwrap());
+        }
+    }
+    writer.join().unwrap();
+    assert_eq!(text, expected);
+    set.stop();
+}
