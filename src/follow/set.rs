@@ -28,6 +28,9 @@ use super::{
 /// their turn.
 const STEPS_PER_TURN: usize = 4;
 
+/// The shortest stat-check period accepted.
+const MIN_PERIOD: Duration = Duration::from_millis(10);
+
 /// Why a follower could not be started or given a source.
 #[derive(Debug, thiserror::Error)]
 pub enum FollowError {
@@ -214,6 +217,12 @@ impl Driver {
         rx: Receiver<Control>,
         out: SyncSender<(SourceId, FollowEvent)>,
     ) -> Self {
+        // A zero period would make the thread spin.
+        let options = FollowOptions {
+            poll_interval: options.poll_interval.max(MIN_PERIOD),
+            heartbeat: options.heartbeat.max(MIN_PERIOD),
+            ..options
+        };
         Self {
             options,
             control,
