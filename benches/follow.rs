@@ -6,7 +6,9 @@
 //! - `idle`:           CPU time of the follower threads on one quiet file over `PLATEAU_SECS`
 //!   seconds (default 20);
 //! - `many`:           CPU time of the follower threads with 100 files, each appended once a
-//!   second, over `PLATEAU_SECS` seconds.
+//!   second, over `PLATEAU_SECS` seconds (`many-poll`: the same with forced polling);
+//! - `neighbour`:      CPU time of the follower of one quiet file while another file in the
+//!   same folder is written 1000 times a second.
 //!
 //! Run: `cargo bench --bench follow -- MODE...` (no mode: all), or `benches/follow_latency.sh`.
 //! CPU time is read from `/proc/self/task/*/schedstat` (nanoseconds on CPU per thread; Linux).
@@ -230,6 +232,41 @@ fn many(secs: u64, force_poll: bool) -> Res<()> {
     Ok(())
 }
 
+/// One quiet followed file while a sibling file in the same folder (say, a trajectory) is
+/// appended 1000 times a second: the cost of watching the folder rather than the file.
+fn neighbour(secs: u64) -> Res<()> {
+    let dir = tempfile::tempdir()?;
+    let p = dir.path().join("quiet.log");
+    let noisy = dir.path().join("traj.bin");
+    fs::write(&p, b"step temp\n")?;
+    fs::write(&noisy, b"")?;
+    let (mut set, rx) = FollowSet::start(FollowOptions::default(), Arc::new(SystemClock))?;
+    set.add_path(&p)?;
+    let (consumer, _) = drain(rx)?;
+    thread::sleep(Duration::from_millis(500));
+    let skip = vec![my_tid()?, consumer];
+    let c0 = cpu_ns(&skip)?;
+    let t0 = Instant::now();
+    let mut f = OpenOptions::new().append(true).open(&noisy)?;
+    let mut writes = 0u64;
+    let tick = Duration::from_millis(1);
+    while t0.elapsed() < Duration::from_secs(secs) {
+        f.write_all(&[0u8; 256])?;
+        writes += 1;
+        thread::sleep((t0 + tick * writes as u32).saturating_duration_since(Instant::now()));
+    }
+    let used = cpu_ns(&skip)? - c0;
+    let wall = t0.elapsed();
+    println!(
+        "1 quiet file, a neighbour in its folder written {writes} times: {:.1} ms CPU in {:.1} s = {:.3} % of a core",
+        used as f64 / 1e6,
+        wall.as_secs_f64(),
+        used as f64 / wall.as_nanos() as f64 * 100.0
+    );
+    set.stop();
+    Ok(())
+}
+
 fn main() -> Res<()> {
     let modes: Vec<String> = std::env::args()
         .skip(1)
@@ -263,6 +300,9 @@ fn main() -> Res<()> {
     }
     if want("many-poll") {
         many(secs, true)?;
+    }
+    if want("neighbour") {
+        neighbour(secs)?;
     }
     Ok(())
 }

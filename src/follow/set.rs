@@ -275,6 +275,8 @@ impl Driver {
                 }
             }
             let now = Instant::now();
+            // A fallback to polling may have shortened the period.
+            next_tick = next_tick.min(now + self.period());
             if now >= next_tick {
                 all = true;
                 self.retry_dirs();
