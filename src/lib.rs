@@ -11,6 +11,7 @@ pub mod cli;
 pub mod commands;
 pub mod config;
 pub mod error;
+pub mod fold;
 pub mod follow;
 pub mod ingest;
 pub mod mapping;

@@ -680,7 +680,7 @@ impl LogWriter {
         };
         line.push('\n');
         self.rows_written += 1;
-        if self.style == LogStyle::Tagged && self.rows_written % 50 == 0 {
+        if self.style == LogStyle::Tagged && self.rows_written.is_multiple_of(50) {
             let _ = writeln!(
                 line,
                 "note: wrote checkpoint after step {} (informational)",

@@ -1,6 +1,8 @@
 //! Statistics: edge cases, invariants (proptest), synthetic scenarios with known answers
 //! from theory, and a 10⁷-row pass over the O(N) functions.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
+
 use plateau::stats::{self, Equilibration, Estimator, FluctuationVerdict, SlopeSeMethod};
 use proptest::prelude::*;
 

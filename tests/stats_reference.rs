@@ -3,6 +3,8 @@
 //! `tests/data/ar1/reference.json`, scipy chi-square bands and a velocity-Verlet oscillator
 //! with a closed-form energy error. Provenance of every file: `tests/data/README.md`.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
+
 use std::path::PathBuf;
 
 use plateau::stats::{self, Equilibration, Estimator, HampelOptions, SlopeSeMethod};

@@ -52,6 +52,7 @@
 pub mod block;
 pub mod layout;
 pub mod number;
+pub mod sniff;
 
 use std::collections::VecDeque;
 

@@ -9,6 +9,7 @@
 //! - adjusted `C_t = [a_t/(N − t)] / (a_0/N)` (statsmodels `adjusted=True`; Chodera 2016
 //!   eq. 13).
 
+use std::cell::RefCell;
 use std::sync::Arc;
 
 use realfft::num_complex::Complex;
@@ -16,36 +17,59 @@ use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 
 use super::descriptive::mean;
 
-/// Lags computed directly (O(N) each) before [`LazyAcov`] falls back to one FFT.
+/// Lags computed directly (O(N) each) before [`LazyAcov`] switches to FFTs.
 const DIRECT_LAGS: usize = 24;
+/// First lag window of the segmented FFT (lags below this from blocks of this size).
+const SEGMENT_LAGS: usize = 256;
 
-/// Reusable FFT plans and buffers for repeated autocovariances of similar lengths
-/// (the equilibration search calls it once per candidate start).
+type Plans = (
+    usize,
+    Arc<dyn RealToComplex<f64>>,
+    Arc<dyn ComplexToReal<f64>>,
+);
+
+/// Reusable FFT plans (one thread-local engine serves all calls on a thread, so the
+/// twiddle tables of a length are computed once).
 pub(crate) struct AcfEngine {
     planner: RealFftPlanner<f64>,
-    plans: Option<(
-        usize,
-        Arc<dyn RealToComplex<f64>>,
-        Arc<dyn ComplexToReal<f64>>,
-    )>,
-    input: Vec<f64>,
-    spectrum: Vec<Complex<f64>>,
-    output: Vec<f64>,
+    plans: Vec<Plans>,
+}
+
+thread_local! {
+    static ENGINE: RefCell<AcfEngine> = RefCell::new(AcfEngine::new());
+}
+
+/// Run `f` with this thread's engine (a fresh one if it is already borrowed).
+pub(crate) fn with_engine<R>(f: impl FnOnce(&mut AcfEngine) -> R) -> R {
+    ENGINE.with(|cell| match cell.try_borrow_mut() {
+        Ok(mut e) => f(&mut e),
+        Err(_) => f(&mut AcfEngine::new()),
+    })
 }
 
 impl AcfEngine {
     pub(crate) fn new() -> Self {
         Self {
             planner: RealFftPlanner::new(),
-            plans: None,
-            input: Vec::new(),
-            spectrum: Vec::new(),
-            output: Vec::new(),
+            plans: Vec::new(),
         }
     }
 
-    /// Lag sums `a_t` of an already centred series `dx`, t = 0 … N−1. `None` on an
-    /// internal FFT error (not expected) or empty input.
+    fn plans(&mut self, len: usize) -> (Arc<dyn RealToComplex<f64>>, Arc<dyn ComplexToReal<f64>>) {
+        if let Some((_, f, i)) = self.plans.iter().find(|p| p.0 == len) {
+            return (Arc::clone(f), Arc::clone(i));
+        }
+        let f = self.planner.plan_fft_forward(len);
+        let i = self.planner.plan_fft_inverse(len);
+        if self.plans.len() >= 8 {
+            self.plans.remove(0);
+        }
+        self.plans.push((len, Arc::clone(&f), Arc::clone(&i)));
+        (f, i)
+    }
+
+    /// Lag sums `a_t` of an already centred series `dx`, t = 0 … N−1, from one
+    /// zero-padded FFT pair. `None` on empty input or an FFT error (not expected).
     pub(crate) fn lag_sums(&mut self, dx: &[f64]) -> Option<Vec<f64>> {
         let n = dx.len();
         if n == 0 {
@@ -55,29 +79,68 @@ impl AcfEngine {
             return Some(dx.iter().map(|v| v * v).collect());
         }
         let len = (2 * n - 1).next_power_of_two();
-        let (fwd, inv) = match &self.plans {
-            Some((l, f, i)) if *l == len => (Arc::clone(f), Arc::clone(i)),
-            _ => {
-                let f = self.planner.plan_fft_forward(len);
-                let i = self.planner.plan_fft_inverse(len);
-                self.plans = Some((len, Arc::clone(&f), Arc::clone(&i)));
-                (f, i)
-            }
-        };
-        self.input.clear();
-        self.input.extend_from_slice(dx);
-        self.input.resize(len, 0.0);
-        self.spectrum.clear();
-        self.spectrum.resize(len / 2 + 1, Complex::new(0.0, 0.0));
-        fwd.process(&mut self.input, &mut self.spectrum).ok()?;
-        for c in self.spectrum.iter_mut() {
+        let (fwd, inv) = self.plans(len);
+        let mut input = vec![0.0; len];
+        input.get_mut(..n)?.copy_from_slice(dx);
+        let mut spectrum = vec![Complex::new(0.0, 0.0); len / 2 + 1];
+        fwd.process(&mut input, &mut spectrum).ok()?;
+        for c in spectrum.iter_mut() {
             *c = Complex::new(c.norm_sqr(), 0.0);
         }
-        self.output.clear();
-        self.output.resize(len, 0.0);
-        inv.process(&mut self.spectrum, &mut self.output).ok()?;
+        let mut output = input;
+        inv.process(&mut spectrum, &mut output).ok()?;
         let scale = 1.0 / len as f64;
-        Some(self.output.iter().take(n).map(|v| v * scale).collect())
+        output.truncate(n);
+        output.iter_mut().for_each(|v| *v *= scale);
+        Some(output)
+    }
+
+    /// Lag sums for lags `0 … b−1` only (`b = lags` rounded up to a power of two), by
+    /// segmented FFTs: each block of `b` values is correlated with itself and the next
+    /// block through FFTs of length `2b`, spectra are summed, one inverse at the end.
+    /// Exact linear sums (no wrap-around) in O(N log b). Falls back to [`Self::lag_sums`]
+    /// when `b` is not small against N.
+    pub(crate) fn lag_sums_upto(&mut self, dx: &[f64], lags: usize) -> Option<Vec<f64>> {
+        let n = dx.len();
+        let b = lags.next_power_of_two().max(64);
+        if 8 * b >= n {
+            return self.lag_sums(dx);
+        }
+        let len = 2 * b;
+        let (fwd, inv) = self.plans(len);
+        let zero = Complex::new(0.0, 0.0);
+        let mut acc = vec![zero; b + 1];
+        let mut a_in = vec![0.0; len];
+        let mut e_in = vec![0.0; len];
+        let mut fa = vec![zero; b + 1];
+        let mut fe = vec![zero; b + 1];
+        let mut start = 0;
+        while start < n {
+            a_in.iter_mut().for_each(|v| *v = 0.0);
+            e_in.iter_mut().for_each(|v| *v = 0.0);
+            let a_src = dx.get(start..(start + b).min(n))?;
+            let e_src = dx.get(start..(start + len).min(n))?;
+            a_in.get_mut(..a_src.len())?.copy_from_slice(a_src);
+            e_in.get_mut(..e_src.len())?.copy_from_slice(e_src);
+            fwd.process(&mut a_in, &mut fa).ok()?;
+            fwd.process(&mut e_in, &mut fe).ok()?;
+            for ((s, p), q) in acc.iter_mut().zip(&fa).zip(&fe) {
+                *s += p.conj() * q;
+            }
+            start += b;
+        }
+        if let Some(c) = acc.first_mut() {
+            c.im = 0.0;
+        }
+        if let Some(c) = acc.last_mut() {
+            c.im = 0.0;
+        }
+        let mut out = vec![0.0; len];
+        inv.process(&mut acc, &mut out).ok()?;
+        let scale = 1.0 / len as f64;
+        out.truncate(b.min(n));
+        out.iter_mut().for_each(|v| *v *= scale);
+        Some(out)
     }
 }
 
@@ -87,13 +150,14 @@ pub(crate) fn centred(x: &[f64]) -> Option<(f64, Vec<f64>)> {
     Some((m, x.iter().map(|v| v - m).collect()))
 }
 
-/// Lag sums `a_t` evaluated lazily: the first [`DIRECT_LAGS`] lags directly (O(N) each,
-/// cheap when an estimator stops early), everything beyond from one FFT (O(N log N)).
-/// Both give the same values up to rounding.
+/// Lag sums `a_t` evaluated lazily, cheapest first: the first [`DIRECT_LAGS`] lags
+/// directly (O(N) each, cheap when an estimator stops early); then lags below 256, 4096,
+/// … from segmented FFTs (O(N log b)); finally all lags from one full FFT (O(N log N)).
+/// All tiers give the same values up to rounding.
 pub(crate) struct LazyAcov<'a> {
     dx: Vec<f64>,
     direct: Vec<f64>,
-    fft: Option<Vec<f64>>,
+    partial: Option<Vec<f64>>,
     engine: &'a mut AcfEngine,
 }
 
@@ -104,7 +168,7 @@ impl<'a> LazyAcov<'a> {
         Some(Self {
             dx,
             direct: Vec::new(),
-            fft: None,
+            partial: None,
             engine,
         })
     }
@@ -115,10 +179,10 @@ impl<'a> LazyAcov<'a> {
         if t >= n {
             return None;
         }
-        if let Some(f) = &self.fft {
-            return f.get(t).copied();
+        if let Some(v) = self.partial.as_ref().and_then(|p| p.get(t)) {
+            return Some(*v);
         }
-        if t < DIRECT_LAGS {
+        if self.partial.is_none() && t < DIRECT_LAGS {
             while self.direct.len() <= t {
                 let lag = self.direct.len();
                 let head = self.dx.get(..n - lag)?;
@@ -128,9 +192,14 @@ impl<'a> LazyAcov<'a> {
             }
             return self.direct.get(t).copied();
         }
-        let f = self.engine.lag_sums(&self.dx)?;
-        let v = f.get(t).copied();
-        self.fft = Some(f);
+        let have = self.partial.as_ref().map_or(0, Vec::len);
+        let mut want = SEGMENT_LAGS.max(have * 16);
+        while want <= t {
+            want *= 16;
+        }
+        let p = self.engine.lag_sums_upto(&self.dx, want)?;
+        let v = p.get(t).copied();
+        self.partial = Some(p);
         v
     }
 }
@@ -139,7 +208,7 @@ impl<'a> LazyAcov<'a> {
 /// `None` if empty. Cost O(N log N).
 pub fn lag_sums(x: &[f64]) -> Option<Vec<f64>> {
     let (_, dx) = centred(x)?;
-    AcfEngine::new().lag_sums(&dx)
+    with_engine(|e| e.lag_sums(&dx))
 }
 
 /// Biased autocorrelation `ρ̂_t = a_t/a_0`, t = 0 … N−1 (METHODS §0; statsmodels
@@ -177,6 +246,7 @@ mod tests {
     use super::*;
 
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn fft_matches_direct_sums() {
         // Direct definition (METHODS §1.1 step 2) on a small irregular series.
         let x = [1.0, 3.0, -2.0, 0.5, 4.0, 4.0, -1.0];
@@ -192,6 +262,30 @@ mod tests {
             assert!((lazy.get(t).unwrap() - a[t]).abs() < 1e-12);
         }
         assert_eq!(lazy.get(7), None);
+    }
+
+    #[test]
+    #[allow(clippy::needless_range_loop)]
+    fn segmented_fft_matches_full() {
+        // Same linear sums from blocks (overlap of two blocks, no wrap-around).
+        let x: Vec<f64> = (0..5000)
+            .map(|i| ((i * 7919) % 113) as f64 + (i as f64 * 0.01).sin())
+            .collect();
+        let full = lag_sums(&x).unwrap();
+        let (_, dx) = centred(&x).unwrap();
+        let mut eng = AcfEngine::new();
+        let part = eng.lag_sums_upto(&dx, 300).unwrap();
+        assert_eq!(part.len(), 512);
+        for t in 0..512 {
+            assert!((part[t] - full[t]).abs() < 1e-9 * full[0], "lag {t}");
+        }
+        let mut lazy = LazyAcov::new(&x, &mut eng).unwrap();
+        for t in [0, 5, 30, 300, 700, 4999] {
+            assert!(
+                (lazy.get(t).unwrap() - full[t]).abs() < 1e-9 * full[0],
+                "lag {t}"
+            );
+        }
     }
 
     #[test]

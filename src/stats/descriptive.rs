@@ -121,14 +121,17 @@ pub struct Summary {
     pub max: f64,
 }
 
-/// Two-pass summary. `None` if empty. Cost O(N) (three passes).
+/// Two-pass summary. `None` if empty. Cost O(N) (four passes).
 pub fn summarize(x: &[f64]) -> Option<Summary> {
-    let mean = mean(x)?;
+    let (mean, ss) = centred_ss(x)?;
     let (min, max) = min_max(x)?;
+    let std = (x.len() > 1)
+        .then(|| (ss / (x.len() - 1) as f64).sqrt())
+        .and_then(finite);
     Some(Summary {
         count: x.len(),
         mean,
-        std: std_dev(x),
+        std,
         min,
         max,
     })

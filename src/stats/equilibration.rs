@@ -12,7 +12,7 @@
 //! - too short: fewer than [`MIN_SAMPLES`] = 100 samples (a 50-sample minimum tail with
 //!   `t0 ≤ N/2` needs at least 100) → [`Equilibration::TooShort`];
 //! - candidates `t0 ≤ N/2` whose tail has at least `max(50, 10·g(t0))` samples;
-//! - every sample is a candidate for up to 5000 (block) samples; beyond that about 200
+//! - every sample is a candidate for up to 5000 (block) samples; beyond that about 100
 //!   evenly spaced candidates, then finer grids around the best until the step is 1;
 //! - series longer than 20 000 rows are searched on block means of `b = ⌈N/20000⌉` rows
 //!   and the chosen block is mapped back to row `b·t0_b`; `g` and `N_eff` reported for
@@ -21,11 +21,11 @@
 //!   in the last 5 % of the allowed range (its upper edge).
 //!
 //! Cost: one `g` per candidate, each O(M·t*) or O(M log M) on M ≤ 20 000 block means,
-//! so O(N) for the blocking plus a bounded search (≤ ~300 candidates): O(N + C·M log M).
+//! so O(N) for the blocking plus a bounded search (≤ ~160 candidates): O(N + C·M log M).
 
 use serde::{Deserialize, Serialize};
 
-use super::acf::AcfEngine;
+use super::acf::{with_engine, AcfEngine};
 use super::inefficiency::{inefficiency_with, Estimator};
 
 /// Fewer samples than this: [`Equilibration::TooShort`].
@@ -37,7 +37,7 @@ pub const TAIL_G_FACTOR: f64 = 10.0;
 /// Largest (block) series searched at every sample.
 pub const FULL_GRID_MAX: usize = 5000;
 /// Coarse candidates for longer series.
-pub const COARSE_CANDIDATES: usize = 200;
+pub const COARSE_CANDIDATES: usize = 100;
 /// Series longer than this are searched on block means.
 pub const BLOCK_TARGET: usize = 20_000;
 /// Fraction of the allowed range at its upper end that counts as "the edge".
@@ -92,6 +92,10 @@ fn score(y: &[f64], t0: usize, engine: &mut AcfEngine) -> Option<(f64, f64)> {
 /// Equilibration onset by N_eff maximisation (Chodera 2016). Input: finite, evenly spaced
 /// samples. A stationary series gets its onset at or near 0.
 pub fn detect_equilibration(x: &[f64]) -> Equilibration {
+    with_engine(|engine| detect_with(x, engine))
+}
+
+fn detect_with(x: &[f64], engine: &mut AcfEngine) -> Equilibration {
     let n = x.len();
     if n < MIN_SAMPLES {
         return Equilibration::TooShort;
@@ -110,7 +114,6 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     };
     let m = y.len();
     let upper = m / 2;
-    let mut engine = AcfEngine::new();
     let mut best: Option<(usize, f64)> = None;
     let consider = |t0: usize, best: &mut Option<(usize, f64)>, engine: &mut AcfEngine| {
         if let Some((neff, _)) = score(y, t0, engine) {
@@ -125,13 +128,13 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     };
     if m <= FULL_GRID_MAX {
         for t0 in 0..=upper {
-            consider(t0, &mut best, &mut engine);
+            consider(t0, &mut best, engine);
         }
     } else {
         let mut step = upper.div_ceil(COARSE_CANDIDATES).max(1);
         let mut t0 = 0;
         while t0 <= upper {
-            consider(t0, &mut best, &mut engine);
+            consider(t0, &mut best, engine);
             t0 += step;
         }
         while step > 1 {
@@ -141,7 +144,7 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
             step = (step / 20).max(1);
             let mut t = lo;
             while t <= hi {
-                consider(t, &mut best, &mut engine);
+                consider(t, &mut best, engine);
                 t += step;
             }
         }
@@ -157,7 +160,7 @@ pub fn detect_equilibration(x: &[f64]) -> Equilibration {
     let Some(tail) = x.get(row..) else {
         return Equilibration::NotYet;
     };
-    match inefficiency_with(tail, Estimator::FirstNegative, &mut engine) {
+    match inefficiency_with(tail, Estimator::FirstNegative, engine) {
         Some(r) => Equilibration::Onset {
             row,
             g: r.g,

@@ -178,8 +178,14 @@ pub const VOLUME_VARIES_REL_SD: f64 = 1e-6;
 pub const NVE_TOTAL_OVER_KINETIC: f64 = 0.1;
 
 /// Infer the ensemble (common practice, no source): volume with relative SD above
-/// [`VOLUME_VARIES_REL_SD`] → NPT; else SD(total) < [`NVE_TOTAL_OVER_KINETIC`]·SD(kinetic)
-/// → NVE; else NVT when both energies are known. `None` when nothing can be inferred.
+/// [`VOLUME_VARIES_REL_SD`] → NPT; else a fast-fluctuation scale of the total energy below
+/// [`NVE_TOTAL_OVER_KINETIC`] times that of the kinetic energy → NVE; else NVT when both
+/// energies are known. `None` when nothing can be inferred.
+///
+/// The energies are compared by the spread of their row-to-row differences
+/// ([`fast_fluctuation_scale`]), not by their plain SD: a conserved energy that drifts, or a
+/// total energy still relaxing, has a large SD but small row-to-row changes, and must not
+/// make an NVE run look thermostatted.
 pub fn infer_ensemble(
     total: Option<&[f64]>,
     kinetic: Option<&[f64]>,
@@ -198,8 +204,8 @@ pub fn infer_ensemble(
             }
         }
     }
-    let sd_t = std_dev(total?)?;
-    let sd_k = std_dev(kinetic?)?;
+    let sd_t = fast_fluctuation_scale(total?)?;
+    let sd_k = fast_fluctuation_scale(kinetic?)?;
     if sd_k <= 0.0 {
         return None;
     }
@@ -207,20 +213,61 @@ pub fn infer_ensemble(
     let (ensemble, reason) = if ratio < NVE_TOTAL_OVER_KINETIC {
         (
             Ensemble::Nve,
-            format!("total-energy SD is {ratio:.3} of the kinetic-energy SD (< {NVE_TOTAL_OVER_KINETIC})"),
+            format!("total energy changes from row to row by {ratio:.3} of the kinetic energy's changes (< {NVE_TOTAL_OVER_KINETIC})"),
         )
     } else {
         (
             Ensemble::Nvt,
-            format!("total energy fluctuates ({ratio:.3} of the kinetic-energy SD) and the volume does not vary"),
+            format!("total energy fluctuates ({ratio:.3} of the kinetic energy's row-to-row changes) and the volume does not vary"),
         )
     };
     Some(EnsembleGuess { ensemble, reason })
 }
 
+/// Spread of the row-to-row differences, `SD(x_{i+1} − x_i)/√2`: equal to the SD for
+/// uncorrelated noise and nearly blind to slow drifts and transients (von Neumann's
+/// mean-square successive difference, 1941). `None` for fewer than 3 values. O(N).
+pub fn fast_fluctuation_scale(x: &[f64]) -> Option<f64> {
+    if x.len() < 3 {
+        return None;
+    }
+    let msd = x
+        .iter()
+        .zip(x.iter().skip(1))
+        .map(|(a, b)| (b - a) * (b - a))
+        .sum::<f64>()
+        / (x.len() - 1) as f64;
+    finite((msd / 2.0).sqrt())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn drifting_nve_total_energy_is_still_recognised_as_nve() {
+        // A conserved total energy with a strong linear drift and tiny noise, next to a
+        // kinetic energy with canonical-size noise: NVE (common practice, no source).
+        let n = 2000;
+        let mut state = 7u64;
+        let mut noise = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            ((state >> 11) as f64 / (1u64 << 53) as f64) - 0.5
+        };
+        let kinetic: Vec<f64> = (0..n).map(|_| 11_000.0 + 300.0 * noise()).collect();
+        let total: Vec<f64> = (0..n)
+            .map(|i| -30_000.0 + 0.4 * i as f64 + 2.0 * noise())
+            .collect();
+        let guess = infer_ensemble(Some(&total), Some(&kinetic), None).unwrap();
+        assert_eq!(guess.ensemble, Ensemble::Nve, "{}", guess.reason);
+        // White noise: the successive-difference scale equals the SD (von Neumann 1941).
+        let white: Vec<f64> = (0..20_000).map(|_| noise()).collect();
+        let sd = std_dev(&white).unwrap();
+        let scale = fast_fluctuation_scale(&white).unwrap();
+        assert!((scale / sd - 1.0).abs() < 0.03, "{scale} vs {sd}");
+    }
 
     #[test]
     fn dof_helper() {

@@ -21,7 +21,7 @@ use std::str::FromStr;
 
 use serde::{Deserialize, Serialize};
 
-use super::acf::{AcfEngine, LazyAcov};
+use super::acf::{with_engine, AcfEngine, LazyAcov};
 use super::finite;
 
 /// Lags at or below this are summed even when `C_t ≤ 0` (METHODS §1.2(a) "minimum lag ~3").
@@ -107,8 +107,7 @@ pub struct Inefficiency {
 /// Statistical inefficiency of `x` with the chosen estimator. `None` if fewer than 2
 /// values (or non-finite input). Cost O(N log N) at most.
 pub fn statistical_inefficiency(x: &[f64], estimator: Estimator) -> Option<Inefficiency> {
-    let mut engine = AcfEngine::new();
-    inefficiency_with(x, estimator, &mut engine)
+    with_engine(|engine| inefficiency_with(x, estimator, engine))
 }
 
 /// As [`statistical_inefficiency`] with the default estimator.

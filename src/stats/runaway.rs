@@ -10,7 +10,7 @@
 //! `m` and `σ̂` come from a [`Baseline`] (median and 1.4826·MAD of a reference part,
 //! usually the rows before the checked window). An exponential blow-up grows by orders of
 //! magnitude per window while a double overflows only near 1e308, so the growth rule fires
-//! long before a non-finite value. Cost O(window) per check, O(N) for the baseline.
+//! long before a non-finite value. Cost O(window) per check, O(M) for a baseline of M rows.
 
 use serde::{Deserialize, Serialize};
 
@@ -145,9 +145,13 @@ pub fn far_excursion(
         .map(|(i, _)| i)
 }
 
-/// Runaway check: baseline from all but the last window (or the whole series when it is
-/// shorter than two windows), growth rule on the last window, far rule on the checked
-/// window. Empty input: nothing flagged.
+/// Rows before the checked window that form the baseline of [`runaway`].
+pub const BASELINE_ROWS: usize = 5000;
+
+/// Runaway check: baseline from the up to [`BASELINE_ROWS`] rows before the last window
+/// (or the whole series when it is shorter than two windows), growth rule on the last
+/// window, far rule on the checked window. Cost O(min(N, 5000)), independent of the run
+/// length. Empty input: nothing flagged.
 pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
     let w = opts.window.max(3);
     let ref_end = if x.len() >= 2 * w {
@@ -155,7 +159,8 @@ pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
     } else {
         x.len()
     };
-    let Some(base) = x.get(..ref_end).and_then(Baseline::from_slice) else {
+    let ref_start = ref_end.saturating_sub(BASELINE_ROWS);
+    let Some(base) = x.get(ref_start..ref_end).and_then(Baseline::from_slice) else {
         return RunawayCheck {
             growth: None,
             far_row: None,

@@ -8,12 +8,12 @@
 //!   k = 10, t0 = 5 (METHODS §8: exactly the injected spikes on autocorrelated noise,
 //!   common practice). Non-finite values are never in a window and are reported by
 //!   [`crate::stats::non_finite_positions`], not as spikes. `S_i` is floored at
-//!   `floor_fraction` (default 0.05) of the global robust SD (or of the global SD when
+//!   `floor_fraction` (default 0.05) of the global robust SD (from at most ~10⁵ strided values) (or of the global SD when
 //!   the global MAD is 0), so flat windows do not flag rounding noise (common practice).
 //!
 //! Cost: `median`/`mad` O(N) (selection); `hampel` keeps a sorted window, so each step
-//! is a binary search plus an O(k) shift, and the window MAD comes from merging the two
-//! sorted halves of the deviations in O(k): O(N·k) with a small constant (O(N) for fixed
+//! is a binary search plus an O(k) shift, and the window MAD is an order statistic of two
+//! sorted runs of deviations found in O(log k): O(N·k) with a small constant (O(N) for fixed
 //! k), memory O(N + k).
 
 use serde::{Deserialize, Serialize};
@@ -84,13 +84,22 @@ struct SortedWindow {
 }
 
 impl SortedWindow {
+    /// Number of elements `< x`: a branch-free count for small windows (no mispredicted
+    /// binary-search branches), binary search for large ones.
+    fn position(&self, x: f64) -> usize {
+        if self.v.len() <= 64 {
+            self.v.iter().map(|a| usize::from(*a < x)).sum()
+        } else {
+            self.v.partition_point(|a| *a < x)
+        }
+    }
     fn insert(&mut self, x: f64) {
-        let pos = self.v.partition_point(|a| a.total_cmp(&x).is_lt());
+        let pos = self.position(x);
         self.v.insert(pos, x);
     }
     fn remove(&mut self, x: f64) {
-        let pos = self.v.partition_point(|a| a.total_cmp(&x).is_lt());
-        if self.v.get(pos).is_some_and(|a| a.total_cmp(&x).is_eq()) {
+        let pos = self.position(x);
+        if self.v.get(pos).is_some_and(|a| *a == x) {
             self.v.remove(pos);
         }
     }
@@ -106,47 +115,48 @@ impl SortedWindow {
             Some(0.5 * (self.v.get(n / 2 - 1)? + hi))
         }
     }
-    /// Raw MAD around `m`: the deviations below `m` (read leftwards) and above it (read
-    /// rightwards) are two sorted runs; merge until the middle rank(s).
+    /// Raw MAD around `m`. The deviations below `m` (read leftwards from the split) and
+    /// above it (read rightwards) are two sorted runs; the middle order statistic(s) of
+    /// their union come from the classic binary search over how many are taken from the
+    /// left run: O(log k) per call.
     fn mad(&self, m: f64) -> Option<f64> {
         let n = self.v.len();
         if n == 0 {
             return None;
         }
-        let split = self.v.partition_point(|a| *a < m);
-        let mut l = split; // next left candidate is l-1
-        let mut r = split;
-        let want_hi = n / 2;
-        let mut prev = 0.0;
-        let mut cur = 0.0;
-        for _ in 0..=want_hi {
-            let left = if l > 0 {
-                self.v.get(l - 1).map(|a| m - a)
-            } else {
-                None
-            };
-            let right = self.v.get(r).map(|a| a - m);
-            prev = cur;
-            cur = match (left, right) {
-                (Some(a), Some(b)) if a <= b => {
-                    l -= 1;
-                    a
-                }
-                (_, Some(b)) => {
-                    r += 1;
-                    b
-                }
-                (Some(a), None) => {
-                    l -= 1;
-                    a
-                }
-                (None, None) => return None,
-            };
-        }
+        let split = self.position(m);
+        let hi = self.kth_deviation(m, split, n / 2)?;
         if n % 2 == 1 {
-            Some(cur)
+            Some(hi)
         } else {
-            Some(0.5 * (prev + cur))
+            Some(0.5 * (self.kth_deviation(m, split, n / 2 - 1)? + hi))
+        }
+    }
+
+    /// k-th smallest (0-based) of `|v_j − m|`, with `v[..split] < m ≤ v[split..]`.
+    fn kth_deviation(&self, m: f64, split: usize, k: usize) -> Option<f64> {
+        let nl = split;
+        let nr = self.v.len() - split;
+        let left = |j: usize| self.v.get(split.checked_sub(j + 1)?).map(|a| m - a);
+        let right = |j: usize| self.v.get(split + j).map(|a| a - m);
+        let take = k + 1;
+        let mut lo = take.saturating_sub(nr);
+        let mut hi = take.min(nl);
+        while lo < hi {
+            let i = (lo + hi) / 2;
+            let j = take - i;
+            match (right(j - 1), left(i)) {
+                (Some(r), Some(l)) if r > l => lo = i + 1,
+                _ => hi = i,
+            }
+        }
+        let i = lo;
+        let j = take - i;
+        let a = if i > 0 { left(i - 1) } else { None };
+        let b = if j > 0 { right(j - 1) } else { None };
+        match (a, b) {
+            (Some(a), Some(b)) => Some(a.max(b)),
+            (a, b) => a.or(b),
         }
     }
 }
@@ -159,7 +169,15 @@ pub fn hampel(x: &[f64], opts: &HampelOptions) -> Vec<usize> {
     if n == 0 {
         return flags;
     }
-    let finite_vals: Vec<f64> = x.iter().copied().filter(|v| v.is_finite()).collect();
+    // Global scale for the floor, from at most ~100 000 evenly strided finite values
+    // (a floor heuristic; keeps its cost O(N) with a small constant).
+    let stride = (n / 100_000).max(1);
+    let finite_vals: Vec<f64> = x
+        .iter()
+        .step_by(stride)
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
     let global = robust_sd(&finite_vals).unwrap_or(0.0);
     let global = if global > 0.0 {
         global

@@ -1,0 +1,336 @@
+//! Bounded memory for endless runs: a series that keeps its recent values at full
+//! resolution and folds older ones into block summaries.
+//!
+//! Past the cap, the oldest values are folded into blocks of `2^k` consecutive rows, each
+//! kept as [`Moments`] (count, mean, sum of squared deviations, min, max). Blocks are aligned
+//! at row 0 and all have the same length; when there are too many, neighbouring pairs merge
+//! and the block length doubles. Memory is therefore bounded by the cap: at most `cap`
+//! values at full resolution plus at most `cap / 4` blocks of 40 bytes.
+//!
+//! What stays exact after folding (tested against the unfolded series):
+//! - count, mean, the spread (variance with n − 1), min and max — [`FoldedSeries::moments`];
+//! - the block means at the block length and every longer block — [`FoldedSeries::block_means`],
+//!   so Flyvbjerg–Petersen block-averaging levels at or above the folded block length, and
+//!   the standard error they give once blocks are longer than the correlation time, equal
+//!   those of the unfolded data;
+//! - the chart's min/max envelope per block — [`FoldedSeries::envelope`].
+//!
+//! What becomes approximate: the statistical inefficiency `g` and the equilibration onset
+//! are computed from block means where the data are folded (the onset search already works
+//! on block means for long series); the drift slope is fitted to block means at their mean
+//! times (weights equal, so the slope differs from the full-resolution fit only through the
+//! within-block spread); spike detection runs on the recent full-resolution part only.
+//! [`FoldedSeries::is_folded`] says when this applies, so that the user can be told.
+
+use crate::stats::Moments;
+
+/// The smallest cap accepted (so that the folded blocks always have a tail to compare with).
+pub const MIN_CAP: usize = 64;
+
+/// A series with its recent part at full resolution and its older part folded into blocks.
+#[derive(Debug, Clone)]
+pub struct FoldedSeries {
+    cap: usize,
+    block_len: usize,
+    blocks: Vec<Moments>,
+    /// The block being filled: folded rows that do not make a whole block yet.
+    partial: Moments,
+    recent: Vec<f64>,
+}
+
+impl FoldedSeries {
+    /// A series that keeps at most `cap` values at full resolution (at least [`MIN_CAP`]).
+    pub fn with_cap(cap: usize) -> FoldedSeries {
+        FoldedSeries {
+            cap: cap.max(MIN_CAP),
+            block_len: 1,
+            blocks: Vec::new(),
+            partial: Moments::new(),
+            recent: Vec::new(),
+        }
+    }
+
+    /// Appends one value; folds the oldest values when the cap is exceeded. Amortised O(1).
+    pub fn push(&mut self, value: f64) {
+        self.recent.push(value);
+        if self.recent.len() > self.cap {
+            self.fold();
+        }
+    }
+
+    /// Appends many values.
+    pub fn extend(&mut self, values: &[f64]) {
+        for &v in values {
+            self.push(v);
+        }
+    }
+
+    /// Number of rows seen (folded and recent).
+    pub fn len(&self) -> u64 {
+        self.folded_rows() + self.recent.len() as u64
+    }
+
+    /// Whether no value was pushed.
+    pub fn is_empty(&self) -> bool {
+        self.folded_rows() == 0 && self.recent.is_empty()
+    }
+
+    /// Whether older values have been folded (some statistics are then approximate).
+    pub fn is_folded(&self) -> bool {
+        self.folded_rows() > 0
+    }
+
+    /// Rows per folded block (1 while nothing is folded).
+    pub fn block_len(&self) -> usize {
+        self.block_len
+    }
+
+    /// Rows held in folded blocks.
+    pub fn folded_rows(&self) -> u64 {
+        self.blocks.len() as u64 * self.block_len as u64 + self.partial.count()
+    }
+
+    /// The recent values at full resolution (the last rows of the series).
+    pub fn recent(&self) -> &[f64] {
+        &self.recent
+    }
+
+    /// The folded blocks, oldest first.
+    pub fn blocks(&self) -> &[Moments] {
+        &self.blocks
+    }
+
+    /// Count, mean, spread, min and max of the whole series (exact).
+    pub fn moments(&self) -> Moments {
+        let mut total = Moments::new();
+        for block in &self.blocks {
+            total.merge(block);
+        }
+        total.merge(&self.partial);
+        total.merge(&Moments::from_slice(&self.recent));
+        total
+    }
+
+    /// Means of consecutive blocks of `block_len()` rows over the whole series, aligned at
+    /// row 0; an incomplete last block is dropped. Equal to the block means of the unfolded
+    /// series (up to rounding).
+    pub fn block_means(&self) -> Vec<f64> {
+        let mut means: Vec<f64> = self.blocks.iter().filter_map(Moments::mean).collect();
+        let mut rest = self.recent.as_slice();
+        let filled = self.partial.count() as usize;
+        if filled > 0 {
+            // The block being filled continues into the recent values.
+            let missing = self.block_len - filled;
+            let Some(head) = rest.get(..missing) else {
+                return means;
+            };
+            let sum = self.partial.mean().unwrap_or(0.0) * filled as f64 + head.iter().sum::<f64>();
+            means.push(sum / self.block_len as f64);
+            rest = rest.get(missing..).unwrap_or_default();
+        }
+        means.extend(
+            rest.chunks_exact(self.block_len)
+                .map(|c| c.iter().sum::<f64>() / c.len() as f64),
+        );
+        means
+    }
+
+    /// Min and max per block of `block_len()` rows (folded part) followed by each recent
+    /// value as its own (min, max): the envelope a chart draws.
+    pub fn envelope(&self) -> Vec<(f64, f64)> {
+        let mut out: Vec<(f64, f64)> = self
+            .blocks
+            .iter()
+            .chain(std::iter::once(&self.partial))
+            .filter_map(|b| Some((b.min()?, b.max()?)))
+            .collect();
+        out.extend(self.recent.iter().map(|&v| (v, v)));
+        out
+    }
+
+    /// Moves the oldest values, beyond half the cap, into blocks; merges neighbouring block
+    /// pairs while there are more than `cap / 4` blocks.
+    fn fold(&mut self) {
+        let to_fold = self.recent.len().saturating_sub(self.cap / 2);
+        for &value in self.recent.get(..to_fold).unwrap_or_default() {
+            self.partial.push(value);
+            if self.partial.count() as usize == self.block_len {
+                self.blocks.push(std::mem::take(&mut self.partial));
+            }
+        }
+        self.recent.drain(..to_fold);
+        while self.blocks.len() > self.cap / 4 {
+            // With an odd count the last block and the rows after it become the new block
+            // being filled, so every whole block keeps the same length and alignment.
+            if !self.blocks.len().is_multiple_of(2) {
+                if let Some(mut last) = self.blocks.pop() {
+                    last.merge(&self.partial);
+                    self.partial = last;
+                }
+            }
+            self.blocks = self
+                .blocks
+                .chunks_exact(2)
+                .map(|pair| {
+                    let mut merged = pair.first().copied().unwrap_or_default();
+                    if let Some(second) = pair.get(1) {
+                        merged.merge(second);
+                    }
+                    merged
+                })
+                .collect();
+            self.block_len *= 2;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::stats::{block_levels, mean, min_max, variance};
+
+    /// A deterministic correlated series (AR(1), φ = 0.9, plus a slow trend).
+    fn series(n: usize) -> Vec<f64> {
+        let mut state = 0x2545_F491_4F6C_DD1Du64;
+        let mut x = 0.0;
+        (0..n)
+            .map(|i| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                x = 0.9 * x + u;
+                1000.0 + x + 1e-4 * i as f64
+            })
+            .collect()
+    }
+
+    fn close(a: f64, b: f64, rel: f64) -> bool {
+        (a - b).abs() <= rel * a.abs().max(b.abs()).max(1e-300)
+    }
+
+    #[test]
+    fn memory_stays_bounded() {
+        let mut s = FoldedSeries::with_cap(1024);
+        for v in series(1_000_000) {
+            s.push(v);
+        }
+        assert!(s.recent().len() <= 1024);
+        assert!(s.blocks().len() <= 1024 / 4 + 1);
+        assert_eq!(s.len(), 1_000_000);
+        assert!(s.is_folded());
+    }
+
+    #[test]
+    fn moments_equal_the_unfolded_series() {
+        let data = series(100_003);
+        let mut s = FoldedSeries::with_cap(512);
+        s.extend(&data);
+        let m = s.moments();
+        // Two-pass mean and variance of the full data are the reference (NIST StRD style
+        // accuracy is checked for them in the statistics tests).
+        assert_eq!(m.count(), data.len() as u64);
+        assert!(close(m.mean().unwrap(), mean(&data).unwrap(), 1e-12));
+        assert!(close(m.variance().unwrap(), variance(&data).unwrap(), 1e-9));
+        let (lo, hi) = min_max(&data).unwrap();
+        assert_eq!(m.min(), Some(lo));
+        assert_eq!(m.max(), Some(hi));
+    }
+
+    #[test]
+    fn block_means_equal_those_of_the_unfolded_series() {
+        let data = series(50_000);
+        let mut s = FoldedSeries::with_cap(256);
+        s.extend(&data);
+        let b = s.block_len();
+        assert!(b > 1);
+        let expected: Vec<f64> = data
+            .chunks_exact(b)
+            .map(|c| c.iter().sum::<f64>() / b as f64)
+            .collect();
+        let got = s.block_means();
+        assert_eq!(got.len(), expected.len());
+        for (g, e) in got.iter().zip(&expected) {
+            assert!(close(*g, *e, 1e-12), "{g} vs {e}");
+        }
+    }
+
+    #[test]
+    fn blocking_levels_above_the_fold_match() {
+        // Flyvbjerg & Petersen (1989): level k of the blocking transform is the series of
+        // means of 2^k consecutive values, so levels at or above the folded block length
+        // are the same whether computed from folded blocks or from the raw data.
+        let n = 1 << 16;
+        let data = series(n);
+        let mut s = FoldedSeries::with_cap(1024);
+        s.extend(&data);
+        let k = s.block_len().trailing_zeros() as usize;
+        let full = block_levels(&data);
+        let folded = block_levels(&s.block_means());
+        for (level, from_folded) in folded.iter().enumerate() {
+            let reference = &full[level + k];
+            assert_eq!(from_folded.n_blocks, reference.n_blocks);
+            // Level k + j of the unfolded data has SE scaled by the same block count.
+            assert!(
+                close(from_folded.se, reference.se, 1e-9),
+                "level {}: {} vs {}",
+                level + k,
+                from_folded.se,
+                reference.se
+            );
+        }
+    }
+
+    #[test]
+    fn envelope_covers_every_value() {
+        let data = series(10_000);
+        let mut s = FoldedSeries::with_cap(128);
+        s.extend(&data);
+        let env = s.envelope();
+        let b = s.block_len();
+        let partial = usize::from(s.partial.count() > 0);
+        assert_eq!(env.len(), s.blocks().len() + partial + s.recent().len());
+        for (i, (lo, hi)) in env.iter().take(s.blocks().len()).enumerate() {
+            let chunk = &data[i * b..(i + 1) * b];
+            let (clo, chi) = min_max(chunk).unwrap();
+            assert_eq!((*lo, *hi), (clo, chi));
+        }
+    }
+
+    #[test]
+    fn short_series_is_not_folded() {
+        let mut s = FoldedSeries::with_cap(100);
+        s.extend(&[1.0, 2.0, 3.0]);
+        assert!(!s.is_folded());
+        assert_eq!(s.recent(), &[1.0, 2.0, 3.0]);
+        assert_eq!(s.block_means(), vec![1.0, 2.0, 3.0]);
+        assert!(FoldedSeries::with_cap(10).is_empty());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+        /// Any length and cap: the folded series keeps the exact count, mean, spread and
+        /// block means of the raw series (merge formulas of Chan, Golub & LeVeque 1979).
+        #[test]
+        fn folding_preserves_exact_statistics(n in 1usize..20_000, cap in 64usize..700) {
+            let data = series(n);
+            let mut s = FoldedSeries::with_cap(cap);
+            s.extend(&data);
+            let m = s.moments();
+            proptest::prop_assert_eq!(m.count(), n as u64);
+            proptest::prop_assert!(close(m.mean().unwrap(), mean(&data).unwrap(), 1e-12));
+            if n > 1 {
+                proptest::prop_assert!(close(m.variance().unwrap(), variance(&data).unwrap(), 1e-8));
+            }
+            let b = s.block_len();
+            let expected: Vec<f64> = data.chunks_exact(b).map(|c| c.iter().sum::<f64>() / b as f64).collect();
+            let got = s.block_means();
+            proptest::prop_assert_eq!(got.len(), expected.len());
+            for (g, e) in got.iter().zip(&expected) {
+                proptest::prop_assert!(close(*g, *e, 1e-11));
+            }
+            proptest::prop_assert!(s.recent().len() <= cap.max(MIN_CAP));
+            proptest::prop_assert!(s.blocks().len() <= cap.max(MIN_CAP) / 4);
+        }
+    }
+}
