@@ -79,7 +79,8 @@ DATA 0 300.1 1.0\nnote: something\nDATA 500 301.2 -3.0\nDATA 1000 299.7 2.5\n";
 
     #[test]
     fn plain_tables_have_no_tag() {
-        let log = b"# step temp\n0 300\n1 301\n2 302\nwarning 1 2\nwarning 2 3\nwarning 3 4\n3 303\n";
+        let log =
+            b"# step temp\n0 300\n1 301\n2 302\nwarning 1 2\nwarning 2 3\nwarning 3 4\n3 303\n";
         assert_eq!(sniff_row_tag(log), None);
     }
 
