@@ -29,6 +29,8 @@ pub enum Command {
     Report(crate::commands::report::ReportArgs),
     /// Check logs for alerts; exit 0 healthy, 1 alerts at or above --fail-on, 2 errors.
     Check(crate::commands::check::CheckArgs),
+    /// Write the mapped rows in canonical units (CSV, TSV or JSONL), live with `--follow`.
+    Export(crate::commands::export::ExportArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(crate::commands::generate::GenerateArgs),
 }

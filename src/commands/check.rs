@@ -5,6 +5,7 @@
 //! 0 healthy, 1 an alert at or above `--fail-on` (default warning), 2 unreadable input or
 //! bad arguments; 2 wins over 1 wins over 0.
 
+pub mod follow;
 pub mod hook;
 
 use std::io::Write;
@@ -350,7 +351,7 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         return Err(Error::Usage("--pid needs --follow".to_string()));
     }
     if args.follow {
-        return follow_run(args, out);
+        return follow::follow_run(args, out);
     }
     // Arguments are checked once before any file is read (bad arguments: exit 2).
     if let Some(u) = &args.alerts.until {
@@ -374,10 +375,4 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     }
     sinks.finish();
     Ok(code)
-}
-
-fn follow_run(_args: &CheckArgs, _out: &mut dyn Write) -> Result<u8, Error> {
-    Err(Error::Usage(
-        "check --follow is not available in this build yet".to_string(),
-    ))
 }

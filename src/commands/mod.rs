@@ -6,6 +6,7 @@
 
 pub mod check;
 pub mod columns;
+pub mod export;
 pub mod generate;
 pub mod report;
 
@@ -23,6 +24,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Columns(args) => columns::run(&args, out),
         Command::Report(args) => report::run(&args, out),
         Command::Check(args) => check::run(&args, out),
+        Command::Export(args) => export::run(&args, out),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
     }
 }

@@ -1,0 +1,214 @@
+//! Splitting a byte stream into complete lines, holding back the unfinished last one.
+
+use super::Partial;
+
+/// What one chunk of input gave.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Piece {
+    /// Complete lines, ending with `\n`.
+    Lines {
+        bytes: Vec<u8>,
+        first_line: u64,
+        lines: u64,
+    },
+    /// Line `line` grew past the length limit before its newline; it was skipped.
+    Overlong { line: u64 },
+}
+
+/// Holds the unfinished last line and counts lines (1-based) within one file generation.
+///
+/// A line is complete at its `\n` (a CRLF line too). Memory is bounded: an unfinished line
+/// longer than `max_line` is dropped and reported as [`Piece::Overlong`] once its newline
+/// arrives.
+#[derive(Debug, Clone)]
+pub struct LineSplitter {
+    partial: Vec<u8>,
+    next_line: u64,
+    max_line: usize,
+    overlong: bool,
+}
+
+impl LineSplitter {
+    /// A splitter at line 1 that keeps unfinished lines of up to `max_line` bytes.
+    pub fn new(max_line: usize) -> Self {
+        Self {
+            partial: Vec::new(),
+            next_line: 1,
+            max_line: max_line.max(1),
+            overlong: false,
+        }
+    }
+
+    /// Line number the next complete line will have.
+    pub fn next_line(&self) -> u64 {
+        self.next_line
+    }
+
+    /// Bytes of the unfinished last line held back.
+    pub fn pending_bytes(&self) -> usize {
+        self.partial.len()
+    }
+
+    /// Takes in `chunk` and appends the complete lines (and skipped over-long lines) to `out`.
+    pub fn push(&mut self, mut chunk: &[u8], out: &mut Vec<Piece>) {
+        while !chunk.is_empty() {
+            if self.overlong {
+                match memchr::memchr(b'\n', chunk) {
+                    None => return,
+                    Some(i) => {
+                        out.push(Piece::Overlong {
+                            line: self.next_line,
+                        });
+                        self.next_line += 1;
+                        self.overlong = false;
+                        chunk = chunk.get(i + 1..).unwrap_or_default();
+                        continue;
+                    }
+                }
+            }
+            match memchr::memrchr(b'\n', chunk) {
+                None => {
+                    self.keep(chunk);
+                    return;
+                }
+                Some(last) => {
+                    let (head, tail) = chunk.split_at((last + 1).min(chunk.len()));
+                    let lines = memchr::memchr_iter(b'\n', head).count() as u64;
+                    let mut bytes = std::mem::take(&mut self.partial);
+                    bytes.extend_from_slice(head);
+                    out.push(Piece::Lines {
+                        bytes,
+                        first_line: self.next_line,
+                        lines,
+                    });
+                    self.next_line += lines;
+                    self.keep(tail);
+                    return;
+                }
+            }
+        }
+    }
+
+    fn keep(&mut self, bytes: &[u8]) {
+        if self.partial.len() + bytes.len() > self.max_line {
+            self.partial = Vec::new();
+            self.overlong = true;
+        } else {
+            self.partial.extend_from_slice(bytes);
+        }
+    }
+
+    /// The unfinished line held back, if any, without changing anything.
+    pub fn partial(&self) -> Option<Partial> {
+        (self.overlong || !self.partial.is_empty()).then_some(Partial {
+            line: self.next_line,
+            bytes: self.partial.len(),
+        })
+    }
+
+    /// Starts a new generation at line 1, giving up the unfinished line (returned).
+    pub fn reset(&mut self) -> Option<Partial> {
+        let dropped = self.partial();
+        self.partial = Vec::new();
+        self.overlong = false;
+        self.next_line = 1;
+        dropped
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn lines_of(pieces: &[Piece]) -> Vec<(u64, Vec<u8>)> {
+        let mut v = Vec::new();
+        for p in pieces {
+            if let Piece::Lines {
+                bytes, first_line, ..
+            } = p
+            {
+                for (k, l) in bytes.split_inclusive(|b| *b == b'\n').enumerate() {
+                    v.push((first_line + k as u64, l.to_vec()));
+                }
+            }
+        }
+        v
+    }
+
+    #[test]
+    fn half_line_is_held_until_its_newline() {
+        let mut s = LineSplitter::new(100);
+        let mut out = Vec::new();
+        s.push(b"a 1\nb ", &mut out);
+        assert_eq!(lines_of(&out), vec![(1, b"a 1\n".to_vec())]);
+        assert_eq!(s.pending_bytes(), 2);
+        out.clear();
+        s.push(b"2\r\n", &mut out);
+        assert_eq!(lines_of(&out), vec![(2, b"b 2\r\n".to_vec())]);
+        assert_eq!(s.partial(), None);
+    }
+
+    #[test]
+    fn reset_drops_partial_and_restarts_numbering() {
+        let mut s = LineSplitter::new(100);
+        let mut out = Vec::new();
+        s.push(b"x\ny\nzz", &mut out);
+        assert_eq!(s.reset(), Some(Partial { line: 3, bytes: 2 }));
+        out.clear();
+        s.push(b"q\n", &mut out);
+        assert_eq!(lines_of(&out), vec![(1, b"q\n".to_vec())]);
+    }
+
+    #[test]
+    fn overlong_line_is_skipped_and_counted() {
+        let mut s = LineSplitter::new(4);
+        let mut out = Vec::new();
+        s.push(b"ok\n123", &mut out);
+        s.push(b"456789", &mut out);
+        assert_eq!(s.pending_bytes(), 0);
+        s.push(b"0\nnext\n", &mut out);
+        assert_eq!(
+            out,
+            vec![
+                Piece::Lines {
+                    bytes: b"ok\n".to_vec(),
+                    first_line: 1,
+                    lines: 1
+                },
+                Piece::Overlong { line: 2 },
+                Piece::Lines {
+                    bytes: b"next\n".to_vec(),
+                    first_line: 3,
+                    lines: 1
+                },
+            ]
+        );
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(128))]
+        /// Any chunking of the same bytes gives the same complete lines with the same numbers.
+        #[test]
+        fn chunking_does_not_matter(text in "[ab\\n\\r]{0,200}", cuts in proptest::collection::vec(0usize..200, 0..10)) {
+            let bytes = text.as_bytes();
+            let mut whole = LineSplitter::new(1000);
+            let mut a = Vec::new();
+            whole.push(bytes, &mut a);
+            let mut cuts = cuts.into_iter().map(|c| c.min(bytes.len())).collect::<Vec<_>>();
+            cuts.sort_unstable();
+            let mut pieces = LineSplitter::new(1000);
+            let mut b = Vec::new();
+            let mut start = 0;
+            for c in cuts.into_iter().chain(std::iter::once(bytes.len())) {
+                pieces.push(&bytes[start..c], &mut b);
+                start = c;
+            }
+            proptest::prop_assert_eq!(lines_of(&a), lines_of(&b));
+            proptest::prop_assert_eq!(whole.partial(), pieces.partial());
+            // Everything up to the last newline comes out, nothing after it.
+            let complete = bytes.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
+            let joined: Vec<u8> = lines_of(&b).into_iter().flat_map(|(_, l)| l).collect();
+            proptest::prop_assert_eq!(&joined[..], &bytes[..complete]);
+        }
+    }
+}
