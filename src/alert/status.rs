@@ -3,12 +3,12 @@
 //!
 //! 1. `unstable` — a non-finite value or runaway growth is active in the run's last
 //!    segment (a critical `nonfinite` or `runaway` alert not cleared since).
-//! 2. `stalled` — following a live file, and no row arrived for the stall limit (an active
-//!    `stalled` alert).
-//! 3. `finished` — the run is known to be over: the `--until` time or step was reached, or,
-//!    while following, the process given by `--pid` exited or standard input ended.
-//!    A finished file read by `report` without `--until` is not "finished" by this rule
-//!    (nothing says the writer is done); its status is one of the statistical ones below.
+//! 2. `finished` — the run is known to be over: while following, the `--until` time or step
+//!    was reached, the process given by `--pid` exited or standard input ended. A file read
+//!    whole by `report` or `check` is not "finished" by this rule (nothing says the writer
+//!    is done); its status is one of the statistical ones below.
+//! 3. `stalled` — following a live file that is not known to be over, and no row arrived
+//!    for the stall limit (an active `stalled` alert).
 //! 4. `drifting` — an active `drift` alert (warning or critical) on the conserved energy.
 //! 5. `settling` — the run is not equilibrated yet (its equilibration is `not-yet` or
 //!    `too-short`), or the trend test on a quantity that matters still finds a trend after
@@ -48,10 +48,10 @@ impl RunStatus {
     pub fn decide(inputs: &StatusInputs) -> RunStatus {
         if inputs.unstable {
             RunStatus::Unstable
-        } else if inputs.stalled {
-            RunStatus::Stalled
         } else if inputs.finished {
             RunStatus::Finished
+        } else if inputs.stalled {
+            RunStatus::Stalled
         } else if inputs.drifting {
             RunStatus::Drifting
         } else if !inputs.equilibrated || inputs.still_changing {
@@ -104,14 +104,14 @@ mod tests {
             unstable: false,
             ..all
         };
-        assert_eq!(RunStatus::decide(&s), RunStatus::Stalled);
-        let s = StatusInputs {
-            stalled: false,
-            ..s
-        };
         assert_eq!(RunStatus::decide(&s), RunStatus::Finished);
         let s = StatusInputs {
             finished: false,
+            ..s
+        };
+        assert_eq!(RunStatus::decide(&s), RunStatus::Stalled);
+        let s = StatusInputs {
+            stalled: false,
             ..s
         };
         assert_eq!(RunStatus::decide(&s), RunStatus::Drifting);

@@ -67,17 +67,25 @@ pub fn reached(table: &RunTable, until: TimeSpec, timestep_ps: Option<f64>) -> b
     }
 }
 
-fn process_alive(pid: u32) -> bool {
-    Path::new("/proc").join(pid.to_string()).exists()
+/// Whether process `pid` still runs (Linux `/proc`): gone when its folder is missing, and
+/// a zombie (exited, not yet reaped by its parent) counts as exited.
+pub fn process_alive(pid: u32) -> bool {
+    let stat = Path::new("/proc").join(pid.to_string()).join("stat");
+    match std::fs::read_to_string(stat) {
+        Ok(text) => {
+            // Format: "pid (comm) state ...": the state follows the last ')'.
+            let state = text
+                .rsplit_once(')')
+                .and_then(|(_, rest)| rest.trim_start().chars().next());
+            !matches!(state, Some('Z') | Some('X'))
+        }
+        Err(_) => false,
+    }
 }
 
 impl Run {
     fn emit_new(&mut self, sinks: &mut Sinks, out: &mut dyn Write) -> Result<(), Error> {
-        let new: Vec<_> = self
-            .analyzer
-            .engine()
-            .alerts_since(self.emitted)
-            .to_vec();
+        let new: Vec<_> = self.analyzer.engine().alerts_since(self.emitted).to_vec();
         self.emitted += new.len();
         for a in &new {
             sinks.emit(out, &self.label, a)?;
@@ -111,7 +119,9 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         let is_stdin = path.as_os_str() == "-";
         let id = if is_stdin {
             if stdin_used {
-                return Err(Error::Usage("standard input (-) can be read only once".into()));
+                return Err(Error::Usage(
+                    "standard input (-) can be read only once".into(),
+                ));
             }
             stdin_used = true;
             set.add_stdin()
@@ -163,8 +173,12 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         for run in runs.values_mut() {
             if run.dirty {
                 run.dirty = false;
-                run.analyzer
-                    .update(run.parser.table(), run.ended, Some(&run.arrivals), run.ended);
+                run.analyzer.update(
+                    run.parser.table(),
+                    run.ended,
+                    Some(&run.arrivals),
+                    run.ended,
+                );
             }
             if !run.ended {
                 let last_row = run.parser.table().rows().checked_sub(1);
@@ -186,12 +200,9 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let mut code = EXIT_HEALTHY;
     for run in runs.values_mut() {
         run.parser.finish();
-        let analysis = run.analyzer.update(
-            run.parser.table(),
-            true,
-            Some(&run.arrivals),
-            true,
-        );
+        let analysis = run
+            .analyzer
+            .update(run.parser.table(), true, Some(&run.arrivals), true);
         run.emit_new(&mut sinks, out)?;
         let failing = run
             .analyzer

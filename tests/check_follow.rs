@@ -1,0 +1,158 @@
+//! `plateau check --follow`: alerts as rows arrive; ends at the end of standard input, when
+//! `--until` is reached, or when the `--pid` process exits (Contract). No timing is
+//! asserted: sleeps only order the writer's steps.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
+use std::io::Write;
+use std::path::PathBuf;
+use std::process::{Command as Std, Stdio};
+use std::time::Duration;
+
+use assert_cmd::Command;
+
+fn fixture(name: &str) -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/fixtures/alerts")
+        .join(name)
+}
+
+#[test]
+fn standard_input_ends_the_watch_and_alerts_are_printed() {
+    let text = std::fs::read(fixture("nonfinite.log")).unwrap();
+    let out = Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "-"])
+        .write_stdin(text)
+        .timeout(Duration::from_secs(120))
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let stdout = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        stdout.starts_with("-: critical nonfinite [temperature] line 252 row 250"),
+        "{stdout}"
+    );
+    assert!(String::from_utf8_lossy(&out.stderr).contains("-: finished"));
+}
+
+#[test]
+fn healthy_input_on_standard_input_exits_0() {
+    let text = std::fs::read(fixture("healthy.log")).unwrap();
+    Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "-"])
+        .write_stdin(text)
+        .timeout(Duration::from_secs(120))
+        .assert()
+        .code(0)
+        .stdout("");
+}
+
+#[test]
+fn until_reached_ends_the_watch() {
+    // healthy.log ends at 399 ps; --until 300ps is already reached.
+    Command::cargo_bin("plateau")
+        .unwrap()
+        .args([
+            "check",
+            "--follow",
+            "--until",
+            "300ps",
+            "--stall-after",
+            "1h",
+        ])
+        .arg(fixture("healthy.log"))
+        .timeout(Duration::from_secs(120))
+        .assert()
+        .code(0);
+    // In steps: 399 rows of 500 steps.
+    Command::cargo_bin("plateau")
+        .unwrap()
+        .args([
+            "check",
+            "--follow",
+            "--until",
+            "150000steps",
+            "--stall-after",
+            "1h",
+        ])
+        .arg(fixture("healthy.log"))
+        .timeout(Duration::from_secs(120))
+        .assert()
+        .code(0);
+}
+
+#[test]
+fn pid_exit_ends_the_watch() {
+    let mut child = Std::new("sleep").arg("1").spawn().unwrap();
+    let out = Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
+        .arg(child.id().to_string())
+        .arg(fixture("healthy.log"))
+        .timeout(Duration::from_secs(120))
+        .output()
+        .unwrap();
+    child.wait().unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stdout)
+    );
+    assert!(String::from_utf8_lossy(&out.stderr).contains("finished"));
+}
+
+#[test]
+fn rows_appended_later_raise_alerts_while_following() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("live.log");
+    let healthy = std::fs::read_to_string(fixture("healthy.log")).unwrap();
+    let mut lines = healthy.lines();
+    let header = lines.next().unwrap();
+    let rows: Vec<&str> = lines.collect();
+    let mut f = std::fs::File::create(&path).unwrap();
+    writeln!(f, "{header}").unwrap();
+    for r in &rows[..200] {
+        writeln!(f, "{r}").unwrap();
+    }
+    f.flush().unwrap();
+    let bin = assert_cmd::cargo::cargo_bin("plateau");
+    let mut watcher = Std::new(bin)
+        .args([
+            "check",
+            "--follow",
+            "--until",
+            "399ps",
+            "--stall-after",
+            "1h",
+        ])
+        .arg(&path)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(Duration::from_millis(700));
+    // The writer goes on; row 300 is broken.
+    for (i, r) in rows[200..].iter().enumerate() {
+        if i + 200 == 300 {
+            let mut fields: Vec<&str> = r.split_whitespace().collect();
+            fields[2] = "inf";
+            writeln!(f, "{}", fields.join(" ")).unwrap();
+        } else {
+            writeln!(f, "{r}").unwrap();
+        }
+    }
+    f.flush().unwrap();
+    let out = watcher.wait_with_output().unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let stdout = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        stdout.contains("critical nonfinite [temperature] line 302 row 300"),
+        "{stdout}"
+    );
+    // The watched file was not changed by the watcher.
+    let after = std::fs::read_to_string(&path).unwrap();
+    assert_eq!(after.lines().count(), 401);
+}
