@@ -108,9 +108,9 @@ pub struct CheckArgs {
     /// With `--follow`: stop when this process exits.
     #[arg(long, value_name = "PID")]
     pub pid: Option<u32>,
-    /// Run this command for each alert, with the alert in PLATEAU_ALERT_* environment
-    /// variables (words split like a simple shell; no shell unless you write `sh -c`).
-    /// At most 10 runs a minute.
+    /// Run this command for each alert at or above `--fail-on`, with the alert in
+    /// PLATEAU_ALERT_* environment variables (words split like a simple shell; no shell
+    /// unless you write `sh -c`). At most 10 runs a minute.
     #[arg(long, value_name = "CMD")]
     pub on_alert: Option<String>,
     /// Append every alert to this file as one JSON line.
@@ -273,7 +273,11 @@ impl Sinks {
         if self.bell && alert.severity >= self.fail_at {
             eprint!("\x07");
         }
-        if let Some(hook) = &mut self.hook {
+        if let Some(hook) = self
+            .hook
+            .as_mut()
+            .filter(|_| alert.severity >= self.fail_at)
+        {
             match hook.fire(alert, file, Instant::now()) {
                 HookOutcome::Started | HookOutcome::RateLimited => {}
                 HookOutcome::Failed(e) => {
