@@ -119,7 +119,7 @@ fn rows_appended_later_raise_alerts_while_following() {
     }
     f.flush().unwrap();
     let bin = assert_cmd::cargo::cargo_bin("plateau");
-    let mut watcher = Std::new(bin)
+    let watcher = Std::new(bin)
         .args([
             "check",
             "--follow",
