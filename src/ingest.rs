@@ -45,9 +45,20 @@ pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> 
 
 /// Reads `reader` to its end in blocks of `block_size` bytes and parses it on two threads.
 pub fn read_with<R: Read>(
+    reader: R,
+    options: ParseOptions,
+    block_size: usize,
+) -> io::Result<RunTable> {
+    read_with_split(reader, options, block_size, PARALLEL_MIN)
+}
+
+/// Like [`read_with`], splitting a block over two threads once its complete lines reach
+/// `parallel_min` bytes (tests use tiny values to exercise the split).
+pub fn read_with_split<R: Read>(
     mut reader: R,
     options: ParseOptions,
     block_size: usize,
+    parallel_min: usize,
 ) -> io::Result<RunTable> {
     let block_size = block_size.max(1);
     let mut parser = LogParser::new(options.clone());
@@ -68,7 +79,7 @@ pub fn read_with<R: Read>(
         };
         if complete > 0 {
             let lines = data.get(..complete).unwrap_or_default();
-            parse_two(lines, &options, &mut parser, &mut first, &mut second);
+            parse_two(lines, &options, &mut parser, &mut first, &mut second, parallel_min);
         }
         let rest = len - complete;
         buf.copy_within(complete..len, 0);
@@ -130,8 +141,9 @@ fn parse_two(
     parser: &mut LogParser,
     first: &mut BlockResult,
     second: &mut BlockResult,
+    parallel_min: usize,
 ) {
-    let mid = if lines.len() >= PARALLEL_MIN {
+    let mid = if lines.len() >= parallel_min.max(2) {
         lines
             .get(lines.len() / 2..)
             .and_then(|r| memchr::memchr(b'\n', r))
