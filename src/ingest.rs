@@ -79,7 +79,14 @@ pub fn read_with_split<R: Read>(
         };
         if complete > 0 {
             let lines = data.get(..complete).unwrap_or_default();
-            parse_two(lines, &options, &mut parser, &mut first, &mut second, parallel_min);
+            parse_two(
+                lines,
+                &options,
+                &mut parser,
+                &mut first,
+                &mut second,
+                parallel_min,
+            );
         }
         let rest = len - complete;
         buf.copy_within(complete..len, 0);

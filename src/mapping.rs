@@ -477,7 +477,7 @@ pub fn generic_names(n: usize) -> Vec<HeaderName> {
 }
 
 /// A ready-to-paste `--map` line for the columns that have a role (1-based indices; the unit
-/// is written when it is known and not assumed, so the user can correct it in place).
+/// is written whenever the role has one, assumed or not, so the user can correct it in place).
 pub fn map_line(columns: &[ColumnSpec]) -> String {
     let mut parts = Vec::new();
     for c in columns {

@@ -70,7 +70,10 @@ fn commented_header_with_units_converts() {
     let s = &t.segments[0];
     assert_eq!(s.header_line, Some(2));
     assert!(s.header_commented);
-    assert_eq!(names(s), ["step", "time", "temperature", "pressure", "Total Energy"]);
+    assert_eq!(
+        names(s),
+        ["step", "time", "temperature", "pressure", "Total Energy"]
+    );
     assert_eq!(s.lines, [3, 4, 5]);
     let p = s.column(Role::Pressure).unwrap();
     assert_eq!(p.spec.source_unit, Some(Unit::Atmosphere));
@@ -89,7 +92,10 @@ fn comma_table_with_quoted_names() {
     let t = parse("comma_quoted.csv", ParseOptions::default());
     let s = &t.segments[0];
     assert_eq!(s.delimiter, Delimiter::Comma);
-    assert_eq!(names(s), ["Step", "Time", "Temperature", "Potential Energy"]);
+    assert_eq!(
+        names(s),
+        ["Step", "Time", "Temperature", "Potential Energy"]
+    );
     assert_eq!(s.columns[3].spec.header_unit.as_deref(), Some("kJ/mol"));
     assert_eq!(s.columns[3].spec.role, Some(Role::Potential));
     assert_eq!(col(s, "Time"), [0.0, 0.02, 0.04]);
@@ -328,7 +334,10 @@ fn no_header_gives_generic_names_and_map_by_index() {
     let t = parse("headerless.log", opts);
     let s = &t.segments[0];
     // 0 °C = 273.15 K (SI, exact)
-    assert_eq!(s.column(Role::Temperature).unwrap().values(), [573.15, 574.15, 575.15]);
+    assert_eq!(
+        s.column(Role::Temperature).unwrap().values(),
+        [573.15, 574.15, 575.15]
+    );
     assert_eq!(
         s.column(Role::Potential).unwrap().values(),
         [-10.0 * 4.184, -11.0 * 4.184, -12.0 * 4.184]
@@ -377,7 +386,10 @@ fn map_by_name_overrides_guess() {
     };
     let t = parse("plain_whitespace.log", opts);
     let s = &t.segments[0];
-    let temps: Vec<_> = s.columns_with(Role::Temperature).map(|c| c.spec.name.as_str()).collect();
+    let temps: Vec<_> = s
+        .columns_with(Role::Temperature)
+        .map(|c| c.spec.name.as_str())
+        .collect();
     assert_eq!(temps, ["Press"]);
     assert!(t.warnings.is_empty());
     let opts = ParseOptions {
@@ -393,7 +405,10 @@ fn several_columns_can_share_a_role() {
     let log = b"step temp_solute temp_solvent\n0 300 301\n1 302 303\n";
     let t = parse_bytes(log, ParseOptions::default());
     let s = &t.segments[0];
-    let temps: Vec<&[f64]> = s.columns_with(Role::Temperature).map(|c| c.values()).collect();
+    let temps: Vec<&[f64]> = s
+        .columns_with(Role::Temperature)
+        .map(|c| c.values())
+        .collect();
     assert_eq!(temps, [&[300.0, 302.0][..], &[301.0, 303.0][..]]);
 }
 

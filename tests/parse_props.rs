@@ -59,8 +59,11 @@ fn line() -> impl Strategy<Value = String> {
 }
 
 fn log() -> impl Strategy<Value = Vec<u8>> {
-    (prop::collection::vec((line(), any::<bool>()), 0..60), any::<bool>()).prop_map(
-        |(lines, partial)| {
+    (
+        prop::collection::vec((line(), any::<bool>()), 0..60),
+        any::<bool>(),
+    )
+        .prop_map(|(lines, partial)| {
             let mut out = Vec::new();
             for (l, crlf) in lines {
                 out.extend_from_slice(l.as_bytes());
@@ -70,8 +73,7 @@ fn log() -> impl Strategy<Value = Vec<u8>> {
                 out.extend_from_slice(b"12 3");
             }
             out
-        },
-    )
+        })
 }
 
 fn options() -> impl Strategy<Value = ParseOptions> {
@@ -152,7 +154,11 @@ fn an_overlong_line_is_free_text_in_any_chunking() {
     let whole = parse_bytes(&bytes, ParseOptions::default());
     assert_eq!(whole.text_lines, 1);
     assert_eq!(whole.segments[0].lines, [2, 4]);
-    let parts = chunked(&bytes, &[5, 100, 70_000, 1_000_000, 1_050_000], ParseOptions::default());
+    let parts = chunked(
+        &bytes,
+        &[5, 100, 70_000, 1_000_000, 1_050_000],
+        ParseOptions::default(),
+    );
     assert_eq!(repr(&whole), repr(&parts));
     let ingested = read_with_split(&bytes[..], ParseOptions::default(), 64 << 10, 0).unwrap();
     assert_eq!(repr(&whole), repr(&ingested));

@@ -18,7 +18,10 @@ fn reference(key: &str) -> f64 {
 fn close(ours: f64, key: &str) {
     let r = reference(key);
     let rel = ((ours - r) / r).abs();
-    assert!(rel <= 4.0 * f64::EPSILON, "{key}: ours {ours:e}, reference {r:e}, rel {rel:e}");
+    assert!(
+        rel <= 4.0 * f64::EPSILON,
+        "{key}: ours {ours:e}, reference {r:e}, rel {rel:e}"
+    );
 }
 
 #[test]
@@ -28,8 +31,14 @@ fn defining_constants() {
     close(AVOGADRO_PER_MOL, "avogadro_per_mol");
     close(ELEMENTARY_CHARGE_C, "elementary_charge_C");
     // R = N_A k_B (CODATA 2018, exact to 15 digits)
-    close(MOLAR_GAS_CONSTANT_KJ_PER_MOL_K * 1e3, "molar_gas_constant_J_per_mol_K");
-    close(AVOGADRO_PER_MOL * BOLTZMANN_J_PER_K * 1e-3, "boltzmann_kJ_per_mol_K");
+    close(
+        MOLAR_GAS_CONSTANT_KJ_PER_MOL_K * 1e3,
+        "molar_gas_constant_J_per_mol_K",
+    );
+    close(
+        AVOGADRO_PER_MOL * BOLTZMANN_J_PER_K * 1e-3,
+        "boltzmann_kJ_per_mol_K",
+    );
 }
 
 #[test]
@@ -48,19 +57,37 @@ fn energy_units() {
     assert_eq!(Unit::JoulePerMole.to_canonical(1000.0), 1.0);
     close(Unit::CaloriePerMole.to_canonical(1000.0), "kcal_in_kJ");
     // k_B·T (CODATA 2018 / SI 2019 exact k_B and N_A)
-    close(Unit::KT { reference_k: 300.0 }.to_canonical(1.0), "kT_300K_kJ_per_mol");
-    close(Unit::KT { reference_k: 298.15 }.to_canonical(1.0), "kT_298.15K_kJ_per_mol");
+    close(
+        Unit::KT { reference_k: 300.0 }.to_canonical(1.0),
+        "kT_300K_kJ_per_mol",
+    );
+    close(
+        Unit::KT {
+            reference_k: 298.15,
+        }
+        .to_canonical(1.0),
+        "kT_298.15K_kJ_per_mol",
+    );
     let kt300 = Unit::KT { reference_k: 300.0 }.to_canonical(1.0);
-    close(Unit::KilocaloriePerMole.from_canonical(kt300), "kT_300K_kcal_per_mol");
+    close(
+        Unit::KilocaloriePerMole.from_canonical(kt300),
+        "kT_300K_kcal_per_mol",
+    );
     close(Unit::Electronvolt.from_canonical(kt300), "kT_300K_eV");
     // k_B in kcal/mol/K and eV/K
     let kb = Unit::KT { reference_k: 1.0 }.to_canonical(1.0);
-    close(Unit::KilocaloriePerMole.from_canonical(kb), "boltzmann_kcal_per_mol_K");
+    close(
+        Unit::KilocaloriePerMole.from_canonical(kb),
+        "boltzmann_kcal_per_mol_K",
+    );
     close(Unit::Electronvolt.from_canonical(kb), "boltzmann_eV_per_K");
     // Hartree and Rydberg: CODATA 2018 E_h = 4.3597447222071e-18 J (from memory, not in
     // units.json): E_h·N_A = 2625.4996394799 kJ/mol (from memory).
     assert!((Unit::Hartree.to_canonical(1.0) - 2625.499_639_479_9).abs() < 1e-6);
-    assert_eq!(Unit::Rydberg.to_canonical(2.0), Unit::Hartree.to_canonical(1.0));
+    assert_eq!(
+        Unit::Rydberg.to_canonical(2.0),
+        Unit::Hartree.to_canonical(1.0)
+    );
 }
 
 #[test]
@@ -80,7 +107,10 @@ fn pressure_units() {
     assert_eq!(Unit::Gigapascal.to_canonical(1.0), 10_000.0);
     // Energy density as pressure, from our constants (units.json, derived from SI 2019):
     // 1 kJ/mol/nm³ = 1e3 J / N_A / 1e-27 m³ in bar
-    close(1e3 / AVOGADRO_PER_MOL / 1e-27 / BAR_PA, "kJ_per_mol_nm3_in_bar");
+    close(
+        1e3 / AVOGADRO_PER_MOL / 1e-27 / BAR_PA,
+        "kJ_per_mol_nm3_in_bar",
+    );
     // 1 eV/Å³ = e J / 1e-30 m³ in bar
     close(ELEMENTARY_CHARGE_C / 1e-30 / BAR_PA, "eV_per_A3_in_bar");
     // 1 kcal/mol/Å³ in atm
@@ -94,7 +124,10 @@ fn pressure_units() {
 fn temperature_time_volume_density() {
     // 0 °C = 273.15 K (SI, exact)
     close(Unit::Celsius.to_canonical(0.0), "celsius_zero_in_K");
-    close(parse_quantity("0C", Dimension::Temperature).unwrap(), "celsius_zero_in_K");
+    close(
+        parse_quantity("0C", Dimension::Temperature).unwrap(),
+        "celsius_zero_in_K",
+    );
     // Time, volume and density: SI prefixes and the ångström (1e-10 m), exact.
     assert_eq!(Unit::Femtosecond.to_canonical(2.0), 0.002);
     assert_eq!(Unit::Nanosecond.to_canonical(1.0), 1000.0);
