@@ -89,8 +89,9 @@ impl DelimiterChoice {
     }
 }
 
+/// Space, tab, vertical tab or form feed.
 #[inline]
-fn is_space(b: u8) -> bool {
+pub fn is_space(b: u8) -> bool {
     b == b' ' || b == b'\t' || b == b'\x0b' || b == b'\x0c'
 }
 
