@@ -1,4 +1,5 @@
 //! The binary: `columns` and `report`, text and JSON, exit codes.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use std::path::PathBuf;
 

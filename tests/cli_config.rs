@@ -1,6 +1,7 @@
 //! Settings files: every valid fixture loads; every invalid one fails naming the file and
 //! the key or value (expected text in the `.expected` file beside it), both through the
 //! library and through the binary (exit 2).
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use std::path::{Path, PathBuf};
 

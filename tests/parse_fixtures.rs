@@ -1,5 +1,6 @@
 //! One invented log per case of the reader: exact rows, values, segments and skipped lines.
 //! The fixtures are in `tests/fixtures/logs/` (made by hand for these tests).
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use plateau::mapping::{MapRequest, Role};
 use plateau::parse::{parse_bytes, Delimiter, DelimiterChoice, ParseOptions};
