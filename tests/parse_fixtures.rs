@@ -424,3 +424,48 @@ fn skipped_list_keeps_the_first_hundred() {
     assert_eq!(t.skipped.len(), 100);
     assert_eq!(t.skipped[99].line, 101);
 }
+
+#[test]
+fn step_going_back_without_a_header_is_a_restart() {
+    let t = parse("restart_step_only.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "step"), [0.0, 100.0, 200.0]);
+    assert_eq!(col(s, "temp"), [300.0, 305.0, 306.0]);
+    assert_eq!(s.lines, [2, 6, 7]);
+    assert_eq!(
+        s.restarts,
+        [Restart {
+            line: 6,
+            step: 100.0,
+            rows_replaced: 3
+        }]
+    );
+    assert_eq!(s.header_repeats, 0);
+}
+
+#[test]
+fn time_going_back_is_a_restart_when_there_is_no_step() {
+    let t = parse("restart_time_only.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "time"), [0.0, 0.5, 1.0, 1.5]);
+    assert_eq!(col(s, "press"), [1.0, 4.0, 5.0, 6.0]);
+    assert_eq!(
+        s.restarts,
+        [Restart {
+            line: 5,
+            step: 0.5,
+            rows_replaced: 2
+        }]
+    );
+}
+
+#[test]
+fn same_width_header_with_new_names_starts_a_segment() {
+    let t = parse("renamed_columns.log", ParseOptions::default());
+    assert_eq!(t.segments.len(), 2);
+    assert_eq!(names(&t.segments[1]), ["step", "temp", "volume"]);
+    assert_eq!(t.segments[1].header_line, Some(4));
+    assert_eq!(t.segments[1].lines, [5, 6]);
+    assert_eq!(col(&t.segments[1], "volume"), [27.0, 27.1]);
+    assert_eq!(t.segments[0].lines, [2, 3]);
+}
