@@ -22,6 +22,11 @@
 //! A layout holds the same keys as the top level (except `layout` and `layouts`). Unknown
 //! keys are rejected with the file name and the key. `--map` entries merge by role: a role
 //! given at a higher level replaces that role's entries from lower levels.
+//!
+//! To add an input option: a field in [`crate::cli::InputArgs`], the same key in
+//! [`InputConfig`] and [`FileConfig`] (and `FileConfig::top`), its merge in
+//! [`Settings::merge`] (file levels first, then the command line), a field in [`Settings`],
+//! and a valid and an invalid fixture under `tests/fixtures/configs_*`.
 
 use std::collections::BTreeMap;
 use std::fmt;

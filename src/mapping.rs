@@ -19,6 +19,9 @@
 //! are stored in canonical units: `canonical = source × scale + offset`.
 //!
 //! `--timestep` derives a `time` column (ps) from the step column when the log has no time.
+//!
+//! To add a role: a variant of [`Role`], its entry in [`Role::ALL`], [`Role::name`] and
+//! [`Role::dimension`], generic words for it in [`guess_role`], and a case in the tests.
 
 use std::fmt;
 use std::str::FromStr;

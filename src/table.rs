@@ -242,6 +242,11 @@ impl RunTable {
         self.segments.iter().map(Segment::rows).sum()
     }
 
+    /// The segment rows are currently appended to (the last one).
+    pub fn last_segment(&self) -> Option<&Segment> {
+        self.segments.last()
+    }
+
     /// Rows replaced by restarts, in all segments.
     pub fn rows_replaced(&self) -> u64 {
         self.segments

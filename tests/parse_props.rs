@@ -164,3 +164,17 @@ fn an_overlong_line_is_free_text_in_any_chunking() {
     let ingested = read_with_split(&bytes[..], ParseOptions::default(), 64 << 10, 0).unwrap();
     assert_eq!(repr(&whole), repr(&ingested));
 }
+
+#[test]
+fn reset_starts_over() {
+    let mut p = LogParser::new(ParseOptions::default());
+    p.feed(b"step temp\n0 300\n1 30");
+    p.reset();
+    p.feed(b"a b c\n1 2 3\n");
+    p.finish();
+    let t = p.into_table();
+    assert_eq!(t.segments.len(), 1);
+    assert_eq!(t.last_segment().unwrap().names.len(), 3);
+    assert_eq!(t.partial_line, None);
+    assert_eq!(t.lines, 2);
+}

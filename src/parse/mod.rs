@@ -166,6 +166,12 @@ impl LogParser {
         self.lines_done
     }
 
+    /// Starts over with an empty table and the same options (a truncated or re-created
+    /// file is read again from its start).
+    pub fn reset(&mut self) {
+        *self = LogParser::new(self.options.clone());
+    }
+
     /// Feeds the next bytes of the input (any chunking).
     pub fn feed(&mut self, mut chunk: &[u8]) {
         if !self.pending.is_empty() || self.pending_overlong {
