@@ -61,7 +61,7 @@ pub struct InputArgs {
     #[arg(long, value_name = "N")]
     pub dof: Option<u64>,
     /// Ensemble of the run (otherwise inferred).
-    #[arg(long, value_name = "ENSEMBLE", value_parser = parse_ensemble)]
+    #[arg(long, value_enum, ignore_case = true, value_name = "ENSEMBLE")]
     pub ensemble: Option<Ensemble>,
     /// Settings file (default: plateau.toml in the current folder, if present).
     #[arg(long, value_name = "FILE")]
@@ -93,8 +93,4 @@ fn parse_timestep(text: &str) -> Result<f64, String> {
     } else {
         Err("the time step must be positive".to_string())
     }
-}
-
-fn parse_ensemble(text: &str) -> Result<Ensemble, String> {
-    text.parse::<Ensemble>()
 }

@@ -45,12 +45,12 @@ use crate::units::{parse_quantity, Dimension};
 pub const CONFIG_FILE_NAME: &str = "plateau.toml";
 
 /// Thermodynamic ensemble of a run.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "kebab-case")]
 pub enum Ensemble {
-    /// Constant energy.
+    /// Constant energy (microcanonical).
     Nve,
-    /// Constant temperature.
+    /// Constant temperature (canonical).
     Nvt,
     /// Constant temperature and pressure.
     Npt,

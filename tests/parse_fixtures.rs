@@ -469,3 +469,21 @@ fn same_width_header_with_new_names_starts_a_segment() {
     assert_eq!(col(&t.segments[1], "volume"), [27.0, 27.1]);
     assert_eq!(t.segments[0].lines, [2, 3]);
 }
+
+#[test]
+fn header_survives_a_long_stretch_of_chatter() {
+    let mut log = String::from("step temp press\n");
+    for i in 0..30 {
+        log.push_str(&format!(
+            "info: setting up part number {i} of the run now\n"
+        ));
+        log.push_str("note: nothing to see here\n");
+    }
+    log.push_str("0 300 1\n10 301 2\n");
+    let t = parse_bytes(log.as_bytes(), ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(s.header_line, Some(1));
+    assert_eq!(names(s), ["step", "temp", "press"]);
+    assert_eq!(s.lines, [62, 63]);
+    assert_eq!(t.text_lines, 60);
+}

@@ -65,8 +65,9 @@ pub use layout::{Delimiter, DelimiterChoice, HeaderName};
 /// Comment prefixes used unless `--comment` is given.
 pub const DEFAULT_COMMENT_PREFIXES: [&str; 6] = ["#", "!", ";", "@", "%", "//"];
 
-/// How header candidates are remembered between rows.
-const CANDIDATES_KEPT: usize = 4;
+/// How many header candidates are remembered between two rows. When more arrive, the
+/// oldest one that does not look like a header (no name reads as a role) goes first.
+const CANDIDATES_KEPT: usize = 8;
 
 /// What the parser needs to know about the log.
 #[derive(Debug, Clone, PartialEq)]
@@ -102,6 +103,8 @@ impl Default for ParseOptions {
 struct Candidate {
     line: u64,
     text: Vec<u8>,
+    /// At least one name reads as a role.
+    headerish: bool,
     columns: usize,
     delim: Delimiter,
     commented: bool,
@@ -318,8 +321,13 @@ impl LogParser {
         commented: bool,
     ) {
         let mut buf = if self.candidates.len() >= CANDIDATES_KEPT {
+            let victim = self
+                .candidates
+                .iter()
+                .position(|c| !c.headerish)
+                .unwrap_or(0);
             self.candidates
-                .pop_front()
+                .remove(victim)
                 .map(|c| c.text)
                 .unwrap_or_default()
         } else {
@@ -327,12 +335,16 @@ impl LogParser {
         };
         buf.clear();
         buf.extend_from_slice(text);
+        let headerish = layout::header_names(text, delim)
+            .iter()
+            .any(|n| mapping::guess_role(&n.name).is_some());
         self.candidates.push_back(Candidate {
             line,
             text: buf,
             columns,
             delim,
             commented,
+            headerish,
         });
         self.adjacent = true;
     }
