@@ -487,3 +487,18 @@ fn header_survives_a_long_stretch_of_chatter() {
     assert_eq!(s.lines, [62, 63]);
     assert_eq!(t.text_lines, 60);
 }
+
+#[test]
+fn a_warning_before_a_broken_row_does_not_start_a_segment() {
+    let log = b"step temp press etot\n0 300 1 -5\nWARNING: step too large\n10 301 2\n20 302 3 -6\nNote: list rebuilt\n30 303 4\n40 304 5 -7\n";
+    let t = parse_bytes(log, ParseOptions::default());
+    assert_eq!(t.segments.len(), 1);
+    let s = &t.segments[0];
+    assert_eq!(col(s, "step"), [0.0, 20.0, 40.0]);
+    let fc = SkipReason::FieldCount {
+        expected: 4,
+        found: 3,
+    };
+    assert_eq!(t.skipped, [skipped(4, fc.clone()), skipped(7, fc)]);
+    assert_eq!(t.text_lines, 2);
+}

@@ -23,13 +23,17 @@
 //! A header is a line whose fields are all names (see [`layout`]). It takes effect at the
 //! next row with the same number of fields: the latest header candidate since the previous
 //! row with that many columns names the columns (so a warning between header and rows does
-//! no harm). Then:
-//! * no segment yet, or a different number of fields: a new segment under that header;
+//! no harm; up to 8 candidates are kept, those that do not read as headers dropped first).
+//! Then:
+//! * no segment yet: the first segment, under that header;
+//! * a different number of fields: a new segment if the line reads as a header (at least
+//!   two names read as roles, see [`mapping::guess_role`]); otherwise the row is skipped
+//!   for its field count (a warning with as many words as a broken row has fields must not
+//!   swallow every later row);
 //! * the same names as the current segment: a repeated header (e.g. after a restart), same
 //!   segment;
 //! * different names, same count: a new segment, but only when the header is the last
-//!   non-blank line before the row (so a chatty line that happens to have as many words
-//!   does not start a segment).
+//!   non-blank line before the row and reads as a header.
 //!
 //! A row whose field count differs from its segment's, with no header for it, is skipped.
 //! Rows before any header start a segment with names `col1..colN`.
@@ -192,6 +196,7 @@ impl LogParser {
                         self.table.text_lines += 1;
                         self.table.lines += 1;
                         self.lines_done += 1;
+                        self.adjacent = false;
                     } else {
                         let mut line = std::mem::take(&mut self.pending);
                         line.extend_from_slice(head);
@@ -379,6 +384,10 @@ impl LogParser {
                     None
                 }
             }
+            // A different width after a first segment: only a line that reads as a header
+            // starts a new segment (else a warning with as many words as a broken row has
+            // fields would swallow every later row).
+            Some(_) if !looks_like_header(&names) => None,
             _ => {
                 self.count_header(commented);
                 Some((names, line, delim, commented))
@@ -475,15 +484,15 @@ impl LogParser {
     }
 }
 
-/// A candidate may replace a header of the same width only if at least half of its names
-/// (and at least one) read as a role: "step temp volume" does, "Note: list rebuilt now"
-/// does not.
+/// After the first segment, a candidate starts a new one only if it reads as a header: at
+/// least two names read as roles (one for a header of one or two names). "step temp volume"
+/// does; "Note: list rebuilt now" and "WARNING: step too large" do not.
 fn looks_like_header(names: &[HeaderName]) -> bool {
     let roles = names
         .iter()
         .filter(|n| mapping::guess_role(&n.name).is_some())
         .count();
-    roles >= 1 && 2 * roles >= names.len()
+    roles >= 2 || (roles == 1 && names.len() <= 2)
 }
 
 /// Appends one row (source values) to a segment, converting to canonical units and applying
