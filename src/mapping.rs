@@ -460,6 +460,12 @@ pub fn resolve(
             offset: 0.0,
         });
     }
+    if timestep_ps.is_some() && step.is_none() && !has_time {
+        warnings.push(
+            "--timestep: no step column to derive time from (map one with --map step=COLUMN)"
+                .to_string(),
+        );
+    }
     let order_column = step.or_else(|| columns.iter().position(|c| c.role == Some(Role::Time)));
     SegmentMapping {
         columns,

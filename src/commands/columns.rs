@@ -325,7 +325,12 @@ impl ColumnsView {
                     r.line, r.step, r.rows_replaced
                 );
             }
-            if !s.map.is_empty() {
+            if s.map.is_empty() {
+                let _ = writeln!(
+                    o,
+                    "  no roles found: name them with --map ROLE=COLUMN (e.g. --map step=1 --map temperature=3)"
+                );
+            } else {
                 let _ = writeln!(o, "  map: {}", s.map);
             }
         }
