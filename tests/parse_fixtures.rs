@@ -502,3 +502,32 @@ fn a_warning_before_a_broken_row_does_not_start_a_segment() {
     assert_eq!(t.skipped, [skipped(4, fc.clone()), skipped(7, fc)]);
     assert_eq!(t.text_lines, 2);
 }
+
+#[test]
+fn whitespace_header_with_spaces_in_names() {
+    let t = parse("wide_names.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(
+        names(s),
+        [
+            "Step",
+            "Potential Energy",
+            "Kinetic En.",
+            "Total Energy",
+            "Temperature"
+        ]
+    );
+    let roles: Vec<_> = s.columns.iter().map(|c| c.spec.role).collect();
+    assert_eq!(
+        roles,
+        [
+            Some(Role::Step),
+            Some(Role::Potential),
+            Some(Role::Kinetic),
+            Some(Role::Total),
+            Some(Role::Temperature)
+        ]
+    );
+    assert_eq!(col(s, "Kinetic En."), [3740.2, 3745.8]);
+    assert_eq!(s.lines, [2, 3]);
+}

@@ -8,7 +8,9 @@
 //! numbers are relative to the block; [`super::LogParser::apply_block`] applies the items in
 //! order and decides headers, segments, field counts and restarts.
 
-use super::layout::{header_column_count, is_space, trim, Delimiter, Fields};
+use super::layout::{
+    header_column_count, is_space, trim, wide_header_column_count, Delimiter, Fields,
+};
 use super::number::{parse_field, Field};
 use super::ParseOptions;
 
@@ -44,6 +46,8 @@ pub(crate) enum Item {
         start: usize,
         len: usize,
         columns: u32,
+        /// Columns when split on runs of two or more spaces (0: not such a header).
+        wide_columns: u32,
         delim: Delimiter,
         commented: bool,
     },
@@ -305,16 +309,23 @@ fn candidate(
 ) -> bool {
     let text = super::layout::trim(text);
     let delim = options.delimiter.for_header(text);
-    let Some(columns) = header_column_count(text, delim) else {
-        return false;
+    let columns = header_column_count(text, delim);
+    let wide = if delim == Delimiter::Whitespace {
+        wide_header_column_count(text).filter(|&w| Some(w) != columns)
+    } else {
+        None
     };
+    if columns.is_none() && wide.is_none() {
+        return false;
+    }
     let start = out.text.len();
     out.text.extend_from_slice(text);
     out.items.push(Item::Candidate {
         line,
         start,
         len: text.len(),
-        columns: u32::try_from(columns).unwrap_or(u32::MAX),
+        columns: columns.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
+        wide_columns: wide.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
         delim,
         commented,
     });

@@ -20,7 +20,9 @@
 //!   an untagged line before the rows: both work, the nearest one wins.
 //!
 //! # Headers and segments
-//! A header is a line whose fields are all names (see [`layout`]). It takes effect at the
+//! A header is a line whose fields are all names (see [`layout`]); in a whitespace table
+//! whose names contain single spaces, the header is also tried split on runs of two or more
+//! spaces (`Step   Potential Energy   Kinetic En.`). It takes effect at the
 //! next row with the same number of fields: the latest header candidate since the previous
 //! row with that many columns names the columns (so a warning between header and rows does
 //! no harm; up to 8 candidates are kept, those that do not read as headers dropped first).
@@ -109,7 +111,10 @@ struct Candidate {
     text: Vec<u8>,
     /// At least one name reads as a role.
     headerish: bool,
+    /// Columns (0: not a plain header).
     columns: usize,
+    /// Columns when split on runs of two or more spaces (0: not such a header).
+    wide_columns: usize,
     delim: Delimiter,
     commented: bool,
 }
@@ -278,6 +283,7 @@ impl LogParser {
                     start,
                     len,
                     columns,
+                    wide_columns,
                     delim,
                     commented,
                 } => {
@@ -287,7 +293,13 @@ impl LogParser {
                     } else {
                         self.table.text_lines += 1;
                     }
-                    self.push_candidate(base + line + 1, text, columns as usize, delim, commented);
+                    self.push_candidate(
+                        base + line + 1,
+                        text,
+                        (columns as usize, wide_columns as usize),
+                        delim,
+                        commented,
+                    );
                 }
                 Item::Skipped { line, why } => {
                     let reason = || match why {
@@ -321,7 +333,7 @@ impl LogParser {
         &mut self,
         line: u64,
         text: &[u8],
-        columns: usize,
+        (columns, wide_columns): (usize, usize),
         delim: Delimiter,
         commented: bool,
     ) {
@@ -340,13 +352,17 @@ impl LogParser {
         };
         buf.clear();
         buf.extend_from_slice(text);
-        let headerish = layout::header_names(text, delim)
-            .iter()
-            .any(|n| mapping::guess_role(&n.name).is_some());
+        let names = if columns > 0 {
+            layout::header_names(text, delim)
+        } else {
+            layout::wide_header_names(text)
+        };
+        let headerish = names.iter().any(|n| mapping::guess_role(&n.name).is_some());
         self.candidates.push_back(Candidate {
             line,
             text: buf,
             columns,
+            wide_columns,
             delim,
             commented,
             headerish,
@@ -363,10 +379,17 @@ impl LogParser {
 
     /// The header (if any) that applies to a row of `fields` fields: Some(new segment names).
     fn header_for(&mut self, fields: usize) -> Option<(Vec<HeaderName>, u64, Delimiter, bool)> {
-        let ci = self.candidates.iter().rposition(|c| c.columns == fields)?;
+        let ci = self
+            .candidates
+            .iter()
+            .rposition(|c| c.columns == fields || c.wide_columns == fields)?;
         let newest = ci + 1 == self.candidates.len() && self.adjacent;
         let cand = self.candidates.get(ci)?;
-        let names = layout::header_names(&cand.text, cand.delim);
+        let names = if cand.columns == fields {
+            layout::header_names(&cand.text, cand.delim)
+        } else {
+            layout::wide_header_names(&cand.text)
+        };
         let (line, delim, commented) = (cand.line, cand.delim, cand.commented);
         let current = self.current.and_then(|i| self.table.segments.get(i));
         match current {
