@@ -4,6 +4,23 @@
 //! [`LogParser::finish`] at the end of input, read the [`RunTable`]. Feeding a file in
 //! arbitrary chunks gives exactly the same table as feeding it whole.
 //!
+//! ```
+//! use plateau::mapping::Role;
+//! use plateau::parse::{LogParser, ParseOptions};
+//!
+//! let mut parser = LogParser::new(ParseOptions::default());
+//! parser.feed(b"# step  temp (K)  press (atm)\n0 300.0 1.0\n10 30");
+//! parser.feed(b"1.5 0.5\n20 302");          // the row of step 10 is complete now
+//! assert_eq!(parser.table().rows(), 2);
+//! parser.finish();                          // "20 302" has no newline: ignored, reported
+//! let table = parser.into_table();
+//! let segment = &table.segments[0];
+//! let pressure = segment.column(Role::Pressure).unwrap();
+//! assert_eq!(pressure.values(), [1.01325, 0.5 * 1.01325]); // canonical unit: bar
+//! assert_eq!(segment.lines, [2, 3]);
+//! assert_eq!(table.partial_line.map(|p| p.line), Some(4));
+//! ```
+//!
 //! # Lines
 //! * Lines end at `\n`; a `\r` before it is dropped (CRLF). A line without its newline is
 //!   held back until the newline arrives, never parsed half; at `finish()` it is ignored and
