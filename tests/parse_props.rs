@@ -178,3 +178,33 @@ fn reset_starts_over() {
     assert_eq!(t.partial_line, None);
     assert_eq!(t.lines, 2);
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 128, ..ProptestConfig::default() })]
+
+    /// Command-line and header texts never panic the unit, quantity and mapping readers.
+    #[test]
+    fn option_texts_never_panic(text in "\\PC{0,24}") {
+        use plateau::units::{parse_duration, parse_quantity, parse_time, Dimension, Schedule, Unit};
+        let _ = Unit::parse(&text);
+        let _ = parse_quantity(&text, Dimension::Energy);
+        let _ = parse_time(&text);
+        let _ = parse_duration(&text);
+        if let Ok(s) = Schedule::parse(&text, Dimension::Temperature, Some(0.002)) {
+            let _ = s.value_at(1.0);
+        }
+        let _ = text.parse::<plateau::mapping::MapRequest>();
+        let _ = plateau::mapping::guess_role(&text);
+    }
+
+    /// A schedule is linear between its points and held outside them.
+    #[test]
+    fn schedule_stays_between_its_values(t in -100.0f64..200.0) {
+        use plateau::units::{Dimension, Schedule};
+        let s = Schedule::parse("0ps=10K,50ps=300K,100ps=200K", Dimension::Temperature, None).unwrap();
+        let v = s.value_at(t);
+        prop_assert!((10.0..=300.0).contains(&v));
+        if t >= 100.0 { prop_assert_eq!(v, 200.0); }
+        if t <= 0.0 { prop_assert_eq!(v, 10.0); }
+    }
+}
