@@ -200,7 +200,8 @@ impl Settings {
     pub fn degrees_of_freedom(&self) -> Option<u64> {
         self.dof.or_else(|| {
             let n = self.atoms?;
-            (3 * n).checked_sub(self.constraints.unwrap_or(0) + 3)
+            n.checked_mul(3)?
+                .checked_sub(self.constraints.unwrap_or(0).checked_add(3)?)
         })
     }
 
@@ -329,7 +330,7 @@ impl Settings {
             });
         }
         if let (Some(n), Some(c)) = (s.atoms, s.constraints) {
-            if s.dof.is_none() && (3 * n) < c + 3 {
+            if s.dof.is_none() && s.degrees_of_freedom().is_none_or(|d| d == 0) {
                 return Err(ConfigError::Value {
                     origin: "settings".into(),
                     key: "constraints".into(),
