@@ -179,6 +179,17 @@ pub enum SkipReason {
     TaggedNotData,
 }
 
+impl SkipReason {
+    /// The kind as a kebab-case word (`field-count`, `not-a-number`, `tagged-not-data`).
+    pub fn kind(&self) -> &'static str {
+        match self {
+            SkipReason::FieldCount { .. } => "field-count",
+            SkipReason::NotANumber { .. } => "not-a-number",
+            SkipReason::TaggedNotData => "tagged-not-data",
+        }
+    }
+}
+
 impl fmt::Display for SkipReason {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {

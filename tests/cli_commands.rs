@@ -79,6 +79,7 @@ fn columns_json() {
     assert_eq!(v["skipped_lines"], 3);
     assert_eq!(v["skipped"][0]["line"], 3);
     assert_eq!(v["skipped"][0]["reason"], "expected 3 fields, found 2");
+    assert_eq!(v["skipped"][0]["kind"], "field-count");
     let v = json(&["columns", "--format", "json"], "partial_last_line.log");
     assert_eq!(v["partial_line"]["line"], 4);
 }

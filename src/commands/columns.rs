@@ -134,7 +134,9 @@ pub struct ColumnView {
 pub struct SkippedView {
     /// 1-based line.
     pub line: u64,
-    /// Why.
+    /// Kind of problem: `field-count`, `not-a-number` or `tagged-not-data`.
+    pub kind: &'static str,
+    /// Why, in words.
     pub reason: String,
 }
 
@@ -197,6 +199,7 @@ impl ColumnsView {
                 .iter()
                 .map(|s| SkippedView {
                     line: s.line,
+                    kind: s.reason.kind(),
                     reason: s.reason.to_string(),
                 })
                 .collect(),
