@@ -531,3 +531,21 @@ fn whitespace_header_with_spaces_in_names() {
     assert_eq!(col(s, "Kinetic En."), [3740.2, 3745.8]);
     assert_eq!(s.lines, [2, 3]);
 }
+
+#[test]
+fn a_comment_at_the_end_of_a_row_ends_it() {
+    let log = b"step temp press\n0 300 1.0  # heating done\n10 301 2.0 #\n20 302 # cut\n";
+    let t = parse_bytes(log, ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "press"), [1.0, 2.0]);
+    assert_eq!(
+        t.skipped,
+        [skipped(
+            4,
+            SkipReason::FieldCount {
+                expected: 3,
+                found: 2
+            }
+        )]
+    );
+}

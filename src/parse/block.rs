@@ -232,6 +232,9 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
                 }
             };
             if !take(out, parsed, fields) {
+                if fields > 0 && starts_comment(field, options) {
+                    break; // a trailing comment ends the row
+                }
                 failed = Some(field);
                 break;
             }
@@ -246,6 +249,9 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
     } else {
         for field in Fields::new(payload, delim) {
             if !take(out, parse_field(field), fields) {
+                if fields > 0 && starts_comment(field, options) {
+                    break; // a trailing comment ends the row
+                }
                 failed = Some(field);
                 break;
             }
@@ -283,6 +289,15 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         overflows,
     });
     DataOutcome::Done
+}
+
+/// True when a field starts with a comment prefix (a comment at the end of a row).
+#[cold]
+fn starts_comment(field: &[u8], options: &ParseOptions) -> bool {
+    options
+        .comment_prefixes
+        .iter()
+        .any(|p| !p.is_empty() && field.starts_with(p.as_bytes()))
 }
 
 /// Stores a parsed field; false when it is not a number.

@@ -31,7 +31,8 @@
 //! * Without a row tag, a line whose first field reads as a number (or `****`) is a
 //!   **data-like** line: it becomes a row, or is skipped with its line number and reason
 //!   (a field that is not a number; a field count that does not match the header).
-//!   Any other line is free text, counted and never an error.
+//!   Any other line is free text, counted and never an error. A field that starts with a
+//!   comment prefix ends the row (`0 300.0 1.0  # heating done` is a row of three).
 //! * With a row tag (`--row-tag TAG`), only lines whose first word is `TAG` (or `TAG:`)
 //!   are data-like; the tag is dropped. The header may be tagged too (`TAG step temp`) or be
 //!   an untagged line before the rows: both work, the nearest one wins.
