@@ -2,7 +2,8 @@
 //!
 //! `cargo bench --bench parse` reports MB/s for: the sequential parser (`LogParser::feed`
 //! on the whole buffer), the block stage alone (`parse_block`), and the two-core ingest
-//! (`ingest::read_with`, 16 MiB blocks split over two threads).
+//! (`ingest::read_with`, 16 MiB blocks split over two threads); and the sequential parser
+//! on a chatty log with a line of free text after every row.
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 use std::hint::black_box;
@@ -63,6 +64,29 @@ fn bench(c: &mut Criterion) {
         b.iter(|| {
             let t = read_with(black_box(&log[..]), ParseOptions::default(), BLOCK_SIZE).unwrap();
             black_box(t.rows())
+        })
+    });
+    g.finish();
+
+    // A chatty log: a line of free text after every row.
+    let chatty: Vec<u8> = log
+        .split_inclusive(|&b| b == b'\n')
+        .take(200_000)
+        .flat_map(|row| {
+            row.iter()
+                .chain(b"Note: neighbour list rebuilt with a new cell grid\n")
+        })
+        .copied()
+        .collect();
+    let mut g = c.benchmark_group("parse_chatty");
+    g.throughput(Throughput::Bytes(chatty.len() as u64));
+    g.sample_size(10);
+    g.bench_function("sequential_feed", |b| {
+        b.iter(|| {
+            let mut p = LogParser::new(ParseOptions::default());
+            p.feed(black_box(&chatty));
+            p.finish();
+            black_box(p.into_table().rows())
         })
     });
     g.finish();

@@ -377,7 +377,11 @@ fn strip_quotes(t: &[u8]) -> &[u8] {
 /// when splitting on runs of two or more spaces (or tabs), if that differs from the plain
 /// count and every piece is a name.
 pub fn wide_header_column_count(line: &[u8]) -> Option<usize> {
-    if memchr::memmem::find(line, b"  ").is_none() && memchr::memchr(b'\t', line).is_none() {
+    let gap = line
+        .windows(2)
+        .any(|w| w.first() == Some(&b'\t') || w == b"  ")
+        || line.last() == Some(&b'\t');
+    if !gap {
         return None;
     }
     let tokens = wide_tokens(line);

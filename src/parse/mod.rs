@@ -127,8 +127,8 @@ impl Default for ParseOptions {
 struct Candidate {
     line: u64,
     text: Vec<u8>,
-    /// At least one name reads as a role.
-    headerish: bool,
+    /// At least one name reads as a role (worked out only when the list is full).
+    headerish: Option<bool>,
     /// Columns (0: not a plain header).
     columns: usize,
     /// Columns when split on runs of two or more spaces (0: not such a header).
@@ -356,11 +356,19 @@ impl LogParser {
         commented: bool,
     ) {
         let mut buf = if self.candidates.len() >= CANDIDATES_KEPT {
-            let victim = self
-                .candidates
-                .iter()
-                .position(|c| !c.headerish)
-                .unwrap_or(0);
+            // Decided lazily (and once per candidate): only a full list needs it.
+            let mut victim = 0;
+            for (i, c) in self.candidates.iter_mut().enumerate() {
+                let headerish = *c.headerish.get_or_insert_with(|| {
+                    candidate_names(&c.text, c.columns, c.delim)
+                        .iter()
+                        .any(|n| mapping::guess_role(&n.name).is_some())
+                });
+                if !headerish {
+                    victim = i;
+                    break;
+                }
+            }
             self.candidates
                 .remove(victim)
                 .map(|c| c.text)
@@ -370,12 +378,6 @@ impl LogParser {
         };
         buf.clear();
         buf.extend_from_slice(text);
-        let names = if columns > 0 {
-            layout::header_names(text, delim)
-        } else {
-            layout::wide_header_names(text)
-        };
-        let headerish = names.iter().any(|n| mapping::guess_role(&n.name).is_some());
         self.candidates.push_back(Candidate {
             line,
             text: buf,
@@ -383,7 +385,7 @@ impl LogParser {
             wide_columns,
             delim,
             commented,
-            headerish,
+            headerish: None,
         });
         self.adjacent = true;
     }
@@ -522,6 +524,15 @@ impl LogParser {
             return;
         };
         push_row(seg, line, values, overflows);
+    }
+}
+
+/// The names of a candidate line (plain split when it has plain columns, else wide).
+fn candidate_names(text: &[u8], columns: usize, delim: Delimiter) -> Vec<HeaderName> {
+    if columns > 0 {
+        layout::header_names(text, delim)
+    } else {
+        layout::wide_header_names(text)
     }
 }
 
