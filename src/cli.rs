@@ -34,7 +34,7 @@ pub enum Command {
 /// Numbers take the canonical unit unless suffixed (`--timestep 2fs`).
 #[derive(Debug, Clone, Default, Args)]
 pub struct InputArgs {
-    /// Map a role to a column: ROLE=COLUMN[:UNIT], COLUMN a header name or 1-based index
+    /// Map a role to a column: ROLE=COLUMN or ROLE=COLUMN:UNIT, COLUMN a header name or 1-based index
     /// (roles: step, time, temperature, pressure, potential, kinetic, total, conserved,
     /// volume, density). Repeatable.
     #[arg(long = "map", value_name = "ROLE=COLUMN[:UNIT]", value_parser = parse_map)]
