@@ -15,8 +15,9 @@
 //! - every sample is a candidate for up to 5000 (block) samples; beyond that about 100
 //!   evenly spaced candidates, then finer grids around the best until the step is 1;
 //! - series longer than 20 000 rows are searched on block means of `b = ⌈N/20000⌉` rows
-//!   and the chosen block is mapped back to row `b·t0_b`; `g` and `N_eff` reported for
-//!   the onset are recomputed from the full-resolution tail;
+//!   and the chosen block is mapped back to row `b·t0_b` (the N/2 and tail rules then
+//!   count block means); `g` and `N_eff` reported for the onset are recomputed from the
+//!   full-resolution tail;
 //! - [`Equilibration::NotYet`] when no candidate has a long enough tail, or the argmax lies
 //!   in the last 5 % of the allowed range (its upper edge).
 //!
