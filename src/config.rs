@@ -193,6 +193,8 @@ pub struct Settings {
     pub config_file: Option<PathBuf>,
     /// The layout used, if any.
     pub layout: Option<String>,
+    /// The row tag was guessed from the start of the log (no `--row-tag` given).
+    pub row_tag_guessed: bool,
 }
 
 impl Settings {
@@ -255,6 +257,7 @@ impl Settings {
         }
 
         let mut s = Settings {
+            row_tag_guessed: false,
             config_file: path.map(Path::to_path_buf),
             layout: layout_used,
             ..Settings::default()

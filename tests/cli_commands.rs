@@ -167,3 +167,28 @@ fn bad_arguments_exit_2() {
         .code(2)
         .stderr(predicate::str::contains("no layout named 'nope'"));
 }
+
+#[test]
+fn row_tag_is_guessed_from_a_chatty_log_and_shown_as_guessed() {
+    // Without --row-tag the tagged rows are still read; the tag is marked as guessed.
+    let v = json(&["columns", "--format", "json"], "tagged.log");
+    assert_eq!(v["row_tag"], "DATA");
+    assert_eq!(v["row_tag_guessed"], true);
+    let guessed_rows = v["rows"].as_u64().unwrap();
+    let given = json(
+        &["columns", "--format", "json", "--row-tag", "DATA"],
+        "tagged.log",
+    );
+    assert_eq!(given["row_tag_guessed"], false);
+    assert_eq!(given["rows"].as_u64().unwrap(), guessed_rows);
+    assert!(guessed_rows >= 4);
+    plateau()
+        .args(["columns"])
+        .arg(log("tagged.log"))
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("row tag     DATA (guessed"));
+    // A plain table gets no tag.
+    let plain = json(&["columns", "--format", "json"], "plain_whitespace.log");
+    assert!(plain["row_tag"].is_null());
+}

@@ -43,6 +43,8 @@ pub struct ColumnsView {
     pub comment_prefixes: Vec<String>,
     /// Row tag, if any.
     pub row_tag: Option<String>,
+    /// Whether the row tag was guessed from the log.
+    pub row_tag_guessed: bool,
     /// The settings file used, if any.
     pub config_file: Option<String>,
     /// The layout used, if any.
@@ -182,6 +184,7 @@ impl ColumnsView {
             delimiter_setting: settings.parse.delimiter,
             comment_prefixes: settings.parse.comment_prefixes.clone(),
             row_tag: settings.parse.row_tag.clone(),
+            row_tag_guessed: settings.row_tag_guessed,
             config_file: settings
                 .config_file
                 .as_ref()
@@ -223,7 +226,12 @@ impl ColumnsView {
         };
         let _ = writeln!(o, "comments    {prefixes}");
         if let Some(tag) = &self.row_tag {
-            let _ = writeln!(o, "row tag     {tag}");
+            let how = if self.row_tag_guessed {
+                " (guessed from the log; set another with --row-tag)"
+            } else {
+                ""
+            };
+            let _ = writeln!(o, "row tag     {tag}{how}");
         }
         if let Some(f) = &self.config_file {
             match &self.layout {
