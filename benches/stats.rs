@@ -6,7 +6,7 @@
 
 use std::hint::black_box;
 
-use criterion::{criterion_group, criterion_main, Criterion};
+use criterion::{criterion_group, Criterion};
 use plateau::stats::{self, Estimator, HampelOptions, RunawayOptions, SlopeSeMethod};
 
 const N: usize = 1_000_000;
@@ -135,4 +135,28 @@ fn benches(c: &mut Criterion) {
 }
 
 criterion_group!(stats_benches, benches);
-criterion_main!(stats_benches);
+
+/// `PLATEAU_STATS_PASSES=K` skips criterion: it builds the 10 columns and runs the
+/// all-statistics pass K times, so `perf stat -e task-clock` with K = 0 and K > 0 gives the
+/// CPU time per pass even on a machine shared with other jobs (wall time is then
+/// meaningless).
+fn main() {
+    if let Some(k) = std::env::var("PLATEAU_STATS_PASSES")
+        .ok()
+        .and_then(|v| v.parse::<usize>().ok())
+    {
+        let t: Vec<f64> = (0..N).map(|i| i as f64 * 0.002).collect();
+        let cols: Vec<Vec<f64>> = (0..10).map(|c| column(c, N)).collect();
+        let mut acc = 0usize;
+        for _ in 0..k {
+            acc += cols
+                .iter()
+                .map(|x| all_for_column(&t, black_box(x)))
+                .sum::<usize>();
+        }
+        println!("{acc}");
+        return;
+    }
+    stats_benches();
+    Criterion::default().configure_from_args().final_summary();
+}

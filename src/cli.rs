@@ -40,7 +40,7 @@ pub enum Command {
 /// Numbers take the canonical unit unless suffixed (`--timestep 2fs`).
 #[derive(Debug, Clone, Default, Args)]
 pub struct InputArgs {
-    /// Map a role to a column: ROLE=COLUMN[:UNIT], COLUMN a header name or 1-based index
+    /// Map a role to a column: ROLE=COLUMN or ROLE=COLUMN:UNIT, COLUMN a header name or 1-based index
     /// (roles: step, time, temperature, pressure, potential, kinetic, total, conserved,
     /// volume, density). Repeatable.
     #[arg(long = "map", value_name = "ROLE=COLUMN[:UNIT]", value_parser = parse_map)]
@@ -67,7 +67,7 @@ pub struct InputArgs {
     #[arg(long, value_name = "N")]
     pub dof: Option<u64>,
     /// Ensemble of the run (otherwise inferred).
-    #[arg(long, value_name = "ENSEMBLE", value_parser = parse_ensemble)]
+    #[arg(long, value_enum, ignore_case = true, value_name = "ENSEMBLE")]
     pub ensemble: Option<Ensemble>,
     /// Settings file (default: plateau.toml in the current folder, if present).
     #[arg(long, value_name = "FILE")]
@@ -99,8 +99,4 @@ fn parse_timestep(text: &str) -> Result<f64, String> {
     } else {
         Err("the time step must be positive".to_string())
     }
-}
-
-fn parse_ensemble(text: &str) -> Result<Ensemble, String> {
-    text.parse::<Ensemble>()
 }

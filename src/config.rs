@@ -22,6 +22,11 @@
 //! A layout holds the same keys as the top level (except `layout` and `layouts`). Unknown
 //! keys are rejected with the file name and the key. `--map` entries merge by role: a role
 //! given at a higher level replaces that role's entries from lower levels.
+//!
+//! To add an input option: a field in [`crate::cli::InputArgs`], the same key in
+//! [`InputConfig`] and [`FileConfig`] (and `FileConfig::top`), its merge in
+//! [`Settings::merge`] (file levels first, then the command line), a field in [`Settings`],
+//! and a valid and an invalid fixture under `tests/fixtures/configs_*`.
 
 use std::collections::BTreeMap;
 use std::fmt;
@@ -40,12 +45,12 @@ use crate::units::{parse_quantity, Dimension};
 pub const CONFIG_FILE_NAME: &str = "plateau.toml";
 
 /// Thermodynamic ensemble of a run.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "kebab-case")]
 pub enum Ensemble {
-    /// Constant energy.
+    /// Constant energy (microcanonical).
     Nve,
-    /// Constant temperature.
+    /// Constant temperature (canonical).
     Nvt,
     /// Constant temperature and pressure.
     Npt,
@@ -193,6 +198,8 @@ pub struct Settings {
     /// Alert thresholds from the settings file's `[alerts]` table (defaults otherwise);
     /// command-line overrides are applied by the commands.
     pub alerts: crate::alert::Thresholds,
+    /// The row tag was guessed from the start of the log (no `--row-tag` given).
+    pub row_tag_guessed: bool,
 }
 
 impl Settings {
@@ -200,7 +207,8 @@ impl Settings {
     pub fn degrees_of_freedom(&self) -> Option<u64> {
         self.dof.or_else(|| {
             let n = self.atoms?;
-            (3 * n).checked_sub(self.constraints.unwrap_or(0) + 3)
+            n.checked_mul(3)?
+                .checked_sub(self.constraints.unwrap_or(0).checked_add(3)?)
         })
     }
 
@@ -254,6 +262,7 @@ impl Settings {
         }
 
         let mut s = Settings {
+            row_tag_guessed: false,
             config_file: path.map(Path::to_path_buf),
             layout: layout_used,
             alerts: file.and_then(|f| f.alerts.clone()).unwrap_or_default(),
@@ -330,7 +339,7 @@ impl Settings {
             });
         }
         if let (Some(n), Some(c)) = (s.atoms, s.constraints) {
-            if s.dof.is_none() && (3 * n) < c + 3 {
+            if s.dof.is_none() && s.degrees_of_freedom().is_none_or(|d| d == 0) {
                 return Err(ConfigError::Value {
                     origin: "settings".into(),
                     key: "constraints".into(),

@@ -1,9 +1,10 @@
 //! Reading a whole file: streamed, split on line boundaries, parsed on both cores.
 //!
-//! The file is read in blocks of [`BLOCK_SIZE`] bytes (never mapped whole, never written).
-//! The complete lines of each block are cut in two at a line boundary; a scoped thread
-//! parses the second half with [`parse_block_into`] while this thread parses the first half
-//! and merges it; then the second half is merged ([`LogParser::apply_block`], in order).
+//! The file is read in blocks of [`BLOCK_SIZE`] bytes (never mapped whole, never written);
+//! the next block is read on its own thread while the current one is parsed. The complete
+//! lines of each block are cut in two at a line boundary; a scoped thread parses the second
+//! half with [`parse_block_into`] while this thread parses the first half and merges it;
+//! then the second half is merged ([`LogParser::apply_block`], in order).
 //! The bytes after the last newline carry over to the next block; at the end of the file
 //! they are the partial last line, ignored and reported (the Contract).
 //!
@@ -30,8 +31,7 @@ pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> 
         source,
     };
     if path.as_os_str() == "-" {
-        let stdin = io::stdin();
-        return read_with(stdin.lock(), options, BLOCK_SIZE).map_err(read_err);
+        return read_with(io::stdin(), options, BLOCK_SIZE).map_err(read_err);
     }
     let file = File::open(path).map_err(read_err)?;
     if file.metadata().map_err(read_err)?.is_dir() {
@@ -44,48 +44,81 @@ pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> 
 }
 
 /// Reads `reader` to its end in blocks of `block_size` bytes and parses it on two threads.
-pub fn read_with<R: Read>(
-    mut reader: R,
+pub fn read_with<R: Read + Send>(
+    reader: R,
     options: ParseOptions,
     block_size: usize,
 ) -> io::Result<RunTable> {
+    read_with_split(reader, options, block_size, PARALLEL_MIN)
+}
+
+/// Like [`read_with`], splitting a block over two threads once its complete lines reach
+/// `parallel_min` bytes (tests use tiny values to exercise the split).
+pub fn read_with_split<R: Read + Send>(
+    mut reader: R,
+    options: ParseOptions,
+    block_size: usize,
+    parallel_min: usize,
+) -> io::Result<RunTable> {
     let block_size = block_size.max(1);
     let mut parser = LogParser::new(options.clone());
-    let mut buf: Vec<u8> = Vec::with_capacity(block_size);
     let mut first = BlockResult::default();
     let mut second = BlockResult::default();
-    let mut carry = 0usize;
+    let mut cur: Vec<u8> = vec![0; block_size];
+    let n = fill(&mut reader, &mut cur)?;
+    cur.truncate(n);
+    let mut eof = n == 0;
+    let mut next: Vec<u8> = Vec::with_capacity(block_size);
     loop {
-        buf.resize(carry + block_size, 0);
-        let filled = fill(&mut reader, buf.get_mut(carry..).unwrap_or_default())?;
-        let len = carry + filled;
-        buf.truncate(len);
-        let eof = filled == 0;
-        let data = buf.get(..len).unwrap_or_default();
-        let complete = match memchr::memrchr(b'\n', data) {
-            Some(i) => i + 1,
-            None => 0,
-        };
-        if complete > 0 {
-            let lines = data.get(..complete).unwrap_or_default();
-            parse_two(lines, &options, &mut parser, &mut first, &mut second);
+        let complete = memchr::memrchr(b'\n', &cur).map_or(0, |i| i + 1);
+        let (lines, carry) = cur.split_at(complete);
+        if eof || carry.len() >= crate::parse::block::MAX_LINE {
+            if !lines.is_empty() {
+                parse_two(
+                    lines,
+                    &options,
+                    &mut parser,
+                    &mut first,
+                    &mut second,
+                    parallel_min,
+                );
+            }
+            // The rest has no newline: the partial last line at the end of the input, or
+            // an endless line that the parser counts as over-long text.
+            parser.feed(carry);
+            if eof {
+                parser.finish();
+                return Ok(parser.into_table());
+            }
+            return finish_by_feeding(reader, parser, &mut next);
         }
-        let rest = len - complete;
-        buf.copy_within(complete..len, 0);
-        carry = rest;
-        if eof {
-            break;
-        }
-        if carry >= crate::parse::block::MAX_LINE {
-            // An endless line: hand it to the parser, which counts it as over-long text.
-            parser.feed(buf.get(..carry).unwrap_or_default());
-            // The parser now holds state for this line; finish the file through it.
-            return finish_by_feeding(reader, parser, &mut buf);
-        }
+        // Read the next block on its own thread while this one is parsed.
+        next.clear();
+        next.extend_from_slice(carry);
+        let read = std::thread::scope(|s| {
+            let reading = s.spawn(|| {
+                let start = next.len();
+                next.resize(start + block_size, 0);
+                let got = fill(&mut reader, next.get_mut(start..).unwrap_or_default());
+                next.truncate(start + *got.as_ref().unwrap_or(&0));
+                got
+            });
+            if !lines.is_empty() {
+                parse_two(
+                    lines,
+                    &options,
+                    &mut parser,
+                    &mut first,
+                    &mut second,
+                    parallel_min,
+                );
+            }
+            reading.join()
+        });
+        let got = read.map_err(|_| io::Error::other("the reading thread failed"))??;
+        eof = got == 0;
+        std::mem::swap(&mut cur, &mut next);
     }
-    parser.feed(buf.get(..carry).unwrap_or_default());
-    parser.finish();
-    Ok(parser.into_table())
 }
 
 fn finish_by_feeding<R: Read>(
@@ -130,8 +163,9 @@ fn parse_two(
     parser: &mut LogParser,
     first: &mut BlockResult,
     second: &mut BlockResult,
+    parallel_min: usize,
 ) {
-    let mid = if lines.len() >= PARALLEL_MIN {
+    let mid = if lines.len() >= parallel_min.max(2) {
         lines
             .get(lines.len() / 2..)
             .and_then(|r| memchr::memchr(b'\n', r))

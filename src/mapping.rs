@@ -19,6 +19,9 @@
 //! are stored in canonical units: `canonical = source × scale + offset`.
 //!
 //! `--timestep` derives a `time` column (ps) from the step column when the log has no time.
+//!
+//! To add a role: a variant of [`Role`], its entry in [`Role::ALL`], [`Role::name`] and
+//! [`Role::dimension`], generic words for it in [`guess_role`], and a case in the tests.
 
 use std::fmt;
 use std::str::FromStr;
@@ -457,6 +460,12 @@ pub fn resolve(
             offset: 0.0,
         });
     }
+    if timestep_ps.is_some() && step.is_none() && !has_time {
+        warnings.push(
+            "--timestep: no step column to derive time from (map one with --map step=COLUMN)"
+                .to_string(),
+        );
+    }
     let order_column = step.or_else(|| columns.iter().position(|c| c.role == Some(Role::Time)));
     SegmentMapping {
         columns,
@@ -477,7 +486,7 @@ pub fn generic_names(n: usize) -> Vec<HeaderName> {
 }
 
 /// A ready-to-paste `--map` line for the columns that have a role (1-based indices; the unit
-/// is written when it is known and not assumed, so the user can correct it in place).
+/// is written whenever the role has one, assumed or not, so the user can correct it in place).
 pub fn map_line(columns: &[ColumnSpec]) -> String {
     let mut parts = Vec::new();
     for c in columns {

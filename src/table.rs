@@ -179,6 +179,17 @@ pub enum SkipReason {
     TaggedNotData,
 }
 
+impl SkipReason {
+    /// The kind as a kebab-case word (`field-count`, `not-a-number`, `tagged-not-data`).
+    pub fn kind(&self) -> &'static str {
+        match self {
+            SkipReason::FieldCount { .. } => "field-count",
+            SkipReason::NotANumber { .. } => "not-a-number",
+            SkipReason::TaggedNotData => "tagged-not-data",
+        }
+    }
+}
+
 impl fmt::Display for SkipReason {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
@@ -240,6 +251,11 @@ impl RunTable {
     /// Rows in all segments.
     pub fn rows(&self) -> usize {
         self.segments.iter().map(Segment::rows).sum()
+    }
+
+    /// The segment rows are currently appended to (the last one).
+    pub fn last_segment(&self) -> Option<&Segment> {
+        self.segments.last()
     }
 
     /// Rows replaced by restarts, in all segments.

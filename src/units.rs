@@ -15,6 +15,11 @@
 //! `500ms`, `2s`, `10min`, `1h`); a [`Schedule`] is `TIME=VALUE` points joined by commas.
 //!
 //! Constants are SI 2019 exact values and CODATA 2018 (see [`constants`]).
+//!
+//! To add a unit: a variant of [`Unit`], its [`Unit::dimension`], [`Unit::scale`] (and
+//! [`Unit::offset`] if any), its `Display` name, its spellings in `lookup` (normalised:
+//! lower case, no spaces, `^`, `·` or `_`), and a check against a cited value in
+//! `tests/parse_units.rs`.
 
 use std::fmt;
 use std::time::Duration;

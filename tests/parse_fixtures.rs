@@ -1,5 +1,6 @@
 //! One invented log per case of the reader: exact rows, values, segments and skipped lines.
 //! The fixtures are in `tests/fixtures/logs/` (made by hand for these tests).
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
 
@@ -424,4 +425,129 @@ fn skipped_list_keeps_the_first_hundred() {
     assert_eq!(t.skipped_count, 150);
     assert_eq!(t.skipped.len(), 100);
     assert_eq!(t.skipped[99].line, 101);
+}
+
+#[test]
+fn step_going_back_without_a_header_is_a_restart() {
+    let t = parse("restart_step_only.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "step"), [0.0, 100.0, 200.0]);
+    assert_eq!(col(s, "temp"), [300.0, 305.0, 306.0]);
+    assert_eq!(s.lines, [2, 6, 7]);
+    assert_eq!(
+        s.restarts,
+        [Restart {
+            line: 6,
+            step: 100.0,
+            rows_replaced: 3
+        }]
+    );
+    assert_eq!(s.header_repeats, 0);
+}
+
+#[test]
+fn time_going_back_is_a_restart_when_there_is_no_step() {
+    let t = parse("restart_time_only.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "time"), [0.0, 0.5, 1.0, 1.5]);
+    assert_eq!(col(s, "press"), [1.0, 4.0, 5.0, 6.0]);
+    assert_eq!(
+        s.restarts,
+        [Restart {
+            line: 5,
+            step: 0.5,
+            rows_replaced: 2
+        }]
+    );
+}
+
+#[test]
+fn same_width_header_with_new_names_starts_a_segment() {
+    let t = parse("renamed_columns.log", ParseOptions::default());
+    assert_eq!(t.segments.len(), 2);
+    assert_eq!(names(&t.segments[1]), ["step", "temp", "volume"]);
+    assert_eq!(t.segments[1].header_line, Some(4));
+    assert_eq!(t.segments[1].lines, [5, 6]);
+    assert_eq!(col(&t.segments[1], "volume"), [27.0, 27.1]);
+    assert_eq!(t.segments[0].lines, [2, 3]);
+}
+
+#[test]
+fn header_survives_a_long_stretch_of_chatter() {
+    let mut log = String::from("step temp press\n");
+    for i in 0..30 {
+        log.push_str(&format!(
+            "info: setting up part number {i} of the run now\n"
+        ));
+        log.push_str("note: nothing to see here\n");
+    }
+    log.push_str("0 300 1\n10 301 2\n");
+    let t = parse_bytes(log.as_bytes(), ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(s.header_line, Some(1));
+    assert_eq!(names(s), ["step", "temp", "press"]);
+    assert_eq!(s.lines, [62, 63]);
+    assert_eq!(t.text_lines, 60);
+}
+
+#[test]
+fn a_warning_before_a_broken_row_does_not_start_a_segment() {
+    let log = b"step temp press etot\n0 300 1 -5\nWARNING: step too large\n10 301 2\n20 302 3 -6\nNote: list rebuilt\n30 303 4\n40 304 5 -7\n";
+    let t = parse_bytes(log, ParseOptions::default());
+    assert_eq!(t.segments.len(), 1);
+    let s = &t.segments[0];
+    assert_eq!(col(s, "step"), [0.0, 20.0, 40.0]);
+    let fc = SkipReason::FieldCount {
+        expected: 4,
+        found: 3,
+    };
+    assert_eq!(t.skipped, [skipped(4, fc.clone()), skipped(7, fc)]);
+    assert_eq!(t.text_lines, 2);
+}
+
+#[test]
+fn whitespace_header_with_spaces_in_names() {
+    let t = parse("wide_names.log", ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(
+        names(s),
+        [
+            "Step",
+            "Potential Energy",
+            "Kinetic En.",
+            "Total Energy",
+            "Temperature"
+        ]
+    );
+    let roles: Vec<_> = s.columns.iter().map(|c| c.spec.role).collect();
+    assert_eq!(
+        roles,
+        [
+            Some(Role::Step),
+            Some(Role::Potential),
+            Some(Role::Kinetic),
+            Some(Role::Total),
+            Some(Role::Temperature)
+        ]
+    );
+    assert_eq!(col(s, "Kinetic En."), [3740.2, 3745.8]);
+    assert_eq!(s.lines, [2, 3]);
+}
+
+#[test]
+fn a_comment_at_the_end_of_a_row_ends_it() {
+    let log = b"step temp press\n0 300 1.0  # heating done\n10 301 2.0 #\n20 302 # cut\n";
+    let t = parse_bytes(log, ParseOptions::default());
+    let s = &t.segments[0];
+    assert_eq!(col(s, "press"), [1.0, 2.0]);
+    assert_eq!(
+        t.skipped,
+        [skipped(
+            4,
+            SkipReason::FieldCount {
+                expected: 3,
+                found: 2
+            }
+        )]
+    );
 }

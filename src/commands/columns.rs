@@ -43,6 +43,18 @@ pub struct ColumnsView {
     pub comment_prefixes: Vec<String>,
     /// Row tag, if any.
     pub row_tag: Option<String>,
+    /// Whether the row tag was guessed from the log.
+    pub row_tag_guessed: bool,
+    /// The settings file used, if any.
+    pub config_file: Option<String>,
+    /// The layout used, if any.
+    pub layout: Option<String>,
+    /// Time step in ps (`--timestep`), if given.
+    pub timestep_ps: Option<f64>,
+    /// Degrees of freedom (`--dof`, or 3N − constraints − 3 from `--atoms`), if known.
+    pub degrees_of_freedom: Option<u64>,
+    /// Ensemble (`--ensemble`), if given.
+    pub ensemble: Option<crate::config::Ensemble>,
     /// Complete lines read.
     pub lines: u64,
     /// Rows in all segments.
@@ -124,7 +136,9 @@ pub struct ColumnView {
 pub struct SkippedView {
     /// 1-based line.
     pub line: u64,
-    /// Why.
+    /// Kind of problem: `field-count`, `not-a-number` or `tagged-not-data`.
+    pub kind: &'static str,
+    /// Why, in words.
     pub reason: String,
 }
 
@@ -170,6 +184,15 @@ impl ColumnsView {
             delimiter_setting: settings.parse.delimiter,
             comment_prefixes: settings.parse.comment_prefixes.clone(),
             row_tag: settings.parse.row_tag.clone(),
+            row_tag_guessed: settings.row_tag_guessed,
+            config_file: settings
+                .config_file
+                .as_ref()
+                .map(|p| p.display().to_string()),
+            layout: settings.layout.clone(),
+            timestep_ps: settings.timestep_ps,
+            degrees_of_freedom: settings.degrees_of_freedom(),
+            ensemble: settings.ensemble,
             lines: table.lines,
             rows: table.rows(),
             segments,
@@ -179,6 +202,7 @@ impl ColumnsView {
                 .iter()
                 .map(|s| SkippedView {
                     line: s.line,
+                    kind: s.reason.kind(),
                     reason: s.reason.to_string(),
                 })
                 .collect(),
@@ -202,7 +226,31 @@ impl ColumnsView {
         };
         let _ = writeln!(o, "comments    {prefixes}");
         if let Some(tag) = &self.row_tag {
-            let _ = writeln!(o, "row tag     {tag}");
+            let how = if self.row_tag_guessed {
+                " (guessed from the log; set another with --row-tag)"
+            } else {
+                ""
+            };
+            let _ = writeln!(o, "row tag     {tag}{how}");
+        }
+        if let Some(f) = &self.config_file {
+            match &self.layout {
+                Some(l) => {
+                    let _ = writeln!(o, "settings    {f} (layout {l})");
+                }
+                None => {
+                    let _ = writeln!(o, "settings    {f}");
+                }
+            }
+        }
+        if let Some(dt) = self.timestep_ps {
+            let _ = writeln!(o, "time step   {dt} ps");
+        }
+        if let Some(n) = self.degrees_of_freedom {
+            let _ = writeln!(o, "N_df        {n}");
+        }
+        if let Some(e) = self.ensemble {
+            let _ = writeln!(o, "ensemble    {}", e.to_string().to_uppercase());
         }
         let _ = writeln!(
             o,
@@ -288,7 +336,12 @@ impl ColumnsView {
                     r.line, r.step, r.rows_replaced
                 );
             }
-            if !s.map.is_empty() {
+            if s.map.is_empty() {
+                let _ = writeln!(
+                    o,
+                    "  no roles found: name them with --map ROLE=COLUMN (e.g. --map step=1 --map temperature=3)"
+                );
+            } else {
                 let _ = writeln!(o, "  map: {}", s.map);
             }
         }

@@ -80,7 +80,8 @@ fn parse_interval(text: &str) -> Result<Duration, String> {
 /// Runs `plateau export`.
 pub fn run(args: &ExportArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
-    let settings = Settings::resolve(&args.input, &cwd)?;
+    let mut settings = Settings::resolve(&args.input, &cwd)?;
+    super::guess_row_tag(&args.file, &mut settings);
     let label = args.file.display().to_string();
     let mut out = BufWriter::new(out);
     let mut exporter = Exporter::new(args.format, settings.parse, label.clone());

@@ -33,9 +33,35 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
 /// file into a table.
 pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Error> {
     let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
-    let settings = Settings::resolve(input, &cwd)?;
+    let mut settings = Settings::resolve(input, &cwd)?;
+    guess_row_tag(file, &mut settings);
     let table = crate::ingest::read_path(file, settings.parse.clone())?;
     Ok((settings, table))
+}
+
+/// Bytes looked at when guessing a row tag.
+const SNIFF_BYTES: u64 = 256 * 1024;
+
+/// Without `--row-tag`, looks at the start of the file for data rows marked by a leading
+/// word ([`crate::parse::sniff::sniff_row_tag`]) and uses that word, marked as guessed.
+/// Standard input and unreadable files are left alone (reading them fails later, with the
+/// path, or cannot be rewound).
+pub fn guess_row_tag(file: &Path, settings: &mut Settings) {
+    use std::io::Read;
+    if settings.parse.row_tag.is_some() || file == Path::new("-") {
+        return;
+    }
+    let Ok(handle) = std::fs::File::open(file) else {
+        return;
+    };
+    let mut start = Vec::new();
+    if handle.take(SNIFF_BYTES).read_to_end(&mut start).is_err() {
+        return;
+    }
+    if let Some(tag) = crate::parse::sniff::sniff_row_tag(&start) {
+        settings.parse.row_tag = Some(tag);
+        settings.row_tag_guessed = true;
+    }
 }
 
 /// A JSON value for a float: non-finite as the strings "nan", "inf", "-inf" (Contract).

@@ -8,7 +8,9 @@
 //! numbers are relative to the block; [`super::LogParser::apply_block`] applies the items in
 //! order and decides headers, segments, field counts and restarts.
 
-use super::layout::{header_column_count, Delimiter, Fields};
+use super::layout::{
+    header_column_count, is_space, trim, wide_header_column_count, Delimiter, Fields,
+};
 use super::number::{parse_field, Field};
 use super::ParseOptions;
 
@@ -44,6 +46,8 @@ pub(crate) enum Item {
         start: usize,
         len: usize,
         columns: u32,
+        /// Columns when split on runs of two or more spaces (0: not such a header).
+        wide_columns: u32,
         delim: Delimiter,
         commented: bool,
     },
@@ -100,11 +104,19 @@ pub fn parse_block(bytes: &[u8], options: &ParseOptions) -> (BlockResult, usize)
 /// Like [`parse_block`], reusing `out`'s allocations.
 pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockResult) -> usize {
     out.clear();
+    let mut firsts = [false; 256];
+    for p in &options.comment_prefixes {
+        if let Some(&b) = p.as_bytes().first() {
+            if let Some(slot) = firsts.get_mut(usize::from(b)) {
+                *slot = true;
+            }
+        }
+    }
     let mut start = 0usize;
     let mut line = 0u64;
     for nl in memchr::memchr_iter(b'\n', bytes) {
         let text = bytes.get(start..nl).unwrap_or_default();
-        classify(text, line, options, out);
+        classify(text, line, options, &firsts, out);
         line += 1;
         start = nl + 1;
     }
@@ -116,7 +128,13 @@ pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockRes
 pub const MAX_LINE: usize = 1 << 20;
 
 #[inline]
-fn classify(raw: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) {
+fn classify(
+    raw: &[u8],
+    line: u64,
+    options: &ParseOptions,
+    comment_firsts: &[bool; 256],
+    out: &mut BlockResult,
+) {
     if raw.len() > MAX_LINE {
         out.items.push(Item::Overlong { line });
         return;
@@ -125,12 +143,15 @@ fn classify(raw: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         [head @ .., b'\r'] => head,
         _ => raw,
     };
-    let t = super::layout::trim(raw);
+    let t = trim(raw);
     if t.is_empty() {
         out.items.push(Item::Blank { line });
         return;
     }
-    for prefix in &options.comment_prefixes {
+    let maybe_comment = t
+        .first()
+        .is_some_and(|&b| comment_firsts.get(usize::from(b)).copied().unwrap_or(false));
+    for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
                 if !candidate(rest, line, true, options, out) {
@@ -194,35 +215,68 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
     let values_start = out.values.len();
     let overflow_start = out.overflow_fields.len();
     let mut fields = 0u32;
-    for field in Fields::new(payload, delim) {
-        match parse_field(field) {
-            Field::Value(v) => out.values.push(v),
-            Field::Overflow => {
-                out.values.push(f64::NAN);
-                out.overflow_fields.push(fields);
-            }
-            Field::Invalid => {
-                out.values.truncate(values_start);
-                out.overflow_fields.truncate(overflow_start);
-                if fields == 0 {
-                    return DataOutcome::NotData;
+    let mut failed: Option<&[u8]> = None;
+    if delim == Delimiter::Whitespace {
+        // Fused split and parse: the fast float parser finds the end of the number itself;
+        // anything else (D exponents, `****`, text) takes the slow path on the whole field.
+        let mut rest = trim(payload);
+        while !rest.is_empty() {
+            let (field, parsed, next) = match fast_float2::parse_partial::<f64, _>(rest) {
+                Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
+                    (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
                 }
-                let start = out.text.len();
-                let cut = field.len().min(REASON_TEXT);
-                out.text
-                    .extend_from_slice(field.get(..cut).unwrap_or_default());
-                out.items.push(Item::Skipped {
-                    line,
-                    why: BlockSkip::NotANumber {
-                        field: fields,
-                        start,
-                        len: cut,
-                    },
-                });
-                return DataOutcome::Done;
+                _ => {
+                    let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
+                    let f = rest.get(..end).unwrap_or_default();
+                    (f, parse_field(f), end)
+                }
+            };
+            if !take(out, parsed, fields) {
+                if fields > 0 && starts_comment(field, options) {
+                    break; // a trailing comment ends the row
+                }
+                failed = Some(field);
+                break;
             }
+            fields += 1;
+            rest = rest.get(next..).unwrap_or_default();
+            let skip = rest
+                .iter()
+                .position(|&b| !is_space(b))
+                .unwrap_or(rest.len());
+            rest = rest.get(skip..).unwrap_or_default();
         }
-        fields += 1;
+    } else {
+        for field in Fields::new(payload, delim) {
+            if !take(out, parse_field(field), fields) {
+                if fields > 0 && starts_comment(field, options) {
+                    break; // a trailing comment ends the row
+                }
+                failed = Some(field);
+                break;
+            }
+            fields += 1;
+        }
+    }
+    if let Some(field) = failed {
+        out.values.truncate(values_start);
+        out.overflow_fields.truncate(overflow_start);
+        if fields == 0 {
+            return DataOutcome::NotData;
+        }
+        let start = out.text.len();
+        let cut = field.len().min(REASON_TEXT);
+        out.text
+            .extend_from_slice(field.get(..cut).unwrap_or_default());
+        out.items.push(Item::Skipped {
+            line,
+            why: BlockSkip::NotANumber {
+                field: fields,
+                start,
+                len: cut,
+            },
+        });
+        return DataOutcome::Done;
     }
     if fields == 0 {
         return DataOutcome::NotData;
@@ -237,6 +291,29 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
     DataOutcome::Done
 }
 
+/// True when a field starts with a comment prefix (a comment at the end of a row).
+#[cold]
+fn starts_comment(field: &[u8], options: &ParseOptions) -> bool {
+    options
+        .comment_prefixes
+        .iter()
+        .any(|p| !p.is_empty() && field.starts_with(p.as_bytes()))
+}
+
+/// Stores a parsed field; false when it is not a number.
+#[inline]
+fn take(out: &mut BlockResult, parsed: Field, index: u32) -> bool {
+    match parsed {
+        Field::Value(v) => out.values.push(v),
+        Field::Overflow => {
+            out.values.push(f64::NAN);
+            out.overflow_fields.push(index);
+        }
+        Field::Invalid => return false,
+    }
+    true
+}
+
 /// Records `text` as a header candidate if it looks like one.
 fn candidate(
     text: &[u8],
@@ -247,16 +324,23 @@ fn candidate(
 ) -> bool {
     let text = super::layout::trim(text);
     let delim = options.delimiter.for_header(text);
-    let Some(columns) = header_column_count(text, delim) else {
-        return false;
+    let columns = header_column_count(text, delim);
+    let wide = if delim == Delimiter::Whitespace {
+        wide_header_column_count(text).filter(|&w| Some(w) != columns)
+    } else {
+        None
     };
+    if columns.is_none() && wide.is_none() {
+        return false;
+    }
     let start = out.text.len();
     out.text.extend_from_slice(text);
     out.items.push(Item::Candidate {
         line,
         start,
         len: text.len(),
-        columns: u32::try_from(columns).unwrap_or(u32::MAX),
+        columns: columns.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
+        wide_columns: wide.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
         delim,
         commented,
     });

@@ -89,8 +89,9 @@ impl DelimiterChoice {
     }
 }
 
+/// Space, tab, vertical tab or form feed.
 #[inline]
-fn is_space(b: u8) -> bool {
+pub fn is_space(b: u8) -> bool {
     b == b' ' || b == b'\t' || b == b'\x0b' || b == b'\x0c'
 }
 
@@ -339,6 +340,69 @@ pub fn header_names(line: &[u8], delim: Delimiter) -> Vec<HeaderName> {
     raw.iter().map(|t| HeaderName::from_token(t)).collect()
 }
 
+/// Splits a whitespace header on runs of two or more spaces or on tabs, for headers whose
+/// names contain single spaces (`Step   Potential Energy   Kinetic En.`).
+fn wide_tokens(line: &[u8]) -> Vec<&[u8]> {
+    let line = trim(line);
+    let mut out = Vec::new();
+    let mut start = 0usize;
+    let mut i = 0usize;
+    while i < line.len() {
+        let b = line.get(i).copied().unwrap_or(b' ');
+        let next = line.get(i + 1).copied();
+        let gap = b == b'\t' || (b == b' ' && next.is_some_and(|n| n == b' ' || n == b'\t'));
+        if gap {
+            out.push(trim(line.get(start..i).unwrap_or_default()));
+            while i < line.len() && line.get(i).is_some_and(|&c| is_space(c)) {
+                i += 1;
+            }
+            start = i;
+        } else {
+            i += 1;
+        }
+    }
+    out.push(trim(line.get(start..).unwrap_or_default()));
+    out.retain(|t| !t.is_empty());
+    out
+}
+
+fn strip_quotes(t: &[u8]) -> &[u8] {
+    match t {
+        [b'"', inner @ .., b'"'] | [b'\'', inner @ .., b'\''] => inner,
+        _ => t,
+    }
+}
+
+/// For a whitespace header with names that contain single spaces: the number of columns
+/// when splitting on runs of two or more spaces (or tabs), if that differs from the plain
+/// count and every piece is a name.
+pub fn wide_header_column_count(line: &[u8]) -> Option<usize> {
+    let gap = line
+        .windows(2)
+        .any(|w| w.first() == Some(&b'\t') || w == b"  ")
+        || line.last() == Some(&b'\t');
+    if !gap {
+        return None;
+    }
+    let tokens = wide_tokens(line);
+    let ok = !tokens.is_empty()
+        && tokens.iter().all(|t| {
+            let t = strip_quotes(t);
+            !t.is_empty()
+                && !is_numeric(t)
+                && t.iter().any(|b| b.is_ascii_alphabetic() || *b >= 0x80)
+        });
+    (ok).then_some(tokens.len())
+}
+
+/// The names of a wide header (see [`wide_header_column_count`]).
+pub fn wide_header_names(line: &[u8]) -> Vec<HeaderName> {
+    wide_tokens(line)
+        .into_iter()
+        .map(|t| HeaderName::from_token(&String::from_utf8_lossy(strip_quotes(t))))
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -412,5 +476,12 @@ mod tests {
         assert_eq!(c.len(), 3);
         assert_eq!(c[1].name, "Potential Energy");
         assert_eq!(c[2].unit.as_deref(), Some("K"));
+        let w = b"  Step     Potential Energy    Kinetic En.   Temp (K)";
+        assert_eq!(header_column_count(w, Delimiter::Whitespace), Some(6));
+        assert_eq!(wide_header_column_count(w), Some(4));
+        let names = wide_header_names(w);
+        assert_eq!(names[1].name, "Potential Energy");
+        assert_eq!(names[3].unit.as_deref(), Some("K"));
+        assert_eq!(wide_header_column_count(b"a b c"), None);
     }
 }

@@ -4,6 +4,23 @@
 //! [`LogParser::finish`] at the end of input, read the [`RunTable`]. Feeding a file in
 //! arbitrary chunks gives exactly the same table as feeding it whole.
 //!
+//! ```
+//! use plateau::mapping::Role;
+//! use plateau::parse::{LogParser, ParseOptions};
+//!
+//! let mut parser = LogParser::new(ParseOptions::default());
+//! parser.feed(b"# step  temp (K)  press (atm)\n0 300.0 1.0\n10 30");
+//! parser.feed(b"1.5 0.5\n20 302");          // the row of step 10 is complete now
+//! assert_eq!(parser.table().rows(), 2);
+//! parser.finish();                          // "20 302" has no newline: ignored, reported
+//! let table = parser.into_table();
+//! let segment = &table.segments[0];
+//! let pressure = segment.column(Role::Pressure).unwrap();
+//! assert_eq!(pressure.values(), [1.01325, 0.5 * 1.01325]); // canonical unit: bar
+//! assert_eq!(segment.lines, [2, 3]);
+//! assert_eq!(table.partial_line.map(|p| p.line), Some(4));
+//! ```
+//!
 //! # Lines
 //! * Lines end at `\n`; a `\r` before it is dropped (CRLF). A line without its newline is
 //!   held back until the newline arrives, never parsed half; at `finish()` it is ignored and
@@ -14,22 +31,29 @@
 //! * Without a row tag, a line whose first field reads as a number (or `****`) is a
 //!   **data-like** line: it becomes a row, or is skipped with its line number and reason
 //!   (a field that is not a number; a field count that does not match the header).
-//!   Any other line is free text, counted and never an error.
+//!   Any other line is free text, counted and never an error. A field that starts with a
+//!   comment prefix ends the row (`0 300.0 1.0  # heating done` is a row of three).
 //! * With a row tag (`--row-tag TAG`), only lines whose first word is `TAG` (or `TAG:`)
 //!   are data-like; the tag is dropped. The header may be tagged too (`TAG step temp`) or be
 //!   an untagged line before the rows: both work, the nearest one wins.
 //!
 //! # Headers and segments
-//! A header is a line whose fields are all names (see [`layout`]). It takes effect at the
+//! A header is a line whose fields are all names (see [`layout`]); in a whitespace table
+//! whose names contain single spaces, the header is also tried split on runs of two or more
+//! spaces (`Step   Potential Energy   Kinetic En.`). It takes effect at the
 //! next row with the same number of fields: the latest header candidate since the previous
 //! row with that many columns names the columns (so a warning between header and rows does
-//! no harm). Then:
-//! * no segment yet, or a different number of fields: a new segment under that header;
+//! no harm; up to 8 candidates are kept, those that do not read as headers dropped first).
+//! Then:
+//! * no segment yet: the first segment, under that header;
+//! * a different number of fields: a new segment if the line reads as a header (at least
+//!   two names read as roles, see [`mapping::guess_role`]); otherwise the row is skipped
+//!   for its field count (a warning with as many words as a broken row has fields must not
+//!   swallow every later row);
 //! * the same names as the current segment: a repeated header (e.g. after a restart), same
 //!   segment;
 //! * different names, same count: a new segment, but only when the header is the last
-//!   non-blank line before the row (so a chatty line that happens to have as many words
-//!   does not start a segment).
+//!   non-blank line before the row and reads as a header.
 //!
 //! A row whose field count differs from its segment's, with no header for it, is skipped.
 //! Rows before any header start a segment with names `col1..colN`.
@@ -66,8 +90,9 @@ pub use layout::{Delimiter, DelimiterChoice, HeaderName};
 /// Comment prefixes used unless `--comment` is given.
 pub const DEFAULT_COMMENT_PREFIXES: [&str; 6] = ["#", "!", ";", "@", "%", "//"];
 
-/// How header candidates are remembered between rows.
-const CANDIDATES_KEPT: usize = 4;
+/// How many header candidates are remembered between two rows. When more arrive, the
+/// oldest one that does not look like a header (no name reads as a role) goes first.
+const CANDIDATES_KEPT: usize = 8;
 
 /// What the parser needs to know about the log.
 #[derive(Debug, Clone, PartialEq)]
@@ -103,7 +128,12 @@ impl Default for ParseOptions {
 struct Candidate {
     line: u64,
     text: Vec<u8>,
+    /// At least one name reads as a role (worked out only when the list is full).
+    headerish: Option<bool>,
+    /// Columns (0: not a plain header).
     columns: usize,
+    /// Columns when split on runs of two or more spaces (0: not such a header).
+    wide_columns: usize,
     delim: Delimiter,
     commented: bool,
 }
@@ -167,6 +197,12 @@ impl LogParser {
         self.lines_done
     }
 
+    /// Starts over with an empty table and the same options (a truncated or re-created
+    /// file is read again from its start).
+    pub fn reset(&mut self) {
+        *self = LogParser::new(self.options.clone());
+    }
+
     /// Feeds the next bytes of the input (any chunking).
     pub fn feed(&mut self, mut chunk: &[u8]) {
         if !self.pending.is_empty() || self.pending_overlong {
@@ -184,6 +220,7 @@ impl LogParser {
                         self.table.text_lines += 1;
                         self.table.lines += 1;
                         self.lines_done += 1;
+                        self.adjacent = false;
                     } else {
                         let mut line = std::mem::take(&mut self.pending);
                         line.extend_from_slice(head);
@@ -265,6 +302,7 @@ impl LogParser {
                     start,
                     len,
                     columns,
+                    wide_columns,
                     delim,
                     commented,
                 } => {
@@ -274,7 +312,13 @@ impl LogParser {
                     } else {
                         self.table.text_lines += 1;
                     }
-                    self.push_candidate(base + line + 1, text, columns as usize, delim, commented);
+                    self.push_candidate(
+                        base + line + 1,
+                        text,
+                        (columns as usize, wide_columns as usize),
+                        delim,
+                        commented,
+                    );
                 }
                 Item::Skipped { line, why } => {
                     let reason = || match why {
@@ -308,13 +352,26 @@ impl LogParser {
         &mut self,
         line: u64,
         text: &[u8],
-        columns: usize,
+        (columns, wide_columns): (usize, usize),
         delim: Delimiter,
         commented: bool,
     ) {
         let mut buf = if self.candidates.len() >= CANDIDATES_KEPT {
+            // Decided lazily (and once per candidate): only a full list needs it.
+            let mut victim = 0;
+            for (i, c) in self.candidates.iter_mut().enumerate() {
+                let headerish = *c.headerish.get_or_insert_with(|| {
+                    candidate_names(&c.text, c.columns, c.delim)
+                        .iter()
+                        .any(|n| mapping::guess_role(&n.name).is_some())
+                });
+                if !headerish {
+                    victim = i;
+                    break;
+                }
+            }
             self.candidates
-                .pop_front()
+                .remove(victim)
                 .map(|c| c.text)
                 .unwrap_or_default()
         } else {
@@ -326,8 +383,10 @@ impl LogParser {
             line,
             text: buf,
             columns,
+            wide_columns,
             delim,
             commented,
+            headerish: None,
         });
         self.adjacent = true;
     }
@@ -341,10 +400,17 @@ impl LogParser {
 
     /// The header (if any) that applies to a row of `fields` fields: Some(new segment names).
     fn header_for(&mut self, fields: usize) -> Option<(Vec<HeaderName>, u64, Delimiter, bool)> {
-        let ci = self.candidates.iter().rposition(|c| c.columns == fields)?;
+        let ci = self
+            .candidates
+            .iter()
+            .rposition(|c| c.columns == fields || c.wide_columns == fields)?;
         let newest = ci + 1 == self.candidates.len() && self.adjacent;
         let cand = self.candidates.get(ci)?;
-        let names = layout::header_names(&cand.text, cand.delim);
+        let names = if cand.columns == fields {
+            layout::header_names(&cand.text, cand.delim)
+        } else {
+            layout::wide_header_names(&cand.text)
+        };
         let (line, delim, commented) = (cand.line, cand.delim, cand.commented);
         let current = self.current.and_then(|i| self.table.segments.get(i));
         match current {
@@ -362,6 +428,10 @@ impl LogParser {
                     None
                 }
             }
+            // A different width after a first segment: only a line that reads as a header
+            // starts a new segment (else a warning with as many words as a broken row has
+            // fields would swallow every later row).
+            Some(_) if !looks_like_header(&names) => None,
             _ => {
                 self.count_header(commented);
                 Some((names, line, delim, commented))
@@ -458,15 +528,24 @@ impl LogParser {
     }
 }
 
-/// A candidate may replace a header of the same width only if at least half of its names
-/// (and at least one) read as a role: "step temp volume" does, "Note: list rebuilt now"
-/// does not.
+/// The names of a candidate line (plain split when it has plain columns, else wide).
+fn candidate_names(text: &[u8], columns: usize, delim: Delimiter) -> Vec<HeaderName> {
+    if columns > 0 {
+        layout::header_names(text, delim)
+    } else {
+        layout::wide_header_names(text)
+    }
+}
+
+/// After the first segment, a candidate starts a new one only if it reads as a header: at
+/// least two names read as roles (one for a header of one or two names). "step temp volume"
+/// does; "Note: list rebuilt now" and "WARNING: step too large" do not.
 fn looks_like_header(names: &[HeaderName]) -> bool {
     let roles = names
         .iter()
         .filter(|n| mapping::guess_role(&n.name).is_some())
         .count();
-    roles >= 1 && 2 * roles >= names.len()
+    roles >= 2 || (roles == 1 && names.len() <= 2)
 }
 
 /// Appends one row (source values) to a segment, converting to canonical units and applying

@@ -40,6 +40,10 @@ fn parse_slow(bytes: &[u8]) -> Field {
     if bytes.iter().all(|&b| b == b'*') {
         return Field::Overflow;
     }
+    // Words: nan/inf were taken by the fast path; nothing else numeric starts with a letter.
+    if bytes.first().is_some_and(u8::is_ascii_alphabetic) {
+        return Field::Invalid;
+    }
     const MAX: usize = 64;
     if bytes.len() > MAX {
         return Field::Invalid;

@@ -16,6 +16,7 @@ use realfft::num_complex::Complex;
 use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 
 use super::descriptive::mean;
+use super::fast_dot;
 
 /// Lags computed directly (O(N) each) before [`LazyAcov`] switches to FFTs.
 const DIRECT_LAGS: usize = 24;
@@ -187,7 +188,7 @@ impl<'a> LazyAcov<'a> {
                 let lag = self.direct.len();
                 let head = self.dx.get(..n - lag)?;
                 let tail = self.dx.get(lag..)?;
-                let s: f64 = head.iter().zip(tail).map(|(a, b)| a * b).sum();
+                let s = fast_dot(head, tail);
                 self.direct.push(s);
             }
             return self.direct.get(t).copied();

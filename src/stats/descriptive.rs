@@ -12,7 +12,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::finite;
+use super::{fast_sum, finite};
 
 /// Arithmetic mean with one refinement pass (`x̄ + Σ(x_i − x̄)/n`), which recovers the
 /// digits lost by the plain sum on data with a large common offset (NIST NumAcc3/4).
@@ -22,8 +22,18 @@ pub fn mean(x: &[f64]) -> Option<f64> {
         return None;
     }
     let n = x.len() as f64;
-    let m0 = x.iter().sum::<f64>() / n;
-    let corr = x.iter().map(|v| v - m0).sum::<f64>() / n;
+    let m0 = fast_sum(x) / n;
+    // Σ(x − m0) = Σx − n·m0 in exact arithmetic; summed explicitly it recovers the
+    // rounding of the first pass.
+    let mut acc = [0.0f64; 4];
+    let chunks = x.chunks_exact(4);
+    let rest: f64 = chunks.remainder().iter().map(|v| v - m0).sum();
+    for c in chunks {
+        for (a, v) in acc.iter_mut().zip(c) {
+            *a += v - m0;
+        }
+    }
+    let corr = (acc[0] + acc[1] + acc[2] + acc[3] + rest) / n;
     finite(m0 + corr)
 }
 
@@ -31,13 +41,24 @@ pub fn mean(x: &[f64]) -> Option<f64> {
 /// (Chan, Golub & LeVeque's "corrected two-pass" form). Returns `(mean, Σ(x − x̄)²)`.
 fn centred_ss(x: &[f64]) -> Option<(f64, f64)> {
     let m = mean(x)?;
-    let mut ss = 0.0;
-    let mut s = 0.0;
-    for v in x {
+    let mut ssa = [0.0f64; 4];
+    let mut sa = [0.0f64; 4];
+    let chunks = x.chunks_exact(4);
+    let (mut ss, mut s) = (0.0, 0.0);
+    for v in chunks.remainder() {
         let d = v - m;
         ss += d * d;
         s += d;
     }
+    for c in chunks {
+        for ((q, l), v) in ssa.iter_mut().zip(sa.iter_mut()).zip(c) {
+            let d = v - m;
+            *q += d * d;
+            *l += d;
+        }
+    }
+    ss += (ssa[0] + ssa[1]) + (ssa[2] + ssa[3]);
+    s += (sa[0] + sa[1]) + (sa[2] + sa[3]);
     let n = x.len() as f64;
     let ss = finite(ss - s * s / n)?.max(0.0);
     Some((m, ss))

@@ -51,10 +51,10 @@ pub struct Drift {
     pub inflation: f64,
     /// Newey–West bandwidth, when used.
     pub lags: Option<usize>,
-    /// `slope/se`.
-    pub t_stat: f64,
-    /// Two-sided p-value of `slope = 0` from Student t with `dof`.
-    pub p_value: f64,
+    /// `slope/se`; `None` when `se = 0` (points exactly on a line).
+    pub t_stat: Option<f64>,
+    /// Two-sided p-value of `slope = 0` from Student t with `dof`; `None` when `se = 0`.
+    pub p_value: Option<f64>,
     /// Confidence level of the interval.
     pub confidence: f64,
     /// Interval lower end.
@@ -155,16 +155,16 @@ pub fn drift(t: &[f64], y: &[f64], method: SlopeSeMethod, confidence: f64) -> Op
     }
     let se = finite(se)?;
     let t_stat = if se > 0.0 {
-        fit.slope / se
-    } else if fit.slope == 0.0 {
-        0.0
+        finite(fit.slope / se)
     } else {
-        f64::INFINITY.copysign(fit.slope)
+        None
     };
-    let (p_value, q) = if t_stat.is_finite() {
-        t_stats(t_stat, dof, confidence)?
-    } else {
-        (0.0, 0.0)
+    let (p_value, q) = match t_stat {
+        Some(t) => {
+            let (p, q) = t_stats(t, dof, confidence)?;
+            (Some(p), q)
+        }
+        None => (None, 0.0),
     };
     Some(Drift {
         fit,

@@ -15,8 +15,9 @@
 //! - every sample is a candidate for up to 5000 (block) samples; beyond that about 100
 //!   evenly spaced candidates, then finer grids around the best until the step is 1;
 //! - series longer than 20 000 rows are searched on block means of `b = ⌈N/20000⌉` rows
-//!   and the chosen block is mapped back to row `b·t0_b`; `g` and `N_eff` reported for
-//!   the onset are recomputed from the full-resolution tail;
+//!   and the chosen block is mapped back to row `b·t0_b` (the N/2 and tail rules then
+//!   count block means); `g` and `N_eff` reported for the onset are recomputed from the
+//!   full-resolution tail;
 //! - [`Equilibration::NotYet`] when no candidate has a long enough tail, or the argmax lies
 //!   in the last 5 % of the allowed range (its upper edge).
 //!
@@ -203,7 +204,8 @@ pub struct Mser {
 }
 
 /// MSER (White 1997): `MSER(d) = Σ_{i≥d}(x_i − x̄_d)²/(n − d)²`, `d* = argmin_{0≤d<n/2}`
-/// (first minimum). Suffix sums by a backward Welford pass: O(n) time, O(n) memory.
+/// (first minimum). Suffix sums of centred values in one backward pass: O(n) time, O(n)
+/// memory.
 /// `None` if fewer than 2 values.
 pub fn mser(x: &[f64]) -> Option<Mser> {
     mser_batched(x, 1)
@@ -233,13 +235,17 @@ pub fn mser_batched(x: &[f64], batch: usize) -> Option<Mser> {
     }
     let limit = n / 2;
     let mut vals = vec![0.0; limit.max(1)];
-    let (mut cnt, mut mu, mut m2) = (0.0f64, 0.0f64, 0.0f64);
+    // Suffix sums of deviations from the overall mean (centring keeps the cancellation in
+    // S2 − S1²/k small); no division on the loop-carried chain.
+    let c = super::descriptive::mean(y).unwrap_or(0.0);
+    let (mut cnt, mut s1, mut s2) = (0.0f64, 0.0f64, 0.0f64);
     for (i, &v) in y.iter().enumerate().rev() {
         cnt += 1.0;
-        let d = v - mu;
-        mu += d / cnt;
-        m2 += d * (v - mu);
+        let d = v - c;
+        s1 += d;
+        s2 += d * d;
         if let Some(slot) = vals.get_mut(i) {
+            let m2 = s2 - s1 * s1 / cnt;
             *slot = if m2.is_finite() {
                 m2.max(0.0) / (cnt * cnt)
             } else {
