@@ -2,8 +2,6 @@
 //! The fixtures are in `tests/fixtures/logs/` (made by hand for these tests).
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
-
 use plateau::mapping::{MapRequest, Role};
 use plateau::parse::{parse_bytes, Delimiter, DelimiterChoice, ParseOptions};
 use plateau::table::{PartialLine, Restart, RunTable, Segment, SkipReason, SkippedLine};
