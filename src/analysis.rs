@@ -43,8 +43,9 @@ pub const DRIFT_CONFIDENCE: f64 = 0.95;
 /// Trend test: p-value below which a quantity is "still changing" (1 %, common practice,
 /// no source).
 pub const TREND_P_VALUE: f64 = 0.01;
-/// Points the O(n²) trend test runs on at most (block means beyond).
-pub const TREND_MAX_POINTS: usize = 2000;
+/// Points the O(n²) trend test (Mann–Kendall, Sen slope) runs on at most: block means
+/// beyond (METHODS §5.2 suggests capping; 1000 keeps it a small part of the cost).
+pub const TREND_MAX_POINTS: usize = 1000;
 /// Rows before the checked window whose median and MAD are the runaway baseline
 /// (common practice, no source).
 pub const RUNAWAY_BASELINE_ROWS: usize = 200;
