@@ -613,39 +613,13 @@ impl LogWriter {
         line.clear();
         // Formatting into a String cannot fail.
         let _ = match self.style {
-            LogStyle::Whitespace | LogStyle::Tagged => write!(
-                line,
-                "{}{} {:.3} {:.3} {:.2} {:.4} {:.4} {:.4} {:.4} {:.5} {:.3}",
+            LogStyle::Whitespace | LogStyle::Tagged | LogStyle::Csv => {
+                let separator = if self.style == LogStyle::Csv { "," } else { " " };
                 if self.style == LogStyle::Tagged {
-                    "DATA "
-                } else {
-                    ""
-                },
-                frame.step,
-                frame.time_ps,
-                frame.temperature,
-                frame.pressure,
-                frame.potential,
-                frame.kinetic,
-                frame.total,
-                frame.conserved,
-                frame.volume,
-                frame.density
-            ),
-            LogStyle::Csv => write!(
-                line,
-                "{},{:.3},{:.3},{:.2},{:.4},{:.4},{:.4},{:.4},{:.5},{:.3}",
-                frame.step,
-                frame.time_ps,
-                frame.temperature,
-                frame.pressure,
-                frame.potential,
-                frame.kinetic,
-                frame.total,
-                frame.conserved,
-                frame.volume,
-                frame.density
-            ),
+                    line.push_str("DATA ");
+                }
+                write_fields(line, frame, separator)
+            }
             LogStyle::Tab => write!(
                 line,
                 "{}\t{:.1}\t{:.3}\t{:.4}\t{:.4}\t{:.4}\t{:.4}\t{:.4}\t{:.2}\t{:.6}",
@@ -689,6 +663,26 @@ impl LogWriter {
         }
         out.write_all(line.as_bytes())
     }
+}
+
+/// Writes the ten fields of a row in canonical units, joined by `separator`.
+fn write_fields(line: &mut String, frame: &Frame, separator: &str) -> std::fmt::Result {
+    use std::fmt::Write as _;
+    let s = separator;
+    write!(
+        line,
+        "{}{s}{:.3}{s}{:.3}{s}{:.2}{s}{:.4}{s}{:.4}{s}{:.4}{s}{:.4}{s}{:.5}{s}{:.3}",
+        frame.step,
+        frame.time_ps,
+        frame.temperature,
+        frame.pressure,
+        frame.potential,
+        frame.kinetic,
+        frame.total,
+        frame.conserved,
+        frame.volume,
+        frame.density
+    )
 }
 
 /// Appends `value` as a 16-character field in `D` exponent notation, or `****` filling the
