@@ -19,7 +19,7 @@ use super::descriptive::mean;
 use super::fast_dot;
 
 /// Lags computed directly (O(N) each) before [`LazyAcov`] switches to FFTs.
-const DIRECT_LAGS: usize = 24;
+const DIRECT_LAGS: usize = 4;
 /// First lag window of the segmented FFT (lags below this from blocks of this size).
 const SEGMENT_LAGS: usize = 256;
 
