@@ -225,14 +225,14 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
                 (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
             } else {
                 match fast_float2::parse_partial::<f64, _>(rest) {
-                Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
-                    (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
-                }
-                _ => {
-                    let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
-                    let f = rest.get(..end).unwrap_or_default();
-                    (f, parse_field(f), end)
-                }
+                    Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
+                        (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+                    }
+                    _ => {
+                        let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
+                        let f = rest.get(..end).unwrap_or_default();
+                        (f, parse_field(f), end)
+                    }
                 }
             };
             if !take(out, parsed, fields) {
