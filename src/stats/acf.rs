@@ -18,9 +18,8 @@ use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 use super::descriptive::mean;
 use super::fast_dot;
 
-/// Lags computed directly (O(N) each, one pass over memory per lag) before [`LazyAcov`]
-/// switches to FFTs: beyond a few lags one segmented-FFT pass is cheaper.
-const DIRECT_LAGS: usize = 4;
+/// Lags computed directly (O(N) each) before [`LazyAcov`] switches to FFTs.
+const DIRECT_LAGS: usize = 24;
 /// First lag window of the segmented FFT (lags below this from blocks of this size).
 const SEGMENT_LAGS: usize = 256;
 
