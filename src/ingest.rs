@@ -156,7 +156,8 @@ fn fill<R: Read>(reader: &mut R, buf: &mut [u8]) -> io::Result<usize> {
     Ok(filled)
 }
 
-/// Parses complete lines on two threads (split at a line boundary) and merges in order.
+/// Parses complete lines on two threads (split at a line boundary, the first part about
+/// 44 % of the bytes) and merges in order.
 fn parse_two(
     lines: &[u8],
     options: &ParseOptions,
@@ -165,11 +166,14 @@ fn parse_two(
     second: &mut BlockResult,
     parallel_min: usize,
 ) {
+    // This thread parses the first part and then merges both, so it gets a little less
+    // than half: parse cost p and merge cost about 0.3·p per byte balance at 0.44.
+    let cut = lines.len() / 25 * 11;
     let mid = if lines.len() >= parallel_min.max(2) {
         lines
-            .get(lines.len() / 2..)
+            .get(cut..)
             .and_then(|r| memchr::memchr(b'\n', r))
-            .map(|i| lines.len() / 2 + i + 1)
+            .map(|i| cut + i + 1)
     } else {
         None
     };

@@ -11,7 +11,7 @@
 use super::layout::{
     header_column_count, is_space, trim, wide_header_column_count, Delimiter, Fields,
 };
-use super::number::{parse_field, Field};
+use super::number::{parse_field, parse_plain, Field};
 use super::ParseOptions;
 
 /// Longest field text kept for a skip reason.
@@ -221,14 +221,18 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         // anything else (D exponents, `****`, text) takes the slow path on the whole field.
         let mut rest = trim(payload);
         while !rest.is_empty() {
-            let (field, parsed, next) = match fast_float2::parse_partial::<f64, _>(rest) {
-                Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
-                    (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
-                }
-                _ => {
-                    let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
-                    let f = rest.get(..end).unwrap_or_default();
-                    (f, parse_field(f), end)
+            let (field, parsed, next) = if let Some((v, n)) = parse_plain(rest) {
+                (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+            } else {
+                match fast_float2::parse_partial::<f64, _>(rest) {
+                    Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
+                        (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+                    }
+                    _ => {
+                        let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
+                        let f = rest.get(..end).unwrap_or_default();
+                        (f, parse_field(f), end)
+                    }
                 }
             };
             if !take(out, parsed, fields) {
