@@ -614,7 +614,11 @@ impl LogWriter {
         // Formatting into a String cannot fail.
         let _ = match self.style {
             LogStyle::Whitespace | LogStyle::Tagged | LogStyle::Csv => {
-                let separator = if self.style == LogStyle::Csv { "," } else { " " };
+                let separator = if self.style == LogStyle::Csv {
+                    ","
+                } else {
+                    " "
+                };
                 if self.style == LogStyle::Tagged {
                     line.push_str("DATA ");
                 }

@@ -26,7 +26,7 @@ use super::finite;
 /// Normal-consistency constant of the MAD (METHODS §8).
 pub const MAD_SCALE: f64 = 1.4826;
 
-fn median_mut(v: &mut [f64]) -> Option<f64> {
+pub(crate) fn median_mut(v: &mut [f64]) -> Option<f64> {
     let n = v.len();
     if n == 0 {
         return None;

@@ -117,21 +117,6 @@ pub fn mann_kendall(x: &[f64]) -> Option<MannKendall> {
     })
 }
 
-fn median_in_place(v: &mut [f64]) -> Option<f64> {
-    let n = v.len();
-    if n == 0 {
-        return None;
-    }
-    let mid = n / 2;
-    let (lo, m, _) = v.select_nth_unstable_by(mid, f64::total_cmp);
-    let m = *m;
-    if n % 2 == 1 {
-        return Some(m);
-    }
-    let below = lo.iter().copied().max_by(f64::total_cmp)?;
-    Some(0.5 * (below + m))
-}
-
 /// Sen's slope: median of `(y_j − y_i)/(t_j − t_i)` over pairs with `t_j ≠ t_i` (as scipy
 /// `theilslopes`). `None` if lengths differ or no pair has distinct `t`. O(n²) time and
 /// memory — cap n.
@@ -148,7 +133,7 @@ pub fn sen_slope(t: &[f64], y: &[f64]) -> Option<f64> {
             }
         }
     }
-    median_in_place(&mut slopes).and_then(finite)
+    super::spikes::median_mut(&mut slopes).and_then(finite)
 }
 
 /// Sen's slope against the sample index (per sample).
