@@ -298,22 +298,7 @@ impl FileFollower {
             let arrival = self.clock.now();
             self.splitter.push(data, &mut self.pieces);
             for piece in self.pieces.drain(..) {
-                out.push(match piece {
-                    Piece::Lines {
-                        bytes,
-                        first_line,
-                        lines,
-                    } => FollowEvent::Data {
-                        bytes,
-                        first_line,
-                        lines,
-                        arrival,
-                    },
-                    Piece::Overlong { line } => FollowEvent::Error {
-                        path: self.path.clone(),
-                        message: format!("line {line} is too long; skipped"),
-                    },
-                });
+                out.push(piece.into_event(arrival, &self.path));
             }
         }
         if let Some(message) = error {

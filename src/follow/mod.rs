@@ -129,3 +129,25 @@ impl Default for FollowOptions {
         }
     }
 }
+
+impl Piece {
+    /// The event for a piece of input that arrived at `arrival` from `path`.
+    pub(crate) fn into_event(self, arrival: SystemTime, path: &std::path::Path) -> FollowEvent {
+        match self {
+            Piece::Lines {
+                bytes,
+                first_line,
+                lines,
+            } => FollowEvent::Data {
+                bytes,
+                first_line,
+                lines,
+                arrival,
+            },
+            Piece::Overlong { line } => FollowEvent::Error {
+                path: path.to_path_buf(),
+                message: format!("line {line} is too long; skipped"),
+            },
+        }
+    }
+}

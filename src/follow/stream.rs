@@ -1,7 +1,7 @@
 //! A source reading any `Read`: standard input, a pipe, a command's output.
 
 use std::io::{self, Read};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use super::lines::{LineSplitter, Piece};
@@ -78,22 +78,7 @@ impl<R: Read + Send> Source for ReaderSource<R> {
                 let data = self.buf.get(..n).unwrap_or_default();
                 self.splitter.push(data, &mut self.pieces);
                 for piece in self.pieces.drain(..) {
-                    out.push(match piece {
-                        Piece::Lines {
-                            bytes,
-                            first_line,
-                            lines,
-                        } => FollowEvent::Data {
-                            bytes,
-                            first_line,
-                            lines,
-                            arrival,
-                        },
-                        Piece::Overlong { line } => FollowEvent::Error {
-                            path: PathBuf::from(&self.label),
-                            message: format!("line {line} is too long; skipped"),
-                        },
-                    });
+                    out.push(piece.into_event(arrival, Path::new(&self.label)));
                 }
                 Step::More
             }
