@@ -70,6 +70,17 @@ impl Column {
         }
     }
 
+    /// Drops the first `rows` values (already consumed elsewhere); the counts of non-finite
+    /// and overflow fields keep counting them.
+    fn forget_front(&mut self, rows: usize) {
+        let rows = rows.min(self.values.len());
+        self.values.drain(..rows);
+        self.overflow_rows.retain(|&r| r >= rows);
+        for r in &mut self.overflow_rows {
+            *r -= rows;
+        }
+    }
+
     fn truncate(&mut self, rows: usize) {
         let mut removed_overflow = 0u64;
         while self.overflow_rows.last().is_some_and(|&r| r >= rows) {
@@ -154,6 +165,21 @@ impl Segment {
             c.truncate(rows);
         }
         self.lines.truncate(rows);
+    }
+
+    /// Forgets all but the last `keep` rows, for a consumer that has already used them
+    /// (`export --follow`), so that memory stays bounded on an endless run. A later restart
+    /// to a step before the kept rows replaces all kept rows; the forgotten ones are not
+    /// counted in its `rows_replaced`.
+    pub fn forget_all_but_last(&mut self, keep: usize) {
+        let drop = self.rows().saturating_sub(keep);
+        if drop == 0 {
+            return;
+        }
+        for c in &mut self.columns {
+            c.forget_front(drop);
+        }
+        self.lines.drain(..drop);
     }
 }
 
@@ -283,5 +309,37 @@ impl RunTable {
         if !self.warnings.contains(&message) {
             self.warnings.push(message);
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use crate::parse::{parse_bytes, ParseOptions};
+
+    #[test]
+    fn forgetting_keeps_the_last_rows_and_their_lines() {
+        let mut log = String::from("step temp\n");
+        for i in 0..100 {
+            let temp = if i == 95 {
+                "****".to_string()
+            } else {
+                format!("{}", 300 + i)
+            };
+            log.push_str(&format!("{i} {temp}\n"));
+        }
+        let mut table = parse_bytes(log.as_bytes(), ParseOptions::default());
+        let seg = &mut table.segments[0];
+        seg.forget_all_but_last(10);
+        assert_eq!(seg.rows(), 10);
+        assert_eq!(seg.lines.first(), Some(&92));
+        assert_eq!(seg.columns[1].values()[0], 390.0);
+        assert!(seg.columns[1].values()[5].is_nan());
+        // The overflow row index moved with the values: truncating before it recounts.
+        seg.truncate(5);
+        assert_eq!(seg.columns[1].overflow, 0);
+        assert_eq!(seg.rows(), 5);
+        // Keeping more rows than there are changes nothing.
+        seg.forget_all_but_last(50);
+        assert_eq!(seg.rows(), 5);
     }
 }

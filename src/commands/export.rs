@@ -278,9 +278,15 @@ impl Exporter {
             }
         }
         self.tell_skipped();
+        // Rows written are not needed again, except the last ones that a restart may
+        // replace: keep memory bounded on an endless run.
+        self.parser.forget_all_but_last(ROWS_KEPT_AFTER_WRITING);
         Ok(())
     }
 }
+
+/// Rows kept in memory after they were written (a restart usually goes back less far).
+const ROWS_KEPT_AFTER_WRITING: usize = 4096;
 
 fn separator(format: ExportFormat) -> char {
     if format == ExportFormat::Tsv {

@@ -197,6 +197,14 @@ impl LogParser {
         self.lines_done
     }
 
+    /// Forgets all but the last `keep` rows of every segment (see
+    /// [`Segment::forget_all_but_last`]): for consumers that stream rows out as they come.
+    pub fn forget_all_but_last(&mut self, keep: usize) {
+        for seg in &mut self.table.segments {
+            seg.forget_all_but_last(keep);
+        }
+    }
+
     /// Starts over with an empty table and the same options (a truncated or re-created
     /// file is read again from its start).
     pub fn reset(&mut self) {
