@@ -112,7 +112,9 @@ pub struct InputConfig {
     pub ensemble: Option<Ensemble>,
 }
 
-/// The whole settings file.
+/// The whole settings file. It repeats [`InputConfig`]'s keys instead of flattening it
+/// because serde's `flatten` cannot be combined with `deny_unknown_fields`, and rejecting
+/// unknown keys matters more here.
 #[derive(Debug, Clone, Default, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub struct FileConfig {

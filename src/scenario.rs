@@ -211,6 +211,23 @@ pub struct Frame {
     pub density: f64,
 }
 
+impl Frame {
+    /// The nine quantities after the step, in column order.
+    pub fn quantities(&self) -> [f64; 9] {
+        [
+            self.time_ps,
+            self.temperature,
+            self.pressure,
+            self.potential,
+            self.kinetic,
+            self.total,
+            self.conserved,
+            self.volume,
+            self.density,
+        ]
+    }
+}
+
 /// SplitMix64-seeded xoshiro256** generator with Box–Muller normals.
 /// (Blackman & Vigna, "Scrambled linear pseudorandom number generators", 2021.)
 #[derive(Debug, Clone)]
@@ -640,17 +657,7 @@ impl LogWriter {
             ),
             LogStyle::Fortran => {
                 let _ = write!(line, "{:>16}", frame.step);
-                for value in [
-                    frame.time_ps,
-                    frame.temperature,
-                    frame.pressure,
-                    frame.potential,
-                    frame.kinetic,
-                    frame.total,
-                    frame.conserved,
-                    frame.volume,
-                    frame.density,
-                ] {
+                for value in frame.quantities() {
                     push_fortran_field(line, value);
                 }
                 Ok(())
