@@ -122,7 +122,8 @@ fn whole(text: &[u8]) -> (Analyzer, RunAnalysis, plateau::table::RunTable) {
 
 #[test]
 fn a_long_blow_up_keeps_memory_bounded_and_the_same_alerts() {
-    // 30 000 rows, blowing up from row 21 000, two spikes before and after the first fold.
+    // Blowing up from row 21 000 (the log ends when values overflow), two spikes before
+    // and after the first fold.
     let mut text = log(Scenario::BlowUp, 30_000);
     text = with_spike(&text, 1_500, 390.0);
     text = with_spike(&text, 12_345, 395.0);
@@ -132,7 +133,7 @@ fn a_long_blow_up_keeps_memory_bounded_and_the_same_alerts() {
     let (batch, _, table) = whole(&text);
 
     assert_eq!(live.rows_seen, table.rows());
-    assert!(live.analyzer.rows_forgotten() > 20_000);
+    assert!(live.analyzer.rows_forgotten() > 15_000);
     // The table never holds more than the cap plus one piece of rows.
     assert!(live.max_rows <= keep + 100, "{} rows kept", live.max_rows);
     assert!(live.max_arrivals <= keep + 100);
@@ -140,7 +141,9 @@ fn a_long_blow_up_keeps_memory_bounded_and_the_same_alerts() {
     let expected = per_row(batch.engine().alerts());
     let got = per_row(live.analyzer.engine().alerts());
     assert!(
-        expected.iter().any(|a| a.0 == AlertKind::Spike && a.2 == Some(12_345)),
+        expected
+            .iter()
+            .any(|a| a.0 == AlertKind::Spike && a.2 == Some(12_345)),
         "{expected:?}"
     );
     assert!(expected.iter().any(|a| a.0 == AlertKind::Runaway));
@@ -196,8 +199,12 @@ fn folded_statistics_match_the_unfolded_ones() {
         };
         // Exact for the production part it reports: count, mean, std, min, max of the
         // rows from its first row, computed here from the raw column.
-        let raw = &seg.columns.iter().find(|c| c.spec.name == f.name).unwrap().values
-            [pf.first_row..];
+        let raw = &seg
+            .columns
+            .iter()
+            .find(|c| c.spec.name == f.name)
+            .unwrap()
+            .values[pf.first_row..];
         let m = plateau::stats::summarize(raw).unwrap();
         assert_eq!(pf.count, raw.len());
         assert!(rel(pf.mean, m.mean) < 1e-12, "{}", f.name);
@@ -218,7 +225,12 @@ fn folded_statistics_match_the_unfolded_ones() {
         let se = pu.sem_block.unwrap();
         assert!((pu.mean - pf.mean).abs() <= 3.0 * se, "{}", f.name);
         let ratio = |a: f64, b: f64| a.max(b) / a.min(b);
-        assert!(ratio(se, pf.sem_block.unwrap()) < 1.5, "{}: sem {se} vs {:?}", f.name, pf.sem_block);
+        assert!(
+            ratio(se, pf.sem_block.unwrap()) < 1.5,
+            "{}: sem {se} vs {:?}",
+            f.name,
+            pf.sem_block
+        );
         assert!(
             ratio(pu.inefficiency.unwrap(), pf.inefficiency.unwrap()) < 1.5,
             "{}: g {:?} vs {:?}",
@@ -275,5 +287,10 @@ fn folded_drift_matches_the_unfolded_fit() {
     );
     assert_eq!(du.significant, df.significant);
     let ratio = du.stderr_per_ns.max(df.stderr_per_ns) / du.stderr_per_ns.min(df.stderr_per_ns);
-    assert!(ratio < 2.0, "stderr {} vs {}", du.stderr_per_ns, df.stderr_per_ns);
+    assert!(
+        ratio < 2.0,
+        "stderr {} vs {}",
+        du.stderr_per_ns,
+        df.stderr_per_ns
+    );
 }

@@ -70,15 +70,32 @@ pub const APPROXIMATE_WHEN_FOLDED: [&str; 10] = [
 pub struct FoldingSummary {
     /// The cap: rows kept at full resolution.
     pub keep_rows: usize,
-    /// Rows of the analysed segment held only as block summaries (or dropped after the
-    /// statistics' end, see [`stats_end_row`](Self::stats_end_row)).
+    /// Rows of the analysed segment no longer kept at full resolution: held as block
+    /// summaries (rows after a blow-up are dropped, as the statistics stop there anyway).
     pub rows_folded: u64,
+    /// Rows forgotten from the table in all segments (earlier segments keep their last
+    /// rows only).
+    pub rows_forgotten: u64,
     /// Rows per folded block.
     pub block_rows: usize,
     /// First row (through the run) still kept at full resolution.
     pub full_resolution_from_row: u64,
     /// The names of the statistics that are approximate now.
     pub approximate: Vec<&'static str>,
+}
+
+impl FoldingSummary {
+    /// One sentence for the user.
+    pub fn describe(&self) -> String {
+        format!(
+            "memory cap of {} rows reached: rows before row {} are kept as block summaries of \
+             {} rows; count, mean, std, min and max stay exact, approximate from now on: {}",
+            self.keep_rows,
+            self.full_resolution_from_row,
+            self.block_rows,
+            self.approximate.join(", ")
+        )
+    }
 }
 
 /// The folded part of the analysed segment.
@@ -126,7 +143,6 @@ impl FoldState {
             kept_first_row,
         }
     }
-
 }
 
 /// Rows the per-row detectors need behind the newest row, whatever their cursors say.
@@ -465,9 +481,7 @@ impl Analyzer {
         let Some(seg) = table.segments.get(si) else {
             return empty_analysis(si + 1);
         };
-        let first_row: usize = (0..si)
-            .map(|j| self.segment_total_rows(table, j))
-            .sum();
+        let first_row: usize = (0..si).map(|j| self.segment_total_rows(table, j)).sum();
         let forgotten = self.forgotten_rows(si);
         let kept_stable = if f.closed {
             0
@@ -553,8 +567,8 @@ impl Analyzer {
                 };
                 let (total, kinetic, volume) =
                     (part(Role::Total), part(Role::Kinetic), part(Role::Volume));
-                stats::infer_ensemble(total.as_deref(), kinetic.as_deref(), volume.as_deref())
-                    .map(|g| EnsembleChoice {
+                stats::infer_ensemble(total.as_deref(), kinetic.as_deref(), volume.as_deref()).map(
+                    |g| EnsembleChoice {
                         ensemble: match g.ensemble {
                             stats::Ensemble::Nve => Ensemble::Nve,
                             stats::Ensemble::Nvt => Ensemble::Nvt,
@@ -562,7 +576,8 @@ impl Analyzer {
                         },
                         given: false,
                         reason: format!("{} (recent rows)", g.reason),
-                    })
+                    },
+                )
             }
         };
         let n_df = self.opts.degrees_of_freedom();
@@ -588,7 +603,12 @@ impl Analyzer {
             .columns
             .iter()
             .position(|c| c.spec.role == Some(Role::Time))
-            .and_then(|ti| Some(ColumnView::new(f.columns.get(ti)?, &kept_part(time_values(seg)?))));
+            .and_then(|ti| {
+                Some(ColumnView::new(
+                    f.columns.get(ti)?,
+                    &kept_part(time_values(seg)?),
+                ))
+            });
         if let (Some(role), Some(row), Some(tv)) = (drift_role, drift_from, &time_view) {
             if let Some(v) = view_of(role) {
                 let from = row / v.b;
@@ -626,7 +646,9 @@ impl Analyzer {
                 .column(Role::Temperature)
                 .map(|c| kept_part(c.values()))
                 .unwrap_or_default();
-            let recent = recent.get(kept_from(row).min(recent.len())..).unwrap_or_default();
+            let recent = recent
+                .get(kept_from(row).min(recent.len())..)
+                .unwrap_or_default();
             let band = self.opts.thresholds.fluctuation_band;
             let g = stats::temperature_fluctuation(recent, n_df, None, band).map(|x| x.g);
             if let Some(c) = columns
@@ -653,6 +675,7 @@ impl Analyzer {
             folding: Some(FoldingSummary {
                 keep_rows: self.folding.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
                 rows_folded: forgotten as u64,
+                rows_forgotten: self.rows_forgotten(),
                 block_rows,
                 full_resolution_from_row: (first_row + forgotten) as u64,
                 approximate: APPROXIMATE_WHEN_FOLDED.to_vec(),
@@ -729,4 +752,92 @@ fn fluctuation_from_moments(
         g,
         verdict,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A deterministic AR(1) series x_i = φ·x_{i−1} + u_i with uniform noise, plus a
+    /// relaxation at the start (an exponential decay over `relax` rows).
+    fn series(n: usize, phi: f64, relax: f64) -> Vec<f64> {
+        let mut state = 0x9E37_79B9_7F4A_7C15u64;
+        let mut x = 0.0;
+        (0..n)
+            .map(|i| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                x = phi * x + u;
+                let decay = if relax > 0.0 {
+                    5.0 * (-(i as f64) / relax).exp()
+                } else {
+                    0.0
+                };
+                100.0 + x + decay
+            })
+            .collect()
+    }
+
+    fn view(data: &[f64], folded_rows: usize, cap: usize) -> ColumnView {
+        let mut f = FoldedSeries::with_cap(cap);
+        f.fold_values(&data[..folded_rows]);
+        ColumnView::new(&f, &data[folded_rows..])
+    }
+
+    #[test]
+    fn with_blocks_of_one_row_the_folded_view_equals_the_unfolded_analysis() {
+        // Blocks of one row hold every value: onset, production and trend must be those of
+        // the plain functions on the raw rows (the folded code adds only the mapping).
+        let data = series(6_000, 0.8, 400.0);
+        let v = view(&data, 3_000, 1 << 16);
+        assert_eq!(v.b, 1);
+        let eq = stats::detect_equilibration(&data);
+        assert_eq!(v.onset().row(), eq.row());
+        let row = eq.row().unwrap();
+        let got = v.production(row).unwrap();
+        let want = super::super::production(&data, row).unwrap();
+        assert_eq!(got.first_row, want.first_row);
+        assert_eq!(got.count, want.count);
+        assert!((got.mean - want.mean).abs() < 1e-12 * want.mean.abs());
+        assert!((got.std.unwrap() / want.std.unwrap() - 1.0).abs() < 1e-9);
+        assert_eq!((got.min, got.max), (want.min, want.max));
+        assert!((got.sem_block.unwrap() / want.sem_block.unwrap() - 1.0).abs() < 1e-9);
+        assert!((got.inefficiency.unwrap() / want.inefficiency.unwrap() - 1.0).abs() < 1e-9);
+        assert_eq!(v.mser().map(|m| m.row), stats::mser5(&data).map(|m| m.row));
+    }
+
+    #[test]
+    fn inefficiency_from_blocks_matches_the_ar1_closed_form() {
+        // AR(1): g = (1 + φ)/(1 − φ) (textbook result, METHODS §0):
+        // φ = 0.9 gives g = 19. Folded into blocks of 64 rows and more, the block-means
+        // estimate b·s²_B·g_B/s² must find it within 15 %.
+        let data = series(400_000, 0.9, 0.0);
+        let v = view(&data, 390_000, 4_096);
+        assert!(v.b >= 64, "block length {}", v.b);
+        let g = v.inefficiency_from(0, None).unwrap();
+        assert!((g / 19.0 - 1.0).abs() < 0.15, "g = {g}");
+        // The mean and spread of everything stay exact.
+        let m = v.moments_from(0);
+        assert_eq!(m.count(), data.len() as u64);
+        assert!((m.mean().unwrap() / stats::mean(&data).unwrap() - 1.0).abs() < 1e-12);
+        assert!((m.variance().unwrap() / stats::variance(&data).unwrap() - 1.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn fluctuation_from_moments_equals_the_slice_test() {
+        // Same T series, same g: the band test from moments equals the one on the slice.
+        let temps: Vec<f64> = series(5_000, 0.5, 0.0)
+            .iter()
+            .map(|x| 200.0 + 3.0 * x)
+            .collect();
+        let want = stats::temperature_fluctuation(&temps, 8997.0, Some(2.0), 0.999).unwrap();
+        let got =
+            fluctuation_from_moments(&Moments::from_slice(&temps), 8997.0, 2.0, 0.999).unwrap();
+        assert!((got.observed / want.observed - 1.0).abs() < 1e-9);
+        assert!((got.low / want.low - 1.0).abs() < 1e-12);
+        assert!((got.high / want.high - 1.0).abs() < 1e-12);
+        assert_eq!(got.verdict, want.verdict);
+    }
 }

@@ -298,13 +298,5 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
 
 /// The sentence that tells the user a run's older rows are folded, if they are.
 pub fn folding_note(analysis: &RunAnalysis) -> Option<String> {
-    let f = analysis.folding.as_ref()?;
-    Some(format!(
-        "memory cap of {} rows reached: rows before row {} are kept as block summaries of {} \
-         rows; count, mean, std, min and max stay exact, approximate from now on: {}",
-        f.keep_rows,
-        f.full_resolution_from_row,
-        f.block_rows,
-        f.approximate.join(", ")
-    ))
+    analysis.folding.as_ref().map(|f| f.describe())
 }
