@@ -12,9 +12,10 @@
 //! What stays exact once folded (tested against the unfolded analysis):
 //! - row numbers and line numbers of alerts (rows are numbered through the run; the line of
 //!   a folded row is known at block starts, which is where folded onsets fall);
-//! - the per-row detectors (non-finite, spike, runaway, off-target): they only look at
-//!   recent rows, and enough are kept behind their cursors (Hampel window, the spike
-//!   context, the runaway baseline, the off-target window);
+//! - the per-row detectors (non-finite, spike, runaway): they only look at recent rows,
+//!   and enough are kept behind their cursors (Hampel window, the spike context, the
+//!   runaway baseline, the off-target window); the off-target detector also looks at
+//!   recent rows but starts at the run's onset with its `g`, which are approximate;
 //! - count, and for the production part from the reported first row: mean, std, min, max;
 //! - the block-averaging levels at or above the block length (Flyvbjerg–Petersen), hence
 //!   `sem` whenever the plateau lies at or above the block length.
@@ -309,7 +310,7 @@ pub(super) struct FoldedLocator<'a> {
 
 fn block_start(series: &FoldedSeries, row: usize, folded_rows: usize) -> Option<f64> {
     let b = series.block_len();
-    if row >= folded_rows || row % b != 0 {
+    if row >= folded_rows || !row.is_multiple_of(b) {
         return None;
     }
     match series.blocks().get(row / b) {
@@ -426,7 +427,7 @@ impl Analyzer {
                 // A multiple of the baseline step keeps the cached baseline's rows; any
                 // other drop (earlier segments, already scanned) recomputes it.
                 cursor.baseline = match cursor.baseline {
-                    Some((end, b)) if end >= drop && drop % RUNAWAY_BASELINE_STEP == 0 => {
+                    Some((end, b)) if end >= drop && drop.is_multiple_of(RUNAWAY_BASELINE_STEP) => {
                         Some((end - drop, b))
                     }
                     _ => None,
