@@ -107,8 +107,23 @@ struct FoldedSegment {
     lines: FoldedSeries,
     /// Rows folded into the summaries (the stable part before a blow-up).
     folded: usize,
-    /// The stable part ended inside the forgotten rows: later rows are forgotten unfolded.
-    closed: bool,
+    /// Rows (from the segment's start) known to be before any blow-up: the runaway check
+    /// starts after them, where its baseline is whole.
+    clean_until: usize,
+    /// Row (from the segment's start) where the statistics stop, once found: the first
+    /// non-finite value or runaway growth. Fixed once found (it depends on earlier rows
+    /// only), and rows after it are forgotten unfolded.
+    stable_end: Option<usize>,
+}
+
+impl FoldedSegment {
+    /// End of the stable part within the kept rows (`forgotten` rows before them).
+    fn stable_kept(&self, seg: &Segment, forgotten: usize, opts: &AnalysisOptions) -> usize {
+        match self.stable_end {
+            Some(end) => end.saturating_sub(forgotten),
+            None => stable_end(seg, opts, self.clean_until.saturating_sub(forgotten)),
+        }
+    }
 }
 
 /// Folding state of an [`Analyzer`].
@@ -159,8 +174,9 @@ fn detector_margin(opts: &AnalysisOptions) -> usize {
 }
 
 /// First row of `seg` (kept rows) where the statistics stop: the first non-finite value or
-/// runaway growth in any analysed column (as in the unfolded analysis).
-fn stable_end(seg: &Segment, opts: &AnalysisOptions) -> usize {
+/// runaway growth in any analysed column (as in the unfolded analysis), with the runaway
+/// check from row `clean` on (earlier rows were checked before, with their whole baseline).
+fn stable_end(seg: &Segment, opts: &AnalysisOptions, clean: usize) -> usize {
     let ropts = runaway_options(&opts.thresholds);
     seg.columns
         .iter()
@@ -169,7 +185,7 @@ fn stable_end(seg: &Segment, opts: &AnalysisOptions) -> usize {
             let v = c.values();
             let end = first_nonfinite(v);
             let mut cache = None;
-            runaway_flags(v, 0..end, &ropts, &mut cache, true)
+            runaway_flags(v, clean.min(end)..end, &ropts, &mut cache, true)
                 .first()
                 .map_or(end, |f| f.0)
         })
@@ -389,12 +405,20 @@ impl Analyzer {
                     .collect(),
                 lines: FoldedSeries::with_cap(blocks_cap),
                 folded: 0,
-                closed: false,
+                clean_until: 0,
+                stable_end: None,
             });
         }
+        let forgotten = state.forgotten.get(last).copied().unwrap_or(0);
         if let Some(f) = state.last.as_mut() {
-            if !f.closed {
-                let stable = stable_end(seg, &self.opts);
+            let stable = f.stable_kept(seg, forgotten, &self.opts);
+            if stable < rows {
+                f.stable_end = Some(forgotten + stable);
+            } else {
+                f.clean_until = forgotten + rows;
+            }
+            // Only while every forgotten row was folded (no blow-up among them).
+            if f.folded == forgotten {
                 let n = fold.min(stable);
                 for (series, column) in f.columns.iter_mut().zip(&seg.columns) {
                     series.fold_values(column.values().get(..n).unwrap_or_default());
@@ -402,7 +426,6 @@ impl Analyzer {
                 let lines: Vec<f64> = seg.lines.iter().take(n).map(|&l| l as f64).collect();
                 f.lines.fold_values(&lines);
                 f.folded += n;
-                f.closed = stable < fold;
             }
         }
         state.keep_rows = Some(keep_rows);
@@ -484,11 +507,7 @@ impl Analyzer {
         };
         let first_row: usize = (0..si).map(|j| self.segment_total_rows(table, j)).sum();
         let forgotten = self.forgotten_rows(si);
-        let kept_stable = if f.closed {
-            0
-        } else {
-            stable_end(seg, &self.opts)
-        };
+        let kept_stable = f.stable_kept(seg, forgotten, &self.opts);
         let kept_part = |values: &'_ [f64]| -> Vec<f64> {
             let end = first_nonfinite(values).min(kept_stable);
             values.get(..end).unwrap_or_default().to_vec()
