@@ -88,6 +88,8 @@ fn follow(text: &[u8], chunk: usize, keep_rows: usize) -> Followed {
     let mut clock = 0.0;
     for piece in text.chunks(chunk) {
         parser.feed(piece);
+        // As the follow loop does: a restart cut rows, their arrivals go too.
+        arrivals.truncate(parser.table().rows());
         while arrivals.len() < parser.table().rows() {
             clock += 1.0;
             arrivals.push(clock);
@@ -293,4 +295,81 @@ fn folded_drift_matches_the_unfolded_fit() {
         du.stderr_per_ns,
         df.stderr_per_ns
     );
+}
+
+/// Drops the last column of every line (header and rows): a log with other columns.
+fn without_last_column(text: &[u8]) -> Vec<u8> {
+    let s = String::from_utf8(text.to_vec()).unwrap();
+    let mut out = String::new();
+    for line in s.lines() {
+        let fields: Vec<&str> = line.split_whitespace().collect();
+        if line.starts_with("# step") {
+            out.push_str(&fields[..fields.len() - 1].join(" "));
+        } else if line.starts_with('#') {
+            out.push_str(line);
+        } else {
+            out.push_str(&fields[..fields.len() - 1].join(" "));
+        }
+        out.push('\n');
+    }
+    out.into_bytes()
+}
+
+/// A header with other columns after the first segment was folded: the second segment's
+/// rows are numbered after every row of the first, and its alerts carry the same rows and
+/// lines as unfolded.
+#[test]
+fn a_new_segment_after_folding_keeps_rows_and_lines() {
+    let mut text = log(Scenario::Equilibration, 9_000);
+    let second = with_spike(
+        &without_last_column(&log(Scenario::Equilibration, 7_000)),
+        5_500,
+        430.0,
+    );
+    text.extend_from_slice(&second);
+    let live = follow(&text, 8192, MIN_KEEP_ROWS);
+    let (batch, full, table) = whole(&text);
+    assert_eq!(table.segments.len(), 2);
+    assert!(live.analyzer.rows_forgotten() > 10_000);
+    let expected = per_row(batch.engine().alerts());
+    assert!(
+        expected
+            .iter()
+            .any(|a| a.0 == AlertKind::Spike && a.2 == Some(9_000 + 5_500)),
+        "{expected:?}"
+    );
+    assert_eq!(per_row(live.analyzer.engine().alerts()), expected);
+    assert_eq!(live.analysis.first_row, full.first_row);
+    assert_eq!(live.analysis.segment, 1);
+    assert_eq!(live.rows_seen, table.rows());
+}
+
+/// A restart (the step counter goes back 200 rows) after folding: the restart alert and
+/// later per-row alerts have the same rows and lines as unfolded.
+#[test]
+fn a_restart_into_the_kept_rows_after_folding() {
+    let full_log = String::from_utf8(log(Scenario::Equilibration, 12_000)).unwrap();
+    let lines: Vec<&str> = full_log.lines().collect();
+    let header = 3; // comment lines before the first row
+    let mut text = String::new();
+    for l in &lines[..header + 8_000] {
+        text.push_str(l);
+        text.push('\n');
+    }
+    for l in &lines[header + 7_800..] {
+        text.push_str(l);
+        text.push('\n');
+    }
+    let text = with_spike(text.as_bytes(), 8_000 + 2_000, 425.0);
+    let live = follow(&text, 4096, MIN_KEEP_ROWS);
+    let (batch, _, _) = whole(&text);
+    let expected = per_row(batch.engine().alerts());
+    assert!(
+        expected
+            .iter()
+            .any(|a| a.0 == AlertKind::Restart && a.2 == Some(7_800)),
+        "{expected:?}"
+    );
+    assert!(live.analyzer.rows_forgotten() > 5_000);
+    assert_eq!(per_row(live.analyzer.engine().alerts()), expected);
 }
