@@ -5,7 +5,9 @@
 //! ```sh
 //! cargo run --release --example follow_memory -- LOG [KEEP_ROWS]
 //! ```
-//! KEEP_ROWS 0: never fold (the unbounded reference).
+//! KEEP_ROWS 0: never fold (the unbounded reference). With `--compare` after KEEP_ROWS, the
+//! whole file is also analysed unfolded and the production statistics are printed side by
+//! side (folded / unfolded).
 
 use std::io::Read;
 
@@ -73,5 +75,36 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         println!("{}", f.describe());
     }
     println!("peak memory: {} KiB", peak_kib().unwrap_or(0));
+    if args.next().as_deref() == Some("--compare") {
+        let whole = plateau::parse::parse_bytes(&std::fs::read(&path)?, ParseOptions::default());
+        let reference = Analyzer::new(AnalysisOptions::default()).update(&whole, true, None, false);
+        println!(
+            "column: onset | mean | std | sem | sem_from_g | g | drift/ns (folded / unfolded)"
+        );
+        for (f, u) in analysis.columns.iter().zip(&reference.columns) {
+            let (Some(pf), Some(pu)) = (&f.production, &u.production) else {
+                continue;
+            };
+            let o = |x: Option<f64>| x.map_or("-".to_string(), |v| format!("{v:.4e}"));
+            println!(
+                "{}: {} / {} | {:.6e} / {:.6e} | {} / {} | {} / {} | {} / {} | {} / {} | {} / {}",
+                f.name,
+                pf.first_row,
+                pu.first_row,
+                pf.mean,
+                pu.mean,
+                o(pf.std),
+                o(pu.std),
+                o(pf.sem_block),
+                o(pu.sem_block),
+                o(pf.sem_from_g),
+                o(pu.sem_from_g),
+                o(pf.inefficiency),
+                o(pu.inefficiency),
+                o(f.drift.as_ref().map(|d| d.slope_per_ns)),
+                o(u.drift.as_ref().map(|d| d.slope_per_ns)),
+            );
+        }
+    }
     Ok(())
 }
