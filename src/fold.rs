@@ -25,9 +25,10 @@
 use crate::stats::Moments;
 
 /// Rows kept at full resolution per followed run unless `--keep-rows` or `keep-rows` says
-/// otherwise. 100 runs of 10 columns followed at once on a shared login node then hold
-/// about 100 × 11 × 8 B × 10 000 ≈ 90 MB of values (plus the blocks, 14 % more); runs
-/// shorter than this are never folded.
+/// otherwise. 100 runs of 10 columns followed at once on a shared login node then hold at
+/// most 100 × 11 series × (8 B × 10 000 rows + 40 B × 1 250 blocks) ≈ 140 MB (the rows'
+/// line numbers count as a series), about what 13 000 rows a run would take unfolded;
+/// runs shorter than the cap are never folded and stay exact.
 pub const DEFAULT_KEEP_ROWS: usize = 10_000;
 
 /// The smallest cap accepted: the per-row detectors need about a thousand rows behind
