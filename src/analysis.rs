@@ -38,6 +38,10 @@ use crate::stats::{
 };
 use crate::table::{RunTable, Segment};
 
+mod folded;
+pub use crate::fold::{DEFAULT_KEEP_ROWS, MIN_KEEP_ROWS};
+pub use folded::{FoldingSummary, APPROXIMATE_WHEN_FOLDED};
+
 /// Confidence of the drift interval.
 pub const DRIFT_CONFIDENCE: f64 = 0.95;
 /// Trend test: p-value below which a quantity is "still changing" (1 %, common practice,
@@ -184,6 +188,8 @@ pub struct RunAnalysis {
     pub degrees_of_freedom: Option<f64>,
     pub progress: Progress,
     pub status: RunStatus,
+    /// Set when older rows were folded into block summaries (bounded memory).
+    pub folding: Option<FoldingSummary>,
 }
 
 /// Row locator over a table: rows numbered through the run.
@@ -256,6 +262,8 @@ pub struct Analyzer {
     evaluation: u64,
     cached: Option<RunAnalysis>,
     skipped_seen: u64,
+    /// Rows forgotten and folded (bounded memory while following).
+    folding: folded::FoldState,
 }
 
 impl Analyzer {
@@ -273,6 +281,7 @@ impl Analyzer {
             evaluation: 0,
             cached: None,
             skipped_seen: 0,
+            folding: folded::FoldState::default(),
         }
     }
 
@@ -309,17 +318,17 @@ impl Analyzer {
         let due = match (last, self.full_at) {
             (None, _) => false,
             (Some(s), Some((seg, rows))) if s == seg => {
-                let now = table.segments.get(s).map_or(0, Segment::rows);
+                let now = self.segment_total_rows(table, s);
                 (finished && now != rows)
-                    || now >= rows.saturating_add((rows / 10).max(50))
+                    || now >= rows.saturating_add(self.recompute_step(rows))
                     || now < rows
             }
             _ => true,
         };
         if due || self.cached.is_none() {
             if let Some(s) = last {
-                let rows = table.segments.get(s).map_or(0, Segment::rows);
-                self.cached = Some(self.full(table, s));
+                let rows = self.segment_total_rows(table, s);
+                self.cached = Some(self.full_view(table, s));
                 self.full_at = Some((s, rows));
                 self.evaluation += 1;
                 self.evaluate_summaries(table, s);
@@ -329,6 +338,7 @@ impl Analyzer {
         // Per-row detectors on every segment's new rows.
         let mut offset = 0usize;
         for (si, seg) in table.segments.iter().enumerate() {
+            offset += self.forgotten_rows(si);
             self.scan_segment(table, si, seg, offset, finished);
             offset += seg.rows();
         }
@@ -336,7 +346,7 @@ impl Analyzer {
         // Skipped lines.
         if table.skipped_count != self.skipped_seen {
             self.skipped_seen = table.skipped_count;
-            let data_lines = table.rows() as u64 + table.skipped_count;
+            let data_lines = table.rows() as u64 + self.rows_forgotten() + table.skipped_count;
             let first = table.skipped.first().map(|s| s.line);
             self.engine
                 .evaluate_skipped(table.skipped_count, data_lines, first);
@@ -670,6 +680,7 @@ impl Analyzer {
             degrees_of_freedom: n_df,
             progress: Progress::default(),
             status: RunStatus::Settling,
+            folding: None,
         }
     }
 
@@ -681,7 +692,7 @@ impl Analyzer {
         let Some(seg) = table.segments.get(si) else {
             return;
         };
-        let loc = TableLocator::new(seg, a.first_row);
+        let loc = self.folding.locator(seg, si, a.first_row);
         let index = self.evaluation;
         for c in &a.columns {
             if let Some(d) = &c.drift {
@@ -757,7 +768,10 @@ impl Analyzer {
             .iter()
             .filter(|c| has_statistics(c.spec.role))
             .count();
-        let context_sigmas = spike_threshold(t.spike_sigmas, n.saturating_mul(analysed));
+        let context_sigmas = spike_threshold(
+            t.spike_sigmas,
+            (n + self.forgotten_rows(si)).saturating_mul(analysed),
+        );
         for (ci, col) in seg.columns.iter().enumerate() {
             let name = col.spec.name.as_str();
             let unit = col.spec.unit.map(|u| u.to_string()).unwrap_or_default();
@@ -866,7 +880,7 @@ impl Analyzer {
                 target: &target,
                 tolerance,
                 inefficiency: g,
-                start_row,
+                start_row: start_row.saturating_sub(self.forgotten_rows(si)),
                 row_offset: offset,
             };
             self.engine.scan_off_target(&input, start..n, &loc);
@@ -1079,6 +1093,7 @@ fn empty_analysis(nseg: usize) -> RunAnalysis {
         degrees_of_freedom: None,
         progress: Progress::default(),
         status: RunStatus::Settling,
+        folding: None,
     }
 }
 

@@ -13,6 +13,7 @@
 //! dof = 8997
 //! ensemble = "nvt"              # nve | nvt | npt
 //! layout = "chatty"             # layout used when --layout is not given
+//! keep-rows = 10000             # check --follow: rows kept at full resolution per run
 //!
 //! [layouts.chatty]              # any name; pick with --layout chatty
 //! row-tag = "THERMO"
@@ -143,6 +144,9 @@ pub struct FileConfig {
     pub ensemble: Option<Ensemble>,
     /// `[alerts]`: alert thresholds (same keys as `--threshold`; unknown keys rejected).
     pub alerts: Option<crate::alert::Thresholds>,
+    /// `--keep-rows` of `check --follow`: rows kept at full resolution per run (top level
+    /// only: a cap on memory, not a property of a log's layout).
+    pub keep_rows: Option<usize>,
 }
 
 impl FileConfig {
@@ -202,6 +206,9 @@ pub struct Settings {
     pub alerts: crate::alert::Thresholds,
     /// The row tag was guessed from the start of the log (no `--row-tag` given).
     pub row_tag_guessed: bool,
+    /// `keep-rows` from the settings file (at least [`crate::fold::MIN_KEEP_ROWS`]); the
+    /// command line's `--keep-rows` is applied by `check`.
+    pub keep_rows: Option<usize>,
 }
 
 impl Settings {
@@ -268,8 +275,16 @@ impl Settings {
             config_file: path.map(Path::to_path_buf),
             layout: layout_used,
             alerts: file.and_then(|f| f.alerts.clone()).unwrap_or_default(),
+            keep_rows: file.and_then(|f| f.keep_rows),
             ..Settings::default()
         };
+        if let Some(n) = s.keep_rows {
+            check_keep_rows(n).map_err(|message| ConfigError::Value {
+                origin: origin.clone(),
+                key: "keep-rows".into(),
+                message,
+            })?;
+        }
         let mut maps: Vec<MapRequest> = Vec::new();
         for (origin, level) in &levels {
             if let Some(list) = &level.map {
@@ -358,6 +373,19 @@ impl Settings {
             .iter()
             .map(|s| s.to_string())
             .collect()
+    }
+}
+
+/// A cap on the rows kept at full resolution: at least [`crate::fold::MIN_KEEP_ROWS`].
+pub fn check_keep_rows(n: usize) -> Result<usize, String> {
+    if n >= crate::fold::MIN_KEEP_ROWS {
+        Ok(n)
+    } else {
+        Err(format!(
+            "{n} rows is too few to keep: at least {} (the alert detectors look back about a \
+             thousand rows)",
+            crate::fold::MIN_KEEP_ROWS
+        ))
     }
 }
 

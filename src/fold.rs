@@ -24,6 +24,17 @@
 
 use crate::stats::Moments;
 
+/// Rows kept at full resolution per followed run unless `--keep-rows` or `keep-rows` says
+/// otherwise. 100 runs of 10 columns followed at once on a shared login node then hold at
+/// most 100 × 11 series × (8 B × 10 000 rows + 40 B × 1 250 blocks) ≈ 140 MB (the rows'
+/// line numbers count as a series), about what 13 000 rows a run would take unfolded;
+/// runs shorter than the cap are never folded and stay exact.
+pub const DEFAULT_KEEP_ROWS: usize = 10_000;
+
+/// The smallest cap accepted: the per-row detectors need about a thousand rows behind
+/// their cursors (spike context, runaway baseline, windows) and folding takes half.
+pub const MIN_KEEP_ROWS: usize = 2_000;
+
 /// The smallest cap accepted (so that the folded blocks always have a tail to compare with).
 pub const MIN_CAP: usize = 64;
 
@@ -148,17 +159,62 @@ impl FoldedSeries {
         out
     }
 
-    /// Moves the oldest values, beyond half the cap, into blocks; merges neighbouring block
-    /// pairs while there are more than `cap / 4` blocks.
-    fn fold(&mut self) {
-        let to_fold = self.recent.len().saturating_sub(self.cap / 2);
-        for &value in self.recent.get(..to_fold).unwrap_or_default() {
+    /// Folds `values` straight into blocks, as the rows that follow everything pushed so
+    /// far: for a caller that keeps the recent rows itself (the follow loop keeps them in
+    /// its table). Only valid while [`recent`](Self::recent) is empty (nothing was pushed
+    /// with [`push`](Self::push)); otherwise the values are pushed. Amortised O(1) a value.
+    pub fn fold_values(&mut self, values: &[f64]) {
+        if !self.recent.is_empty() {
+            self.extend(values);
+            return;
+        }
+        self.fold_into_blocks(values);
+        self.merge_blocks();
+    }
+
+    /// The folded rows that do not make a whole block yet.
+    pub fn partial(&self) -> &Moments {
+        &self.partial
+    }
+
+    /// Moments of consecutive blocks of `block_len()` rows over the whole series followed
+    /// by `tail` (rows that come after everything pushed or folded), aligned at row 0,
+    /// with the rows of the incomplete last block returned apart. The block moments equal
+    /// those of the same blocks of the unfolded series (up to rounding).
+    pub fn blocks_with_tail(&self, tail: &[f64]) -> (Vec<Moments>, Moments) {
+        let mut blocks = self.blocks.clone();
+        let mut current = self.partial;
+        for &v in self.recent.iter().chain(tail) {
+            current.push(v);
+            if current.count() as usize == self.block_len {
+                blocks.push(std::mem::take(&mut current));
+            }
+        }
+        (blocks, current)
+    }
+
+    fn fold_into_blocks(&mut self, values: &[f64]) {
+        for &value in values {
             self.partial.push(value);
             if self.partial.count() as usize == self.block_len {
                 self.blocks.push(std::mem::take(&mut self.partial));
             }
         }
-        self.recent.drain(..to_fold);
+    }
+
+    /// Moves the oldest values, beyond half the cap, into blocks; merges neighbouring block
+    /// pairs while there are more than `cap / 4` blocks.
+    fn fold(&mut self) {
+        let to_fold = self.recent.len().saturating_sub(self.cap / 2);
+        let mut recent = std::mem::take(&mut self.recent);
+        self.fold_into_blocks(recent.get(..to_fold).unwrap_or_default());
+        recent.drain(..to_fold);
+        self.recent = recent;
+        self.merge_blocks();
+    }
+
+    /// Merges neighbouring block pairs while there are more than `cap / 4` blocks.
+    fn merge_blocks(&mut self) {
         while self.blocks.len() > self.cap / 4 {
             // With an odd count the last block and the rows after it become the new block
             // being filled, so every whole block keeps the same length and alignment.
@@ -305,6 +361,33 @@ mod tests {
         assert_eq!(s.recent(), &[1.0, 2.0, 3.0]);
         assert_eq!(s.block_means(), vec![1.0, 2.0, 3.0]);
         assert!(FoldedSeries::with_cap(10).is_empty());
+    }
+
+    #[test]
+    fn folding_values_directly_equals_pushing_them() {
+        // The same rows folded straight into blocks (recent rows kept elsewhere) give the
+        // same blocks as the unfolded series: compare with plain chunk means and moments.
+        let data = series(30_000);
+        let mut s = FoldedSeries::with_cap(400);
+        for piece in data[..20_000].chunks(700) {
+            s.fold_values(piece);
+        }
+        assert!(s.recent().is_empty());
+        assert_eq!(s.len(), 20_000);
+        assert!(s.blocks().len() <= 100);
+        let tail = &data[20_000..];
+        let b = s.block_len();
+        let (blocks, rest) = s.blocks_with_tail(tail);
+        let expected: Vec<&[f64]> = data.chunks_exact(b).collect();
+        assert_eq!(blocks.len(), expected.len());
+        for (got, chunk) in blocks.iter().zip(&expected) {
+            assert!(close(got.mean().unwrap(), mean(chunk).unwrap(), 1e-12));
+            assert_eq!((got.min(), got.max()), {
+                let (lo, hi) = min_max(chunk).unwrap();
+                (Some(lo), Some(hi))
+            });
+        }
+        assert_eq!(rest.count() as usize, data.len() % b);
     }
 
     proptest::proptest! {

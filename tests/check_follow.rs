@@ -156,3 +156,80 @@ fn rows_appended_later_raise_alerts_while_following() {
     let after = std::fs::read_to_string(&path).unwrap();
     assert_eq!(after.lines().count(), 401);
 }
+
+/// A long run on standard input with a small `--keep-rows`: the same alert lines as
+/// without the cap, and the user is told that older rows were folded (stderr).
+#[test]
+fn keep_rows_folds_a_long_run_and_says_so() {
+    use plateau::scenario::{write_log, LogStyle, Scenario, ScenarioSpec};
+    let spec = ScenarioSpec::new(Scenario::BlowUp, LogStyle::Whitespace, 12_000);
+    let mut text = Vec::new();
+    write_log(&spec, &mut text).unwrap();
+    let run = |extra: &[&str]| {
+        Command::cargo_bin("plateau")
+            .unwrap()
+            .args(["check", "--follow"])
+            .args(extra)
+            .arg("-")
+            .write_stdin(text.clone())
+            .timeout(Duration::from_secs(300))
+            .output()
+            .unwrap()
+    };
+    let capped = run(&["--keep-rows", "2000"]);
+    let plain = run(&[]);
+    assert_eq!(capped.status.code(), Some(1));
+    let per_row = |out: &std::process::Output| -> Vec<String> {
+        String::from_utf8_lossy(&out.stdout)
+            .lines()
+            .filter(|l| {
+                l.contains(" nonfinite ") || l.contains(" runaway ") || l.contains(" spike ")
+            })
+            .map(String::from)
+            .collect()
+    };
+    assert!(!per_row(&plain).is_empty());
+    assert_eq!(per_row(&capped), per_row(&plain));
+    let err = String::from_utf8_lossy(&capped.stderr);
+    assert!(err.contains("memory cap of 2000 rows reached"), "{err}");
+    assert!(
+        err.contains("approximate from now on: equilibration"),
+        "{err}"
+    );
+    assert!(!String::from_utf8_lossy(&plain.stderr).contains("memory cap"));
+    // Both count every row of the run in the final status line.
+    let rows = |out: &std::process::Output| {
+        String::from_utf8_lossy(&out.stderr)
+            .lines()
+            .find(|l| l.starts_with("-: ") && l.contains(" rows, "))
+            .map(|l| {
+                l.split(" rows, ")
+                    .next()
+                    .unwrap()
+                    .rsplit('(')
+                    .next()
+                    .unwrap()
+                    .to_string()
+            })
+    };
+    assert_eq!(rows(&capped), rows(&plain));
+}
+
+#[test]
+fn keep_rows_is_checked() {
+    Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "--keep-rows", "10", "-"])
+        .write_stdin("")
+        .timeout(Duration::from_secs(60))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--keep-rows"));
+    Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--keep-rows", "5000"])
+        .arg(fixture("healthy.log"))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--keep-rows needs --follow"));
+}

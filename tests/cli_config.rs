@@ -131,6 +131,16 @@ fn plateau_toml_in_the_current_folder_is_used() {
 }
 
 #[test]
+fn keep_rows_key() {
+    let s = settings(&dir("configs_valid/keep_rows.toml")).unwrap();
+    assert_eq!(s.keep_rows, Some(50_000));
+    let s = settings(&dir("configs_valid/full.toml")).unwrap();
+    assert_eq!(s.keep_rows, None);
+    let e = settings(&dir("configs_invalid/too_few_keep_rows.toml")).unwrap_err();
+    assert!(e.contains("at least 2000"), "{e}");
+}
+
+#[test]
 fn sample_file_parses() {
     let text = "map = [\"temperature=Temp\"]\n[layouts.a]\nrow-tag = \"T\"\n";
     let f = FileConfig::parse(text, Path::new("plateau.toml")).unwrap();

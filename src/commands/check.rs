@@ -105,6 +105,11 @@ pub struct CheckArgs {
     /// the `--pid` process exits, or at the end of standard input.
     #[arg(long)]
     pub follow: bool,
+    /// With `--follow`: rows kept at full resolution per run (default 10000, at least
+    /// 2000). Older rows are folded into block summaries so memory stays bounded on endless
+    /// runs; the statistics that become approximate are then named.
+    #[arg(long, value_name = "N")]
+    pub keep_rows: Option<usize>,
     /// With `--follow`: stop when this process exits.
     #[arg(long, value_name = "PID")]
     pub pid: Option<u32>,
@@ -353,6 +358,9 @@ fn check_file(
 pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     if args.pid.is_some() && !args.follow {
         return Err(Error::Usage("--pid needs --follow".to_string()));
+    }
+    if args.keep_rows.is_some() && !args.follow {
+        return Err(Error::Usage("--keep-rows needs --follow".to_string()));
     }
     if args.follow {
         return follow::follow_run(args, out);

@@ -161,7 +161,7 @@ pub fn build_report(
             lines: table.lines,
             last_line_ignored: table.partial_line.is_some(),
         },
-        rows: table.rows() as u64,
+        rows: table.rows() as u64 + analysis.folding.as_ref().map_or(0, |f| f.rows_forgotten),
         skipped_lines: table.skipped_count,
         skipped: table
             .skipped
@@ -210,5 +210,12 @@ pub fn build_report(
             _ => None,
         },
         alerts: alerts.iter().map(AlertRecord::from).collect(),
+        folding: analysis.folding.as_ref().map(|f| Folding {
+            keep_rows: f.keep_rows as u64,
+            rows_folded: f.rows_folded,
+            block_rows: f.block_rows as u64,
+            full_resolution_from_row: f.full_resolution_from_row,
+            approximate: f.approximate.iter().map(|s| s.to_string()).collect(),
+        }),
     }
 }

@@ -57,6 +57,25 @@ pub struct Report {
     /// Wall time until the standard error of `--precision-column` reaches `--target-sem`.
     pub precision_eta: Option<PrecisionEta>,
     pub alerts: Vec<AlertRecord>,
+    /// Set when older rows were folded into block summaries to bound memory (following
+    /// with `--keep-rows`); null otherwise.
+    #[serde(default)]
+    pub folding: Option<Folding>,
+}
+
+/// Older rows folded into block summaries: which statistics are approximate, from where.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Folding {
+    /// The cap: rows kept at full resolution.
+    pub keep_rows: u64,
+    /// Rows of the analysed segment held only as block summaries.
+    pub rows_folded: u64,
+    /// Rows per block summary.
+    pub block_rows: u64,
+    /// First row (through the run) still kept at full resolution.
+    pub full_resolution_from_row: u64,
+    /// JSON names of the statistics that are approximate (the others stay exact).
+    pub approximate: Vec<String>,
 }
 
 /// The file that was read.

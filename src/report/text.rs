@@ -203,6 +203,16 @@ fn header_lines(r: &Report) -> Vec<String> {
             replaced
         ));
     }
+    if let Some(f) = &r.folding {
+        lines.push(format!(
+            "memory cap: {} rows at full resolution; rows before row {} folded into blocks of \
+             {} rows; approximate: {}",
+            f.keep_rows,
+            f.full_resolution_from_row,
+            f.block_rows,
+            f.approximate.join(", ")
+        ));
+    }
     if r.source.last_line_ignored {
         lines.push(
             "the last line has no newline and was ignored (it may be a row cut in half)"

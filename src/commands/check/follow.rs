@@ -10,6 +10,12 @@
 //!
 //! and then the remaining rows are judged as a finished file would be. The exit code is the
 //! same as without `--follow`.
+//!
+//! Memory stays bounded on endless runs: past `--keep-rows` rows (`keep-rows` in
+//! plateau.toml, default [`DEFAULT_KEEP_ROWS`]) the oldest rows are folded into block
+//! summaries by the analyser and forgotten from the table and from the arrival times
+//! (see `analysis::folded`); the user is told once, on standard error, from which row
+//! and which statistics are approximate since.
 
 use std::collections::BTreeMap;
 use std::io::Write;
@@ -18,7 +24,7 @@ use std::sync::mpsc::RecvTimeoutError;
 use std::sync::Arc;
 use std::time::{Duration, SystemTime, UNIX_EPOCH};
 
-use crate::analysis::Analyzer;
+use crate::analysis::{Analyzer, RunAnalysis, DEFAULT_KEEP_ROWS};
 use crate::config::Settings;
 use crate::error::Error;
 use crate::follow::{FollowEvent, FollowOptions, FollowSet, SourceId, SystemClock};
@@ -38,6 +44,10 @@ struct Run {
     analyzer: Analyzer,
     /// Arrival second (Unix epoch) of each row of the table.
     arrivals: Vec<f64>,
+    /// Rows kept at full resolution before older rows are folded.
+    keep_rows: usize,
+    /// The user was told that rows are folded.
+    fold_told: bool,
     emitted: usize,
     dirty: bool,
     ended: bool,
@@ -93,6 +103,26 @@ impl Run {
         Ok(())
     }
 
+    fn bound_memory(&mut self) {
+        bound_memory(
+            &mut self.parser,
+            &mut self.analyzer,
+            &mut self.arrivals,
+            self.keep_rows,
+        );
+    }
+
+    /// Tells the user once that older rows are folded (standard error).
+    fn tell_folding(&mut self, analysis: &RunAnalysis) {
+        if self.fold_told {
+            return;
+        }
+        if let Some(line) = folding_note(analysis) {
+            self.fold_told = true;
+            eprintln!("{}: {line}", self.label);
+        }
+    }
+
     fn track_rows(&mut self, arrival: f64) {
         let rows = self.parser.table().rows();
         if self.arrivals.len() > rows {
@@ -104,12 +134,43 @@ impl Run {
     }
 }
 
+/// Folds and forgets the oldest rows once the last segment holds more than `keep_rows`
+/// (rows already seen by the per-row detectors; see [`Analyzer::fold_past`]), with their
+/// arrival times (`arrivals` holds one per row of the table, segment by segment). Call it
+/// after `Analyzer::update`. Returns whether rows were forgotten.
+pub fn bound_memory(
+    parser: &mut LogParser,
+    analyzer: &mut Analyzer,
+    arrivals: &mut Vec<f64>,
+    keep_rows: usize,
+) -> bool {
+    let Some(keep) = analyzer.fold_past(parser.table(), keep_rows) else {
+        return false;
+    };
+    let mut kept = Vec::with_capacity(arrivals.len().min(parser.table().rows()));
+    let mut start = 0usize;
+    for seg in &parser.table().segments {
+        let rows = seg.rows();
+        let drop = rows.saturating_sub(keep);
+        kept.extend_from_slice(arrivals.get(start + drop..start + rows).unwrap_or_default());
+        start += rows;
+    }
+    *arrivals = kept;
+    parser.forget_all_but_last(keep);
+    true
+}
+
 /// Runs `plateau check --follow`.
 pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let cwd = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let settings = Settings::resolve(&args.input, &cwd)?;
     let opts = analysis_options(&settings, &args.alerts)?;
     let until = args.alerts.until.as_deref().map(parse_until).transpose()?;
+    let keep_rows = match args.keep_rows {
+        Some(n) => crate::config::check_keep_rows(n)
+            .map_err(|e| Error::Usage(format!("--keep-rows: {e}")))?,
+        None => settings.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
+    };
     let mut sinks = Sinks::new(args)?;
     let (mut set, rx) = FollowSet::start(FollowOptions::default(), Arc::new(SystemClock))
         .map_err(|e| Error::Usage(format!("cannot start following: {e}")))?;
@@ -136,6 +197,8 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 parser: LogParser::new(settings.parse.clone()),
                 analyzer: Analyzer::new(opts.clone()),
                 arrivals: Vec::new(),
+                keep_rows,
+                fold_told: false,
                 emitted: 0,
                 dirty: false,
                 ended: false,
@@ -173,12 +236,14 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         for run in runs.values_mut() {
             if run.dirty {
                 run.dirty = false;
-                run.analyzer.update(
+                let analysis = run.analyzer.update(
                     run.parser.table(),
                     run.ended,
                     Some(&run.arrivals),
                     run.ended,
                 );
+                run.tell_folding(&analysis);
+                run.bound_memory();
             }
             if !run.ended {
                 let last_row = run.parser.table().rows().checked_sub(1);
@@ -204,6 +269,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
             .analyzer
             .update(run.parser.table(), true, Some(&run.arrivals), true);
         run.emit_new(&mut sinks, out)?;
+        run.tell_folding(&analysis);
         let failing = run
             .analyzer
             .engine()
@@ -215,7 +281,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
             "{}: {} ({} rows, {} alerts, {failing} at or above {})",
             run.label,
             analysis.status,
-            run.parser.table().rows(),
+            run.parser.table().rows() as u64 + run.analyzer.rows_forgotten(),
             run.analyzer.engine().alerts().len(),
             sinks.fail_at
         );
@@ -228,4 +294,9 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         code = super::combine_exit(code, super::EXIT_ERROR);
     }
     Ok(code)
+}
+
+/// The sentence that tells the user a run's older rows are folded, if they are.
+pub fn folding_note(analysis: &RunAnalysis) -> Option<String> {
+    analysis.folding.as_ref().map(|f| f.describe())
 }
