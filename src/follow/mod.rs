@@ -113,7 +113,8 @@ pub struct FollowOptions {
     /// An unfinished line longer than this is skipped and reported (default 4 MiB).
     pub max_line_bytes: usize,
     /// Capacity of the event channel: when the consumer lags, the follower waits and the
-    /// data stays in the file (default 256 events).
+    /// data stays in the file (default 16 events, so at most 16 × `max_read_bytes` = 16 MiB
+    /// waits in memory when a finished file is replayed faster than it is analysed).
     pub channel_capacity: usize,
 }
 
@@ -125,7 +126,7 @@ impl Default for FollowOptions {
             heartbeat: Duration::from_secs(1),
             max_read_bytes: 1 << 20,
             max_line_bytes: 4 << 20,
-            channel_capacity: 256,
+            channel_capacity: 16,
         }
     }
 }
