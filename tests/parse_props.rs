@@ -3,7 +3,7 @@
 //! parser. Cases are capped so the suite stays fast on a 2-core machine.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use plateau::ingest::read_with_split;
+use plateau::ingest::read_blocks;
 use plateau::parse::{parse_bytes, LogParser, ParseOptions};
 use plateau::table::RunTable;
 use proptest::prelude::*;
@@ -109,7 +109,7 @@ proptest! {
     #[test]
     fn two_core_ingest_equals_sequential(bytes in log(), block in 1usize..300, opts in options()) {
         let whole = parse_bytes(&bytes, opts.clone());
-        let ingested = read_with_split(&bytes[..], opts, block, 0).unwrap();
+        let ingested = read_blocks(&bytes[..], opts, block, 2, None).unwrap();
         prop_assert_eq!(repr(&whole), repr(&ingested));
     }
 }
@@ -127,7 +127,7 @@ fn byte_at_a_time_equals_whole_on_every_fixture() {
         }
         p.finish();
         assert_eq!(repr(&whole), repr(&p.into_table()));
-        let ingested = read_with_split(&bytes[..], ParseOptions::default(), 7, 0).unwrap();
+        let ingested = read_blocks(&bytes[..], ParseOptions::default(), 7, 2, None).unwrap();
         assert_eq!(repr(&whole), repr(&ingested));
         n += 1;
     }
@@ -161,7 +161,7 @@ fn an_overlong_line_is_free_text_in_any_chunking() {
         ParseOptions::default(),
     );
     assert_eq!(repr(&whole), repr(&parts));
-    let ingested = read_with_split(&bytes[..], ParseOptions::default(), 64 << 10, 0).unwrap();
+    let ingested = read_blocks(&bytes[..], ParseOptions::default(), 64 << 10, 2, None).unwrap();
     assert_eq!(repr(&whole), repr(&ingested));
 }
 

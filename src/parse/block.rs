@@ -70,8 +70,16 @@ pub struct BlockResult {
     pub(crate) values: Vec<f64>,
     pub(crate) overflow_fields: Vec<u32>,
     pub(crate) text: Vec<u8>,
+    /// Fields of every row when all rows have that many and no `****` (0: no rows yet,
+    /// [`MIXED`]: rows differ).
+    pub(crate) uniform: u32,
+    /// When rows are uniform: the same values by field (`by_field[f * rows + r]`), so the
+    /// merge copies each column from one contiguous slice.
+    pub(crate) by_field: Vec<f64>,
     /// Complete lines in the block.
     pub lines: u64,
+    /// Bytes of the complete lines.
+    pub bytes: u64,
 }
 
 impl BlockResult {
@@ -81,7 +89,10 @@ impl BlockResult {
         self.values.clear();
         self.overflow_fields.clear();
         self.text.clear();
+        self.uniform = 0;
+        self.by_field.clear();
         self.lines = 0;
+        self.bytes = 0;
     }
 
     /// Rows of numbers found (before the merge checks their field counts).
@@ -121,7 +132,49 @@ pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockRes
         start = nl + 1;
     }
     out.lines = line;
+    out.bytes = start as u64;
+    out.transpose();
     start
+}
+
+/// [`BlockResult::uniform`] when rows have different field counts or `****` fields.
+pub(crate) const MIXED: u32 = u32::MAX;
+
+impl BlockResult {
+    /// Notes a row of `fields` fields for [`BlockResult::uniform`].
+    #[inline]
+    fn note_row(&mut self, fields: u32, overflows: u32) {
+        if overflows > 0 {
+            self.uniform = MIXED;
+        } else if self.uniform == 0 {
+            self.uniform = fields;
+        } else if self.uniform != fields {
+            self.uniform = MIXED;
+        }
+    }
+
+    /// Fills [`BlockResult::by_field`] when the rows are uniform (done on the parsing thread,
+    /// while the values are still in its cache).
+    fn transpose(&mut self) {
+        self.by_field.clear();
+        if self.uniform == 0 || self.uniform == MIXED {
+            return;
+        }
+        let n = self.uniform as usize;
+        self.by_field.reserve(self.values.len());
+        for f in 0..n {
+            let column = self.values.get(f..).unwrap_or_default().iter().step_by(n);
+            self.by_field.extend(column);
+        }
+    }
+
+    /// Rows `start..start + count` (row indices of this block), when uniform.
+    pub(crate) fn field_slice(&self, field: usize, start: usize, count: usize) -> &[f64] {
+        let n = self.uniform as usize;
+        let rows = self.values.len().checked_div(n).unwrap_or(0);
+        let from = field * rows + start;
+        self.by_field.get(from..from + count).unwrap_or_default()
+    }
 }
 
 /// Lines longer than this are not parsed (counted as free text).
@@ -286,6 +339,7 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         return DataOutcome::NotData;
     }
     let overflows = u32::try_from(out.overflow_fields.len() - overflow_start).unwrap_or(u32::MAX);
+    out.note_row(fields, overflows);
     out.items.push(Item::Row {
         line,
         fields,
