@@ -106,6 +106,25 @@ proptest! {
         prop_assert_eq!(repr(&whole), repr(&parts));
     }
 
+    /// Fed one line at a time, every row goes through the one-row merge; whole blocks take
+    /// the bulk merge of plain rows (and, in blocks of one field count, the by-field copy).
+    /// Both must build the same table, restarts included.
+    #[test]
+    fn bulk_merge_equals_one_row_at_a_time(bytes in log(), block in 1usize..400,
+                                           workers in 1usize..4, opts in options()) {
+        let mut p = LogParser::new(opts.clone());
+        for line in bytes.split_inclusive(|&b| b == b'\n') {
+            p.feed(line);
+        }
+        p.finish();
+        let one_by_one = p.into_table();
+        let whole = parse_bytes(&bytes, opts.clone());
+        prop_assert_eq!(repr(&one_by_one), repr(&whole));
+        let size = Some(bytes.len() as u64);
+        let ingested = read_blocks(&bytes[..], opts, block, workers, size).unwrap();
+        prop_assert_eq!(repr(&one_by_one), repr(&ingested));
+    }
+
     #[test]
     fn two_core_ingest_equals_sequential(bytes in log(), block in 1usize..300, opts in options()) {
         let whole = parse_bytes(&bytes, opts.clone());
