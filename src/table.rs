@@ -195,9 +195,12 @@ impl Segment {
 
     /// Reserves room for `rows` more rows in every column (a hint; memory that is never
     /// written is never touched, so an estimate on the high side costs no resident memory).
+    /// When the room cannot be had, nothing is reserved and the columns grow as they fill.
     pub fn reserve(&mut self, rows: usize) {
         for c in &mut self.columns {
-            c.values.reserve(rows);
+            if c.values.try_reserve_exact(rows).is_err() {
+                break;
+            }
         }
     }
 

@@ -70,8 +70,11 @@
 //! # Two stages, for two cores
 //! [`block::parse_block`] parses complete lines independently of any state;
 //! [`LogParser::apply_block`] merges a block's items in order. `feed` is just the two
-//! applied to the complete lines of each chunk; [`crate::ingest`] splits a large file on
-//! line boundaries, parses the pieces on two threads and applies them in order.
+//! applied to the complete lines of each chunk; [`crate::ingest`] reads a large file in
+//! blocks cut at line boundaries, parses them on two threads and applies them in order.
+//! Runs of plain rows of the current segment are appended in bulk, column by column (from
+//! the block's by-field values when all its rows have one field count); anything that may
+//! change the segment or restart it goes one row at a time, with the same result.
 
 pub mod block;
 pub mod layout;
