@@ -2,14 +2,15 @@
 //!
 //! `cargo bench --bench parse` reports MB/s for: the sequential parser (`LogParser::feed`
 //! on the whole buffer), the block stage alone (`parse_block`), and the two-core ingest
-//! (`ingest::read_with`, 16 MiB blocks split over two threads); and the sequential parser
+//! (`ingest::read_blocks`: two workers reading and parsing 1 MiB blocks, merged in order,
+//! columns reserved from the input size); and the sequential parser
 //! on a chatty log with a line of free text after every row.
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
-use plateau::ingest::{read_with, BLOCK_SIZE};
+use plateau::ingest::{read_blocks, BLOCK_SIZE, WORKERS};
 use plateau::parse::{parse_block, LogParser, ParseOptions};
 
 /// About `target` bytes of a 10-column log: step, time, temperature, pressure, energies,
@@ -62,7 +63,9 @@ fn bench(c: &mut Criterion) {
     });
     g.bench_function("two_core_ingest", |b| {
         b.iter(|| {
-            let t = read_with(black_box(&log[..]), ParseOptions::default(), BLOCK_SIZE).unwrap();
+            let size = Some(log.len() as u64);
+            let options = ParseOptions::default();
+            let t = read_blocks(black_box(&log[..]), options, BLOCK_SIZE, WORKERS, size).unwrap();
             black_box(t.rows())
         })
     });

@@ -213,10 +213,7 @@ impl<'a> TableLocator<'a> {
 
 impl RowLocator for TableLocator<'_> {
     fn line(&self, row: usize) -> Option<u64> {
-        self.segment
-            .lines
-            .get(row.checked_sub(self.offset)?)
-            .copied()
+        self.segment.lines.get(row.checked_sub(self.offset)?)
     }
     fn time(&self, row: usize) -> Option<f64> {
         self.time?.get(row.checked_sub(self.offset)?).copied()
@@ -736,7 +733,7 @@ impl Analyzer {
         // Restarts: rows from the restart on were replaced; report and rescan them.
         let seen = self.restarts_seen.get(si).copied().unwrap_or(0);
         for r in seg.restarts.iter().skip(seen) {
-            let row_in_seg = seg.lines.partition_point(|&l| l < r.line);
+            let row_in_seg = seg.lines.row_at_or_after(r.line);
             self.engine
                 .restart(offset + row_in_seg, r.rows_replaced, &loc);
             if let Some(s) = self.scanned.get_mut(si) {

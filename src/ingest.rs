@@ -1,28 +1,42 @@
-//! Reading a whole file: streamed, split on line boundaries, parsed on both cores.
+//! Reading a whole file: streamed in blocks, parsed on both cores, merged in order.
 //!
-//! The file is read in blocks of [`BLOCK_SIZE`] bytes (never mapped whole, never written);
-//! the next block is read on its own thread while the current one is parsed. The complete
-//! lines of each block are cut in two at a line boundary; a scoped thread parses the second
-//! half with [`parse_block_into`] while this thread parses the first half and merges it;
-//! then the second half is merged ([`LogParser::apply_block`], in order).
-//! The bytes after the last newline carry over to the next block; at the end of the file
-//! they are the partial last line, ignored and reported (the Contract).
+//! Two worker threads take turns at the reader: each claims the next block of
+//! [`BLOCK_SIZE`] bytes (the bytes after the last newline of the previous block carry over
+//! to the front of it), reads it into its own buffer and parses its complete lines with
+//! [`parse_block_into`] while the block is still in that core's cache. This thread merges
+//! the parsed blocks in file order ([`LogParser::apply_block`]) as they arrive, so merging
+//! block k overlaps with parsing blocks k + 1 and k + 2. At most [`IN_FLIGHT`] parsed
+//! blocks wait to be merged (memory stays bounded whatever the file size).
+//!
+//! The columns are reserved once from the file size and the rows per byte of the first
+//! block, so they do not grow by doubling; what is not used is given back at the end.
+//!
+//! At the end of the input, the bytes after the last newline are the partial last line,
+//! ignored and reported (the Contract). A line longer than [`MAX_LINE`] without a newline
+//! stops the workers; the rest is fed to the parser on this thread.
 //!
 //! The result is identical to feeding the whole file to one [`LogParser`] (tested).
 
+use std::collections::BTreeMap;
 use std::fs::File;
 use std::io::{self, Read};
 use std::path::Path;
+use std::sync::{mpsc, Mutex};
 
 use crate::error::Error;
+use crate::parse::block::MAX_LINE;
 use crate::parse::{parse_block_into, BlockResult, LogParser, ParseOptions};
 use crate::table::RunTable;
 
-/// Bytes read per block.
-pub const BLOCK_SIZE: usize = 16 << 20;
+/// Bytes read per block: small enough that a block and its parsed values stay in a core's
+/// cache between reading and parsing.
+pub const BLOCK_SIZE: usize = 1 << 20;
 
-/// Below this many bytes of complete lines a block is parsed on one thread.
-const PARALLEL_MIN: usize = 256 << 10;
+/// Worker threads that read and parse blocks.
+pub const WORKERS: usize = 2;
+
+/// Parsed blocks that may wait to be merged.
+const IN_FLIGHT: usize = 2 * WORKERS + 2;
 
 /// Reads and parses a whole file (`-` reads standard input to its end).
 pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> {
@@ -34,13 +48,14 @@ pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> 
         return read_with(io::stdin(), options, BLOCK_SIZE).map_err(read_err);
     }
     let file = File::open(path).map_err(read_err)?;
-    if file.metadata().map_err(read_err)?.is_dir() {
+    let meta = file.metadata().map_err(read_err)?;
+    if meta.is_dir() {
         return Err(read_err(io::Error::new(
             io::ErrorKind::InvalidInput,
             "is a folder, not a log file",
         )));
     }
-    read_with(file, options, BLOCK_SIZE).map_err(read_err)
+    read_blocks(file, options, BLOCK_SIZE, WORKERS, Some(meta.len())).map_err(read_err)
 }
 
 /// Reads `reader` to its end in blocks of `block_size` bytes and parses it on two threads.
@@ -49,86 +64,215 @@ pub fn read_with<R: Read + Send>(
     options: ParseOptions,
     block_size: usize,
 ) -> io::Result<RunTable> {
-    read_with_split(reader, options, block_size, PARALLEL_MIN)
+    read_blocks(reader, options, block_size, WORKERS, None)
 }
 
-/// Like [`read_with`], splitting a block over two threads once its complete lines reach
-/// `parallel_min` bytes (tests use tiny values to exercise the split).
-pub fn read_with_split<R: Read + Send>(
-    mut reader: R,
+/// Like [`read_with`] with `workers` reading and parsing threads (at least one), and the
+/// input size when known (to reserve the columns once).
+pub fn read_blocks<R: Read + Send>(
+    reader: R,
     options: ParseOptions,
     block_size: usize,
-    parallel_min: usize,
+    workers: usize,
+    size_hint: Option<u64>,
 ) -> io::Result<RunTable> {
     let block_size = block_size.max(1);
+    let source = Mutex::new(Source {
+        reader,
+        carry: Vec::new(),
+        next_seq: 0,
+        end: None,
+    });
     let mut parser = LogParser::new(options.clone());
-    let mut first = BlockResult::default();
-    let mut second = BlockResult::default();
-    let mut cur: Vec<u8> = vec![0; block_size];
-    let n = fill(&mut reader, &mut cur)?;
-    cur.truncate(n);
-    let mut eof = n == 0;
-    let mut next: Vec<u8> = Vec::with_capacity(block_size);
-    loop {
-        let complete = memchr::memrchr(b'\n', &cur).map_or(0, |i| i + 1);
-        let (lines, carry) = cur.split_at(complete);
-        if eof || carry.len() >= crate::parse::block::MAX_LINE {
-            if !lines.is_empty() {
-                parse_two(
-                    lines,
-                    &options,
-                    &mut parser,
-                    &mut first,
-                    &mut second,
-                    parallel_min,
-                );
-            }
-            // The rest has no newline: the partial last line at the end of the input, or
-            // an endless line that the parser counts as over-long text.
-            parser.feed(carry);
-            if eof {
-                parser.finish();
-                return Ok(parser.into_table());
-            }
-            return finish_by_feeding(reader, parser, &mut next);
+    let (done_tx, done_rx) = mpsc::channel::<(u64, BlockResult)>();
+    let (free_tx, free_rx) = mpsc::channel::<BlockResult>();
+    for _ in 0..IN_FLIGHT {
+        // Cannot fail: the receiver is alive.
+        let _ = free_tx.send(BlockResult::default());
+    }
+    let free_rx = Mutex::new(free_rx);
+    let mut merged_all = true;
+    std::thread::scope(|s| {
+        for _ in 0..workers.max(1) {
+            let done_tx = done_tx.clone();
+            let (source, free_rx, options) = (&source, &free_rx, &options);
+            s.spawn(move || work(source, free_rx, &done_tx, options, block_size));
         }
-        // Read the next block on its own thread while this one is parsed.
-        next.clear();
-        next.extend_from_slice(carry);
-        let read = std::thread::scope(|s| {
-            let reading = s.spawn(|| {
-                let start = next.len();
-                next.resize(start + block_size, 0);
-                let got = fill(&mut reader, next.get_mut(start..).unwrap_or_default());
-                next.truncate(start + *got.as_ref().unwrap_or(&0));
-                got
-            });
-            if !lines.is_empty() {
-                parse_two(
-                    lines,
-                    &options,
-                    &mut parser,
-                    &mut first,
-                    &mut second,
-                    parallel_min,
-                );
+        drop(done_tx);
+        let mut waiting: BTreeMap<u64, BlockResult> = BTreeMap::new();
+        let mut next = 0u64;
+        let mut reserved = false;
+        for (seq, block) in done_rx.iter() {
+            waiting.insert(seq, block);
+            while let Some(block) = waiting.remove(&next) {
+                parser.apply_block(&block);
+                if !reserved {
+                    reserved = reserve(&mut parser, &block, size_hint);
+                }
+                next += 1;
+                // Fails only once every worker has stopped: nothing more to recycle.
+                let _ = free_tx.send(block);
             }
-            reading.join()
-        });
-        let got = read.map_err(|_| io::Error::other("the reading thread failed"))??;
-        eof = got == 0;
-        std::mem::swap(&mut cur, &mut next);
+        }
+        // A worker that failed leaves a gap: the blocks after it cannot be merged.
+        merged_all = waiting.is_empty();
+    });
+    let source = source
+        .into_inner()
+        .map_err(|_| io::Error::other("a reading thread failed"))?;
+    if !merged_all {
+        return Err(io::Error::other("a parsing thread failed"));
+    }
+    let Source {
+        reader, carry, end, ..
+    } = source;
+    match end {
+        Some(End::Error(e)) => Err(e),
+        Some(End::Overlong) => {
+            parser.feed(&carry);
+            finish_by_feeding(reader, parser)
+        }
+        Some(End::Input) | None => {
+            parser.feed(&carry);
+            parser.finish();
+            Ok(finished(parser))
+        }
     }
 }
 
-fn finish_by_feeding<R: Read>(
-    mut reader: R,
-    mut parser: LogParser,
-    buf: &mut Vec<u8>,
-) -> io::Result<RunTable> {
-    buf.resize(BLOCK_SIZE.min(1 << 20), 0);
+/// The shared reader and what carries over between blocks.
+struct Source<R> {
+    reader: R,
+    /// Bytes after the last newline read so far.
+    carry: Vec<u8>,
+    next_seq: u64,
+    end: Option<End>,
+}
+
+/// Why the workers stopped.
+enum End {
+    /// The input ended; `carry` is the partial last line.
+    Input,
+    /// `carry` reached [`MAX_LINE`] bytes without a newline: the rest is fed on one thread.
+    Overlong,
+    /// Reading failed.
+    Error(io::Error),
+}
+
+impl<R: Read> Source<R> {
+    /// Reads the next block into `buf` (carry first): its sequence number and the length of
+    /// its complete lines, or `None` once the input has ended (or cannot go on in blocks).
+    fn claim(&mut self, buf: &mut Vec<u8>, block_size: usize) -> Option<(u64, usize)> {
+        if self.end.is_some() {
+            return None;
+        }
+        // The buffer keeps its length from block to block: zeroed once, not every block.
+        let mut filled = self.carry.len();
+        grow(buf, filled + block_size);
+        buf.get_mut(..filled)?.copy_from_slice(&self.carry);
+        loop {
+            grow(buf, filled + block_size);
+            let room = buf.get_mut(filled..filled + block_size)?;
+            let got = match fill(&mut self.reader, room) {
+                Ok(got) => got,
+                Err(e) => {
+                    self.end = Some(End::Error(e));
+                    return None;
+                }
+            };
+            filled += got;
+            let data = buf.get(..filled)?;
+            let complete = memchr::memrchr(b'\n', data).map_or(0, |i| i + 1);
+            if got == 0 {
+                self.end = Some(End::Input);
+            } else if filled - complete >= MAX_LINE {
+                self.end = Some(End::Overlong);
+            } else if complete == 0 {
+                continue; // no complete line yet: read on
+            }
+            self.carry.clear();
+            self.carry.extend_from_slice(data.get(complete..)?);
+            if complete == 0 {
+                return None;
+            }
+            let seq = self.next_seq;
+            self.next_seq += 1;
+            return Some((seq, complete));
+        }
+    }
+}
+
+/// Makes `buf` at least `len` bytes long.
+fn grow(buf: &mut Vec<u8>, len: usize) {
+    if buf.len() < len {
+        buf.resize(len, 0);
+    }
+}
+
+/// A worker: claims blocks and parses them until the input ends.
+fn work<R: Read>(
+    source: &Mutex<Source<R>>,
+    free: &Mutex<mpsc::Receiver<BlockResult>>,
+    done: &mpsc::Sender<(u64, BlockResult)>,
+    options: &ParseOptions,
+    block_size: usize,
+) {
+    let mut buf: Vec<u8> = Vec::new();
     loop {
-        let n = match reader.read(buf) {
+        // A parsed-block buffer first, so that at most IN_FLIGHT blocks are ever claimed
+        // and not yet merged.
+        let Ok(mut block) = free
+            .lock()
+            .map_err(drop)
+            .and_then(|f| f.recv().map_err(drop))
+        else {
+            return;
+        };
+        let claimed = match source.lock() {
+            Ok(mut src) => src.claim(&mut buf, block_size),
+            Err(_) => return,
+        };
+        let Some((seq, len)) = claimed else {
+            return;
+        };
+        parse_block_into(buf.get(..len).unwrap_or_default(), options, &mut block);
+        if done.send((seq, block)).is_err() {
+            return;
+        }
+    }
+}
+
+/// After the first block: reserves the rows the whole input will probably hold, from its
+/// size and the first block's rows per byte. True once done (or not possible).
+fn reserve(parser: &mut LogParser, block: &BlockResult, size_hint: Option<u64>) -> bool {
+    let Some(size) = size_hint else {
+        return true;
+    };
+    let rows = block.candidate_rows() as u64;
+    if rows == 0 || block.bytes == 0 {
+        return false; // no rows yet (a header block): try the next block
+    }
+    // A little over the estimate: reserved room that is never written is never touched.
+    let bytes = block.bytes.max(1);
+    let estimate = size / bytes * rows + size % bytes * rows / bytes;
+    let estimate = estimate + estimate / 16 + 1024;
+    parser.reserve_rows(usize::try_from(estimate).unwrap_or(0));
+    true
+}
+
+/// The table, with unused reserved room given back.
+fn finished(parser: LogParser) -> RunTable {
+    let mut table = parser.into_table();
+    for seg in &mut table.segments {
+        seg.shrink_to_fit();
+    }
+    table
+}
+
+fn finish_by_feeding<R: Read>(mut reader: R, mut parser: LogParser) -> io::Result<RunTable> {
+    let mut buf = vec![0u8; 1 << 20];
+    loop {
+        let n = match reader.read(&mut buf) {
             Ok(n) => n,
             Err(e) if e.kind() == io::ErrorKind::Interrupted => continue,
             Err(e) => return Err(e),
@@ -139,7 +283,7 @@ fn finish_by_feeding<R: Read>(
         parser.feed(buf.get(..n).unwrap_or_default());
     }
     parser.finish();
-    Ok(parser.into_table())
+    Ok(finished(parser))
 }
 
 /// Reads until `buf` is full or the input ends.
@@ -154,50 +298,4 @@ fn fill<R: Read>(reader: &mut R, buf: &mut [u8]) -> io::Result<usize> {
         }
     }
     Ok(filled)
-}
-
-/// Parses complete lines on two threads (split at a line boundary, the first part about
-/// 44 % of the bytes) and merges in order.
-fn parse_two(
-    lines: &[u8],
-    options: &ParseOptions,
-    parser: &mut LogParser,
-    first: &mut BlockResult,
-    second: &mut BlockResult,
-    parallel_min: usize,
-) {
-    // This thread parses the first part and then merges both, so it gets a little less
-    // than half: parse cost p and merge cost about 0.3·p per byte balance at 0.44.
-    let cut = lines.len() / 25 * 11;
-    let mid = if lines.len() >= parallel_min.max(2) {
-        lines
-            .get(cut..)
-            .and_then(|r| memchr::memchr(b'\n', r))
-            .map(|i| cut + i + 1)
-    } else {
-        None
-    };
-    match mid {
-        Some(mid) if mid < lines.len() => {
-            let (a, b) = lines.split_at(mid);
-            let joined = std::thread::scope(|s| {
-                let handle = s.spawn(|| {
-                    parse_block_into(b, options, second);
-                });
-                parse_block_into(a, options, first);
-                parser.apply_block(first);
-                handle.join().is_ok()
-            });
-            if !joined {
-                // The worker has no panicking paths, but if it failed, parse the half here
-                // rather than lose it.
-                parse_block_into(b, options, second);
-            }
-            parser.apply_block(second);
-        }
-        _ => {
-            parse_block_into(lines, options, first);
-            parser.apply_block(first);
-        }
-    }
 }

@@ -8,7 +8,9 @@
 //!   columns starts a new segment; a repeated identical header does not.
 //! * Each [`Column`] holds its values in canonical units in one `Vec<f64>`
 //!   ([`Column::values`] is a cheap slice for the statistics). `row` (0-based) indexes the
-//!   segment's series; [`Segment::lines`] gives each row's 1-based source line.
+//!   segment's series; [`Segment::lines`] gives each row's 1-based source line
+//!   ([`LineNumbers`]: stored as runs of consecutive lines, a few bytes per run instead of
+//!   eight per row).
 //! * Non-finite values from `nan`/`inf` tokens are counted in [`Column::non_finite`];
 //!   `****` fields are stored as NaN and counted in [`Column::overflow`].
 
@@ -70,6 +72,15 @@ impl Column {
         }
     }
 
+    /// Appends values that are not `****` fields (a run of plain rows).
+    #[inline]
+    pub fn extend(&mut self, values: impl Iterator<Item = f64>) {
+        let start = self.values.len();
+        self.values.extend(values);
+        let added = self.values.get(start..).unwrap_or_default();
+        self.non_finite += added.iter().filter(|v| !v.is_finite()).count() as u64;
+    }
+
     /// Drops the first `rows` values (already consumed elsewhere); the counts of non-finite
     /// and overflow fields keep counting them.
     fn forget_front(&mut self, rows: usize) {
@@ -124,8 +135,8 @@ pub struct Segment {
     pub fields: usize,
     /// Columns (a derived time column last).
     pub columns: Vec<Column>,
-    /// Source line of each row (1-based).
-    pub lines: Vec<u64>,
+    /// Source line of each row (1-based), as runs of consecutive lines.
+    pub lines: LineNumbers,
     /// Restarts inside this segment.
     pub restarts: Vec<Restart>,
     /// Identical headers seen again after the first (a restart prints its header again).
@@ -156,7 +167,7 @@ impl Segment {
 
     /// The first and last source line of the segment's rows.
     pub fn line_range(&self) -> Option<(u64, u64)> {
-        Some((*self.lines.first()?, *self.lines.last()?))
+        Some((self.lines.first()?, self.lines.last()?))
     }
 
     /// Cuts the segment back to `rows` rows.
@@ -179,7 +190,191 @@ impl Segment {
         for c in &mut self.columns {
             c.forget_front(drop);
         }
-        self.lines.drain(..drop);
+        self.lines.forget_front(drop);
+    }
+
+    /// Reserves room for `rows` more rows in every column (a hint; memory that is never
+    /// written is never touched, so an estimate on the high side costs no resident memory).
+    /// When the room cannot be had, nothing is reserved and the columns grow as they fill.
+    pub fn reserve(&mut self, rows: usize) {
+        for c in &mut self.columns {
+            if c.values.try_reserve_exact(rows).is_err() {
+                break;
+            }
+        }
+    }
+
+    /// Gives back reserved room that was not used.
+    pub fn shrink_to_fit(&mut self) {
+        for c in &mut self.columns {
+            c.values.shrink_to_fit();
+        }
+        self.lines.runs.shrink_to_fit();
+    }
+}
+
+/// The source line of each row of a segment, kept as runs of consecutive lines.
+///
+/// Rows are in file order, so lines only increase; a table of rows without gaps is one run.
+/// Runs are always maximal (a line that continues the last run extends it), so equal line
+/// sequences have equal representations.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct LineNumbers {
+    runs: Vec<LineRun>,
+    rows: usize,
+}
+
+/// Rows from `row` on (up to the next run) have lines `line`, `line + 1`, ...
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct LineRun {
+    row: usize,
+    line: u64,
+}
+
+impl LineNumbers {
+    /// No rows.
+    pub fn new() -> LineNumbers {
+        LineNumbers::default()
+    }
+
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        self.rows
+    }
+
+    /// True when there are no rows.
+    pub fn is_empty(&self) -> bool {
+        self.rows == 0
+    }
+
+    /// Number of runs of consecutive lines.
+    pub fn runs(&self) -> usize {
+        self.runs.len()
+    }
+
+    /// The line of row `row`.
+    pub fn get(&self, row: usize) -> Option<u64> {
+        if row >= self.rows {
+            return None;
+        }
+        let i = self.runs.partition_point(|r| r.row <= row).checked_sub(1)?;
+        let run = self.runs.get(i)?;
+        Some(run.line + (row - run.row) as u64)
+    }
+
+    /// The line of the first row.
+    pub fn first(&self) -> Option<u64> {
+        self.get(0)
+    }
+
+    /// The line of the last row.
+    pub fn last(&self) -> Option<u64> {
+        let run = self.runs.last()?;
+        Some(run.line + (self.rows - 1 - run.row) as u64)
+    }
+
+    /// The first row whose line is at or after `line` (`len()` when there is none); equally,
+    /// the number of rows before `line`.
+    pub fn row_at_or_after(&self, line: u64) -> usize {
+        let i = self.runs.partition_point(|r| r.line < line);
+        // Runs before `i` start before `line`; the row may be inside run `i - 1`.
+        let Some(prev) = i.checked_sub(1).and_then(|p| self.runs.get(p)) else {
+            return 0;
+        };
+        let end = self.runs.get(i).map_or(self.rows, |r| r.row);
+        let inside = usize::try_from(line - prev.line).unwrap_or(usize::MAX);
+        prev.row.saturating_add(inside).min(end)
+    }
+
+    /// The lines, row by row.
+    pub fn iter(&self) -> impl Iterator<Item = u64> + '_ {
+        self.runs.iter().enumerate().flat_map(move |(i, r)| {
+            let end = self.runs.get(i + 1).map_or(self.rows, |n| n.row);
+            (0..(end - r.row) as u64).map(move |k| r.line + k)
+        })
+    }
+
+    /// The lines as a vector (for tests and small tables).
+    pub fn to_vec(&self) -> Vec<u64> {
+        self.iter().collect()
+    }
+
+    /// Appends the line of a new row (greater than the last one).
+    #[inline]
+    pub fn push(&mut self, line: u64) {
+        if self.last().map(|l| l + 1) != Some(line) {
+            self.runs.push(LineRun {
+                row: self.rows,
+                line,
+            });
+        }
+        self.rows += 1;
+    }
+
+    /// Keeps the first `rows` rows.
+    pub fn truncate(&mut self, rows: usize) {
+        if rows >= self.rows {
+            return;
+        }
+        let keep = self.runs.partition_point(|r| r.row < rows);
+        self.runs.truncate(keep);
+        self.rows = rows;
+    }
+
+    /// Drops the first `rows` rows; later rows move to the front.
+    pub fn forget_front(&mut self, rows: usize) {
+        let rows = rows.min(self.rows);
+        if rows == 0 {
+            return;
+        }
+        // The run holding the new first row starts there.
+        let first = self
+            .runs
+            .partition_point(|r| r.row <= rows)
+            .saturating_sub(1);
+        if let Some(run) = self.runs.get_mut(first) {
+            if rows < self.rows {
+                run.line += (rows - run.row) as u64;
+                run.row = rows;
+            }
+        }
+        self.runs.drain(..first);
+        self.rows -= rows;
+        if self.rows == 0 {
+            self.runs.clear();
+        }
+        for r in &mut self.runs {
+            r.row -= rows;
+        }
+    }
+}
+
+impl<const N: usize> PartialEq<[u64; N]> for LineNumbers {
+    fn eq(&self, other: &[u64; N]) -> bool {
+        self.rows == N && self.iter().eq(other.iter().copied())
+    }
+}
+
+impl PartialEq<[u64]> for LineNumbers {
+    fn eq(&self, other: &[u64]) -> bool {
+        self.rows == other.len() && self.iter().eq(other.iter().copied())
+    }
+}
+
+impl FromIterator<u64> for LineNumbers {
+    fn from_iter<I: IntoIterator<Item = u64>>(iter: I) -> LineNumbers {
+        let mut out = LineNumbers::new();
+        for l in iter {
+            out.push(l);
+        }
+        out
+    }
+}
+
+/// Serialised as the list of lines, row by row.
+impl Serialize for LineNumbers {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        serializer.collect_seq(self.iter())
     }
 }
 
@@ -331,7 +526,7 @@ mod tests {
         let seg = &mut table.segments[0];
         seg.forget_all_but_last(10);
         assert_eq!(seg.rows(), 10);
-        assert_eq!(seg.lines.first(), Some(&92));
+        assert_eq!(seg.lines.first(), Some(92));
         assert_eq!(seg.columns[1].values()[0], 390.0);
         assert!(seg.columns[1].values()[5].is_nan());
         // The overflow row index moved with the values: truncating before it recounts.
@@ -341,5 +536,87 @@ mod tests {
         // Keeping more rows than there are changes nothing.
         seg.forget_all_but_last(50);
         assert_eq!(seg.rows(), 5);
+    }
+
+    /// Line numbers as runs answer every question as the plain list of lines would
+    /// (the model), through pushes, truncations (restarts) and forgetting.
+    mod line_numbers {
+        use super::super::LineNumbers;
+        use proptest::prelude::*;
+
+        #[derive(Debug, Clone)]
+        enum Op {
+            Push(u64),
+            Truncate(usize),
+            Forget(usize),
+        }
+
+        fn op() -> impl Strategy<Value = Op> {
+            prop_oneof![
+                6 => (1u64..4).prop_map(Op::Push),
+                1 => (0usize..40).prop_map(Op::Truncate),
+                1 => (0usize..12).prop_map(Op::Forget),
+            ]
+        }
+
+        fn check(runs: &LineNumbers, model: &[u64]) {
+            assert_eq!(runs.len(), model.len());
+            assert_eq!(runs.to_vec(), model);
+            assert_eq!(runs.first(), model.first().copied());
+            assert_eq!(runs.last(), model.last().copied());
+            for row in 0..model.len() + 2 {
+                assert_eq!(runs.get(row), model.get(row).copied(), "row {row}");
+            }
+            let top = model.last().copied().unwrap_or(0) + 3;
+            for line in 0..top {
+                let want = model.partition_point(|&l| l < line);
+                assert_eq!(runs.row_at_or_after(line), want, "line {line}");
+            }
+            // Maximal runs: the representation depends only on the lines.
+            let rebuilt: LineNumbers = model.iter().copied().collect();
+            assert_eq!(runs, &rebuilt);
+        }
+
+        proptest! {
+            #![proptest_config(ProptestConfig::with_cases(256))]
+            #[test]
+            fn runs_behave_as_a_list(ops in prop::collection::vec(op(), 0..60)) {
+                let mut runs = LineNumbers::new();
+                let mut model: Vec<u64> = Vec::new();
+                for op in ops {
+                    match op {
+                        // Gaps of 1 continue a run; larger gaps (skipped or blank lines) start one.
+                        Op::Push(gap) => {
+                            let line = model.last().copied().unwrap_or(0) + gap;
+                            runs.push(line);
+                            model.push(line);
+                        }
+                        Op::Truncate(rows) => {
+                            runs.truncate(rows);
+                            model.truncate(rows);
+                        }
+                        Op::Forget(rows) => {
+                            runs.forget_front(rows);
+                            model.drain(..rows.min(model.len()));
+                        }
+                    }
+                    check(&runs, &model);
+                }
+            }
+        }
+
+        #[test]
+        fn consecutive_lines_are_one_run() {
+            let lines: LineNumbers = (5..1005).collect();
+            assert_eq!(lines.runs(), 1);
+            assert_eq!(lines.get(999), Some(1004));
+            assert_eq!(lines.row_at_or_after(1004), 999);
+            assert_eq!(lines.row_at_or_after(2000), 1000);
+            let gaps: LineNumbers = [2, 3, 4, 7, 8, 20].into_iter().collect();
+            assert_eq!(gaps.runs(), 3);
+            assert_eq!(gaps, [2, 3, 4, 7, 8, 20]);
+            assert_eq!(gaps.row_at_or_after(5), 3);
+            assert_eq!(gaps.row_at_or_after(9), 5);
+        }
     }
 }

@@ -4,7 +4,7 @@
 use std::io::Write;
 
 use plateau::error::Error;
-use plateau::ingest::{read_path, read_with};
+use plateau::ingest::{read_blocks, read_path, read_with};
 use plateau::parse::{parse_bytes, ParseOptions};
 
 /// An invented 4-column log of about 3 MB with a restart, chatter and a bad row in it.
@@ -63,4 +63,74 @@ fn unreadable_paths_are_named() {
     let dir = tempfile::tempdir().unwrap();
     let err = read_path(dir.path(), ParseOptions::default()).unwrap_err();
     assert!(err.to_string().contains("folder"));
+}
+
+/// Line numbers kept as runs: rows of consecutive lines share one run; skipped, blank,
+/// comment and text lines, headers and restarts start new ones, and every row still maps to
+/// its own line (and back), whatever the block size and thread count.
+#[test]
+fn line_numbers_across_restarts_gaps_and_segments() {
+    let mut log = String::from("# step temp press\n");
+    for step in 0..400u32 {
+        log.push_str(&format!("{step} {}.5 1.0\n", 300 + step % 5));
+        log.push_str(match step {
+            50 => "\n",
+            60 => "# checkpoint written\n",
+            70 => "70 300 abc\n", // skipped: not a number
+            80 => "NOTE: neighbour list rebuilt\n",
+            90 => "80 301 ****\r\n", // a restart to step 80, with an overflow field
+            _ => "",
+        });
+    }
+    // A second segment with another column.
+    log.push_str("# step temp press volume\n");
+    for step in 400..450u32 {
+        log.push_str(&format!("{step} 300 1.0 27.{}\n", step % 10));
+    }
+    let text = log;
+    let whole = parse_bytes(text.as_bytes(), ParseOptions::default());
+    assert_eq!(whole.segments.len(), 2);
+    let second = &whole.segments[1];
+    assert_eq!(second.lines.runs(), 1);
+    assert_eq!(second.lines.first(), second.header_line.map(|h| h + 1));
+    assert_eq!(second.lines.last(), Some(text.lines().count() as u64));
+    let seg = &whole.segments[0];
+    assert_eq!(seg.restarts.len(), 1);
+    let restart = seg.restarts[0];
+    let steps = &seg.columns[0];
+    let lines = seg.lines.to_vec();
+    assert_eq!(lines.len(), seg.rows());
+    assert_eq!(steps.values().len(), seg.rows());
+    let row = seg.lines.row_at_or_after(restart.line);
+    assert_eq!(seg.lines.get(row), Some(restart.line));
+    assert_eq!(steps.values()[row], 80.0);
+    assert_eq!(steps.values()[row - 1], 79.0);
+    // Lines strictly increase and every row's line holds that row.
+    let all: Vec<&str> = text.lines().collect();
+    for (r, &l) in lines.iter().enumerate() {
+        let fields: Vec<&str> = all[(l - 1) as usize].split_whitespace().collect();
+        assert_eq!(
+            fields[0].parse::<f64>().unwrap(),
+            steps.values()[r],
+            "row {r}"
+        );
+        assert_eq!(seg.lines.row_at_or_after(l), r);
+    }
+    assert!(lines.windows(2).all(|w| w[0] < w[1]));
+    // Few runs: one per gap, not one per row.
+    assert!(seg.lines.runs() <= 8, "{} runs", seg.lines.runs());
+    for block in [7, 64, 1000, 1 << 20] {
+        for workers in [1, 2, 3] {
+            let size = Some(text.len() as u64);
+            let read = read_blocks(
+                text.as_bytes(),
+                ParseOptions::default(),
+                block,
+                workers,
+                size,
+            )
+            .unwrap();
+            assert_eq!(format!("{whole:?}"), format!("{read:?}"), "block {block}");
+        }
+    }
 }

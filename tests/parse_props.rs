@@ -3,7 +3,7 @@
 //! parser. Cases are capped so the suite stays fast on a 2-core machine.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use plateau::ingest::read_with_split;
+use plateau::ingest::read_blocks;
 use plateau::parse::{parse_bytes, LogParser, ParseOptions};
 use plateau::table::RunTable;
 use proptest::prelude::*;
@@ -106,10 +106,29 @@ proptest! {
         prop_assert_eq!(repr(&whole), repr(&parts));
     }
 
+    /// Fed one line at a time, every row goes through the one-row merge; whole blocks take
+    /// the bulk merge of plain rows (and, in blocks of one field count, the by-field copy).
+    /// Both must build the same table, restarts included.
+    #[test]
+    fn bulk_merge_equals_one_row_at_a_time(bytes in log(), block in 1usize..400,
+                                           workers in 1usize..4, opts in options()) {
+        let mut p = LogParser::new(opts.clone());
+        for line in bytes.split_inclusive(|&b| b == b'\n') {
+            p.feed(line);
+        }
+        p.finish();
+        let one_by_one = p.into_table();
+        let whole = parse_bytes(&bytes, opts.clone());
+        prop_assert_eq!(repr(&one_by_one), repr(&whole));
+        let size = Some(bytes.len() as u64);
+        let ingested = read_blocks(&bytes[..], opts, block, workers, size).unwrap();
+        prop_assert_eq!(repr(&one_by_one), repr(&ingested));
+    }
+
     #[test]
     fn two_core_ingest_equals_sequential(bytes in log(), block in 1usize..300, opts in options()) {
         let whole = parse_bytes(&bytes, opts.clone());
-        let ingested = read_with_split(&bytes[..], opts, block, 0).unwrap();
+        let ingested = read_blocks(&bytes[..], opts, block, 2, None).unwrap();
         prop_assert_eq!(repr(&whole), repr(&ingested));
     }
 }
@@ -127,7 +146,7 @@ fn byte_at_a_time_equals_whole_on_every_fixture() {
         }
         p.finish();
         assert_eq!(repr(&whole), repr(&p.into_table()));
-        let ingested = read_with_split(&bytes[..], ParseOptions::default(), 7, 0).unwrap();
+        let ingested = read_blocks(&bytes[..], ParseOptions::default(), 7, 2, None).unwrap();
         assert_eq!(repr(&whole), repr(&ingested));
         n += 1;
     }
@@ -161,7 +180,7 @@ fn an_overlong_line_is_free_text_in_any_chunking() {
         ParseOptions::default(),
     );
     assert_eq!(repr(&whole), repr(&parts));
-    let ingested = read_with_split(&bytes[..], ParseOptions::default(), 64 << 10, 0).unwrap();
+    let ingested = read_blocks(&bytes[..], ParseOptions::default(), 64 << 10, 2, None).unwrap();
     assert_eq!(repr(&whole), repr(&ingested));
 }
 

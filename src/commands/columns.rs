@@ -155,8 +155,8 @@ impl ColumnsView {
                 header_commented: s.header_commented,
                 delimiter: s.delimiter,
                 rows: s.rows(),
-                first_line: s.lines.first().copied(),
-                last_line: s.lines.last().copied(),
+                first_line: s.lines.first(),
+                last_line: s.lines.last(),
                 header_repeats: s.header_repeats,
                 restarts: s.restarts.clone(),
                 columns: s

@@ -257,7 +257,7 @@ impl Exporter {
         for (i, seg) in segments.iter().enumerate() {
             let last = self.written.get(i).copied().unwrap_or(0);
             // Rows are in file order; a restart cuts the tail and appends later lines.
-            let start = seg.lines.partition_point(|&l| l <= last);
+            let start = seg.lines.row_at_or_after(last + 1);
             if start >= seg.rows() {
                 continue;
             }
@@ -273,7 +273,7 @@ impl Exporter {
                 format_row(&mut self.line, self.format, number, seg, row);
                 out.write_all(self.line.as_bytes()).map_err(Error::Output)?;
             }
-            if let (Some(w), Some(&l)) = (self.written.get_mut(i), seg.lines.last()) {
+            if let (Some(w), Some(l)) = (self.written.get_mut(i), seg.lines.last()) {
                 *w = l;
             }
         }
@@ -341,7 +341,7 @@ fn number(line: &mut String, v: f64, json: bool) {
 }
 
 fn format_row(line: &mut String, format: ExportFormat, segment: usize, seg: &Segment, row: usize) {
-    let src_line = seg.lines.get(row).copied().unwrap_or(0);
+    let src_line = seg.lines.get(row).unwrap_or(0);
     match format {
         ExportFormat::Jsonl => {
             let _ = write!(line, "{{\"segment\":{segment},\"line\":{src_line}");

@@ -9,7 +9,8 @@
 //! order and decides headers, segments, field counts and restarts.
 
 use super::layout::{
-    header_column_count, is_space, trim, wide_header_column_count, Delimiter, Fields,
+    header_column_count, is_space, trim, wide_header_column_count, Delimiter, DelimiterChoice,
+    Fields,
 };
 use super::number::{parse_field, parse_plain, Field};
 use super::ParseOptions;
@@ -70,8 +71,16 @@ pub struct BlockResult {
     pub(crate) values: Vec<f64>,
     pub(crate) overflow_fields: Vec<u32>,
     pub(crate) text: Vec<u8>,
+    /// Fields of every row when all rows have that many and no `****` (0: no rows yet,
+    /// [`MIXED`]: rows differ).
+    pub(crate) uniform: u32,
+    /// When rows are uniform: the same values by field (`by_field[f * rows + r]`), so the
+    /// merge copies each column from one contiguous slice.
+    pub(crate) by_field: Vec<f64>,
     /// Complete lines in the block.
     pub lines: u64,
+    /// Bytes of the complete lines.
+    pub bytes: u64,
 }
 
 impl BlockResult {
@@ -81,7 +90,10 @@ impl BlockResult {
         self.values.clear();
         self.overflow_fields.clear();
         self.text.clear();
+        self.uniform = 0;
+        self.by_field.clear();
         self.lines = 0;
+        self.bytes = 0;
     }
 
     /// Rows of numbers found (before the merge checks their field counts).
@@ -121,7 +133,49 @@ pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockRes
         start = nl + 1;
     }
     out.lines = line;
+    out.bytes = start as u64;
+    out.transpose();
     start
+}
+
+/// [`BlockResult::uniform`] when rows have different field counts or `****` fields.
+pub(crate) const MIXED: u32 = u32::MAX;
+
+impl BlockResult {
+    /// Notes a row of `fields` fields for [`BlockResult::uniform`].
+    #[inline]
+    fn note_row(&mut self, fields: u32, overflows: u32) {
+        if overflows > 0 {
+            self.uniform = MIXED;
+        } else if self.uniform == 0 {
+            self.uniform = fields;
+        } else if self.uniform != fields {
+            self.uniform = MIXED;
+        }
+    }
+
+    /// Fills [`BlockResult::by_field`] when the rows are uniform (done on the parsing thread,
+    /// while the values are still in its cache).
+    fn transpose(&mut self) {
+        self.by_field.clear();
+        if self.uniform == 0 || self.uniform == MIXED {
+            return;
+        }
+        let n = self.uniform as usize;
+        self.by_field.reserve(self.values.len());
+        for f in 0..n {
+            let column = self.values.get(f..).unwrap_or_default().iter().step_by(n);
+            self.by_field.extend(column);
+        }
+    }
+
+    /// Rows `start..start + count` (row indices of this block), when uniform.
+    pub(crate) fn field_slice(&self, field: usize, start: usize, count: usize) -> &[f64] {
+        let n = self.uniform as usize;
+        let rows = self.values.len().checked_div(n).unwrap_or(0);
+        let from = field * rows + start;
+        self.by_field.get(from..from + count).unwrap_or_default()
+    }
 }
 
 /// Lines longer than this are not parsed (counted as free text).
@@ -211,46 +265,30 @@ enum DataOutcome {
 
 #[inline]
 fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) -> DataOutcome {
-    let delim = options.delimiter.for_data(payload);
     let values_start = out.values.len();
     let overflow_start = out.overflow_fields.len();
+    let auto = options.delimiter == DelimiterChoice::Auto;
+    // `auto` picks commas when the line has one. Whitespace is tried first without looking:
+    // a line read to its end that way has no comma (no number form holds one), so the scan
+    // for a comma is needed only when the row stopped early.
+    let mut delim = if auto {
+        Delimiter::Whitespace
+    } else {
+        options.delimiter.for_data(payload)
+    };
     let mut fields = 0u32;
     let mut failed: Option<&[u8]> = None;
     if delim == Delimiter::Whitespace {
-        // Fused split and parse: the fast float parser finds the end of the number itself;
-        // anything else (D exponents, `****`, text) takes the slow path on the whole field.
-        let mut rest = trim(payload);
-        while !rest.is_empty() {
-            let (field, parsed, next) = if let Some((v, n)) = parse_plain(rest) {
-                (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
-            } else {
-                match fast_float2::parse_partial::<f64, _>(rest) {
-                    Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
-                        (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
-                    }
-                    _ => {
-                        let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
-                        let f = rest.get(..end).unwrap_or_default();
-                        (f, parse_field(f), end)
-                    }
-                }
-            };
-            if !take(out, parsed, fields) {
-                if fields > 0 && starts_comment(field, options) {
-                    break; // a trailing comment ends the row
-                }
-                failed = Some(field);
-                break;
-            }
-            fields += 1;
-            rest = rest.get(next..).unwrap_or_default();
-            let skip = rest
-                .iter()
-                .position(|&b| !is_space(b))
-                .unwrap_or(rest.len());
-            rest = rest.get(skip..).unwrap_or_default();
+        let whole;
+        (fields, failed, whole) = whitespace_row(payload, options, out);
+        if auto && !whole && memchr::memchr(b',', payload).is_some() {
+            out.values.truncate(values_start);
+            out.overflow_fields.truncate(overflow_start);
+            (fields, failed) = (0, None);
+            delim = Delimiter::Comma;
         }
-    } else {
+    }
+    if delim != Delimiter::Whitespace {
         for field in Fields::new(payload, delim) {
             if !take(out, parse_field(field), fields) {
                 if fields > 0 && starts_comment(field, options) {
@@ -286,6 +324,7 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         return DataOutcome::NotData;
     }
     let overflows = u32::try_from(out.overflow_fields.len() - overflow_start).unwrap_or(u32::MAX);
+    out.note_row(fields, overflows);
     out.items.push(Item::Row {
         line,
         fields,
@@ -293,6 +332,50 @@ fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult
         overflows,
     });
     DataOutcome::Done
+}
+
+/// Splits and parses a whitespace-separated row in one pass: the fast float parser finds the
+/// end of the number itself; anything else (D exponents, `****`, text) takes the slow path on
+/// the whole field. Returns the fields taken, the field that is not a number (if any), and
+/// whether the row was read to its end (no field failed, no trailing comment).
+#[inline]
+fn whitespace_row<'a>(
+    payload: &'a [u8],
+    options: &ParseOptions,
+    out: &mut BlockResult,
+) -> (u32, Option<&'a [u8]>, bool) {
+    let mut fields = 0u32;
+    let mut rest = trim(payload);
+    while !rest.is_empty() {
+        let (field, parsed, next) = if let Some((v, n)) = parse_plain(rest) {
+            (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+        } else {
+            match fast_float2::parse_partial::<f64, _>(rest) {
+                Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
+                    (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+                }
+                _ => {
+                    let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
+                    let f = rest.get(..end).unwrap_or_default();
+                    (f, parse_field(f), end)
+                }
+            }
+        };
+        if !take(out, parsed, fields) {
+            if fields > 0 && starts_comment(field, options) {
+                return (fields, None, false); // a trailing comment ends the row
+            }
+            return (fields, Some(field), false);
+        }
+        fields += 1;
+        rest = rest.get(next..).unwrap_or_default();
+        let skip = rest
+            .iter()
+            .position(|&b| !is_space(b))
+            .unwrap_or(rest.len());
+        rest = rest.get(skip..).unwrap_or_default();
+    }
+    (fields, None, true)
 }
 
 /// True when a field starts with a comment prefix (a comment at the end of a row).

@@ -70,8 +70,11 @@
 //! # Two stages, for two cores
 //! [`block::parse_block`] parses complete lines independently of any state;
 //! [`LogParser::apply_block`] merges a block's items in order. `feed` is just the two
-//! applied to the complete lines of each chunk; [`crate::ingest`] splits a large file on
-//! line boundaries, parses the pieces on two threads and applies them in order.
+//! applied to the complete lines of each chunk; [`crate::ingest`] reads a large file in
+//! blocks cut at line boundaries, parses them on two threads and applies them in order.
+//! Runs of plain rows of the current segment are appended in bulk, column by column (from
+//! the block's by-field values when all its rows have one field count); anything that may
+//! change the segment or restart it goes one row at a time, with the same result.
 
 pub mod block;
 pub mod layout;
@@ -205,6 +208,14 @@ impl LogParser {
         }
     }
 
+    /// Reserves room for about `rows` rows in the current segment (a hint from the size of
+    /// the input; see [`crate::table::Segment::reserve`]).
+    pub fn reserve_rows(&mut self, rows: usize) {
+        if let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) {
+            seg.reserve(rows.saturating_sub(seg.rows()));
+        }
+    }
+
     /// Starts over with an empty table and the same options (a truncated or re-created
     /// file is read again from its start).
     pub fn reset(&mut self) {
@@ -287,7 +298,9 @@ impl LogParser {
         let base = self.lines_done;
         let mut vpos = 0usize;
         let mut opos = 0usize;
-        for item in &block.items {
+        let mut at = 0usize;
+        while let Some(item) = block.items.get(at) {
+            at += 1;
             match *item {
                 Item::Row {
                     line,
@@ -296,6 +309,22 @@ impl LogParser {
                     overflows,
                 } => {
                     let n = fields as usize;
+                    if overflows == 0 {
+                        if let Some(rows) = self.row_run(block, at - 1, fields) {
+                            // A run of plain rows of the current segment: appended in bulk.
+                            let end = vpos + rows * n;
+                            let run = RowRun {
+                                values: block.values.get(vpos..end).unwrap_or_default(),
+                                n,
+                                by_field: (block.uniform == fields).then(|| (block, vpos / n)),
+                                items: block.items.get(at - 1..at - 1 + rows).unwrap_or_default(),
+                            };
+                            self.on_rows(base, run);
+                            vpos = end;
+                            at += rows - 1;
+                            continue;
+                        }
+                    }
                     let values = block.values.get(vpos..vpos + n).unwrap_or_default();
                     let ov = block
                         .overflow_fields
@@ -481,13 +510,55 @@ impl LogParser {
             delimiter: delim,
             fields,
             columns: columns.into_iter().map(Column::new).collect(),
-            lines: Vec::new(),
+            lines: crate::table::LineNumbers::new(),
             restarts: Vec::new(),
             header_repeats: 0,
             order_column,
             derived_time,
         });
         self.current = Some(self.table.segments.len() - 1);
+    }
+
+    /// How many rows from `items[at]` on (at least 2) can be appended in bulk: consecutive
+    /// rows of `fields` fields without `****`, when no header candidate is pending and the
+    /// current segment has that many fields (so nothing but restarts can happen).
+    fn row_run(&self, block: &BlockResult, at: usize, fields: u32) -> Option<usize> {
+        if !self.candidates.is_empty() {
+            return None;
+        }
+        let seg = self.current.and_then(|i| self.table.segments.get(i))?;
+        if seg.fields != fields as usize {
+            return None;
+        }
+        let rest = block.items.get(at..)?;
+        let rows = rest
+            .iter()
+            .take_while(|i| matches!(i, Item::Row { fields: f, overflows: 0, .. } if *f == fields))
+            .count();
+        (rows >= 2).then_some(rows)
+    }
+
+    /// Appends a run of rows to the current segment; see [`Self::row_run`].
+    fn on_rows(&mut self, base: u64, run: RowRun<'_>) {
+        self.adjacent = false;
+        let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) else {
+            return;
+        };
+        let rows = run.len();
+        let mut start = 0usize;
+        while start < rows {
+            // Rows up to the next restart go in bulk; the restarting row goes alone.
+            let rest = run.part(start, rows);
+            let end = start + first_restart(seg, &rest);
+            push_rows(seg, base, &run.part(start, end));
+            if let (Some(Item::Row { line, .. }), Some(row)) = (
+                run.items.get(end),
+                run.values.get(end * run.n..(end + 1) * run.n),
+            ) {
+                push_row(seg, base + line + 1, row, &[]);
+            }
+            start = end + 1;
+        }
     }
 
     fn on_row(
@@ -595,6 +666,121 @@ fn push_row(seg: &mut Segment, line: u64, values: &[f64], overflows: &[u32]) {
         }
     }
     seg.lines.push(line);
+}
+
+/// Consecutive rows of one block, all of `n` fields without `****`.
+#[derive(Clone, Copy)]
+struct RowRun<'a> {
+    /// Values row-major, `n` per row.
+    values: &'a [f64],
+    n: usize,
+    /// The block's values by field and the block row of the first row, when it has them.
+    by_field: Option<(&'a BlockResult, usize)>,
+    /// The rows' items (for their lines).
+    items: &'a [Item],
+}
+
+impl<'a> RowRun<'a> {
+    fn len(&self) -> usize {
+        self.items.len()
+    }
+
+    /// Rows `start..end` of the run.
+    fn part(&self, start: usize, end: usize) -> RowRun<'a> {
+        let end = end.min(self.len());
+        let start = start.min(end);
+        RowRun {
+            values: self
+                .values
+                .get(start * self.n..end * self.n)
+                .unwrap_or_default(),
+            n: self.n,
+            by_field: self.by_field.map(|(b, first)| (b, first + start)),
+            items: self.items.get(start..end).unwrap_or_default(),
+        }
+    }
+
+    /// Appends field `field` of every row, as `v * scale + offset` (or `v * scale` without
+    /// an offset: derived time), to `col`.
+    fn extend(&self, col: &mut Column, field: Option<usize>, scale: f64, offset: Option<f64>) {
+        let Some(f) = field.filter(|&f| f < self.n) else {
+            let o = offset.unwrap_or(0.0);
+            match offset {
+                Some(_) => col.extend(self.items.iter().map(|_| f64::NAN * scale + o)),
+                None => col.extend(self.items.iter().map(|_| f64::NAN * scale)),
+            }
+            return;
+        };
+        match (self.by_field, offset) {
+            (Some((block, first)), Some(o)) => {
+                let src = block.field_slice(f, first, self.len());
+                col.extend(src.iter().map(|&v| v * scale + o));
+            }
+            (Some((block, first)), None) => {
+                let src = block.field_slice(f, first, self.len());
+                col.extend(src.iter().map(|&v| v * scale));
+            }
+            (None, Some(o)) => {
+                let rows = self.values.chunks_exact(self.n.max(1));
+                col.extend(rows.map(|r| r.get(f).copied().unwrap_or(f64::NAN) * scale + o));
+            }
+            (None, None) => {
+                let rows = self.values.chunks_exact(self.n.max(1));
+                col.extend(rows.map(|r| r.get(f).copied().unwrap_or(f64::NAN) * scale));
+            }
+        }
+    }
+
+    /// The canonical value `col` would store for each row.
+    fn canonical(&self, col: &Column, derived: Option<(usize, f64)>) -> Vec<f64> {
+        let mut out = Column::new(col.spec.clone());
+        let (field, offset) = match col.spec.field {
+            Some(f) => (Some(f), Some(col.spec.offset)),
+            None => (derived.map(|(s, _)| s), None),
+        };
+        self.extend(&mut out, field, col.spec.scale, offset);
+        out.values
+    }
+}
+
+/// How many rows of `run` go in before the first one that restarts the segment (the order
+/// column goes back, as in [`push_row`]).
+fn first_restart(seg: &Segment, run: &RowRun<'_>) -> usize {
+    let rows = run.len();
+    let Some(col) = seg.order_column.and_then(|oc| seg.columns.get(oc)) else {
+        return rows;
+    };
+    let is_step = col.spec.role == Some(mapping::Role::Step);
+    let order = run.canonical(col, seg.derived_time);
+    let mut last = col.values.last().copied();
+    for (i, &v) in order.iter().enumerate() {
+        if let Some(last) = last {
+            let back = if is_step { v <= last } else { v < last };
+            if v.is_finite() && last.is_finite() && back {
+                return i;
+            }
+        }
+        last = Some(v);
+    }
+    rows
+}
+
+/// Appends rows that restart nothing and hold no `****`, column by column: the same values
+/// as [`push_row`] one row at a time.
+fn push_rows(seg: &mut Segment, base: u64, run: &RowRun<'_>) {
+    let derived = seg.derived_time;
+    for col in &mut seg.columns {
+        let scale = col.spec.scale;
+        match col.spec.field {
+            Some(f) => run.extend(col, Some(f), scale, Some(col.spec.offset)),
+            None => run.extend(col, derived.map(|(s, _)| s), scale, None),
+        }
+    }
+    for item in run.items {
+        if let Item::Row { line, .. } = *item {
+            seg.lines.push(base + line + 1);
+        }
+    }
 }
 
 /// The canonical value a row would store in `col`.

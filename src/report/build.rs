@@ -118,7 +118,7 @@ pub fn build_report(
         delimiter: crate::parse::layout::Delimiter::Whitespace,
         fields: 0,
         columns: Vec::new(),
-        lines: Vec::new(),
+        lines: Default::default(),
         restarts: Vec::new(),
         header_repeats: 0,
         order_column: None,
@@ -135,12 +135,12 @@ pub fn build_report(
             index: i as u64,
             first_row,
             rows: s.rows() as u64,
-            first_line: s.header_line.or_else(|| s.lines.first().copied()),
+            first_line: s.header_line.or_else(|| s.lines.first()),
             columns: s.columns.iter().map(|c| c.spec.name.clone()).collect(),
         });
         for r in &s.restarts {
             use crate::alert::RowLocator;
-            let row = first_row as usize + s.lines.partition_point(|&l| l < r.line);
+            let row = first_row as usize + s.lines.row_at_or_after(r.line);
             restarts.push(Restart {
                 row: row as u64,
                 line: Some(r.line),
