@@ -423,7 +423,7 @@ impl Analyzer {
                 for (series, column) in f.columns.iter_mut().zip(&seg.columns) {
                     series.fold_values(column.values().get(..n).unwrap_or_default());
                 }
-                let lines: Vec<f64> = seg.lines.iter().take(n).map(|&l| l as f64).collect();
+                let lines: Vec<f64> = seg.lines.iter().take(n).map(|l| l as f64).collect();
                 f.lines.fold_values(&lines);
                 f.folded += n;
             }
