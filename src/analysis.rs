@@ -23,6 +23,13 @@
 //! (and at least 50 rows) since the last computation, or when the input is finished, so
 //! the total cost over a run of N rows is O(N log N) times a constant (a geometric series of
 //! O(N log N) computations), never O(N²).
+//!
+//! Each update first finds the per-row flags (spikes, runaway) of the new rows, columns on
+//! all cores, then computes the statistics when due (columns on all cores; when the flags
+//! cover the whole segment their first runaway rows give the stable end without a second
+//! pass), then feeds the engine in a fixed order (drift and fluctuation summaries, then per
+//! segment: restarts, and per column non-finite, spike, runaway, off-target), so alerts and
+//! output do not depend on the number of threads.
 
 mod parallel;
 
@@ -742,21 +749,10 @@ impl Analyzer {
             let part = v.get(row.min(end)..end)?;
             stats::temperature_fluctuation(part, n_df, None, self.opts.thresholds.fluctuation_band)
         };
-        // The two are independent: one core each.
-        let (drift, fluctuation) = {
-            let tasks = [0u8, 1];
-            let mut done = map_in_order(&tasks, parallel, |&t| {
-                if t == 0 {
-                    (drift_task(), None)
-                } else {
-                    (None, fluctuation_task())
-                }
-            })
-            .into_iter();
-            let d = done.next().and_then(|r| r.0);
-            let f = done.next().and_then(|r| r.1);
-            (d, f)
-        };
+        // One after the other: each needs a whole-column working copy (residuals, squared
+        // deviations), and run side by side the two copies would raise the peak memory.
+        let drift = drift_task();
+        let fluctuation = fluctuation_task();
         if let Some((role, d)) = drift {
             if let Some(c) = columns.iter_mut().find(|c| c.role == Some(role)) {
                 c.drift = Some(d);
