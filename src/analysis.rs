@@ -1200,12 +1200,20 @@ fn runaway_flags(
     let w = opts.window.max(3);
     let mut flagged: Vec<(usize, f64)> = Vec::new();
     let mut scratch = Vec::with_capacity(RUNAWAY_BASELINE_ROWS);
+    // The baseline's end changes every RUNAWAY_BASELINE_STEP rows: one division per
+    // step, not per row.
+    let mut base_end = 0;
+    let mut next_step = 0;
     for r in rows.start.max(2 * w - 1)..rows.end {
         let Some(&x) = values.get(r) else { break };
         if !x.is_finite() {
             continue;
         }
-        let base_end = ((r + 1 - w) / RUNAWAY_BASELINE_STEP) * RUNAWAY_BASELINE_STEP;
+        if r >= next_step {
+            let steps = (r + 1 - w) / RUNAWAY_BASELINE_STEP;
+            base_end = steps * RUNAWAY_BASELINE_STEP;
+            next_step = (steps + 1) * RUNAWAY_BASELINE_STEP + w - 1;
+        }
         let base = match *cache {
             Some((end, b)) if end == base_end => b,
             _ => {
