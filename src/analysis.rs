@@ -159,7 +159,10 @@ pub struct ColumnAnalysis {
     pub fluctuation: Option<FluctuationCheck>,
     pub spikes: u64,
     pub last: Option<f64>,
-    /// Statistical inefficiency of the whole stable part (used while not equilibrated).
+    /// Statistical inefficiency of the whole stable part (median `g` of 500-row blocks),
+    /// for the off-target check while the column has no production `g`; computed only for
+    /// a temperature or pressure column with a target and no production `g` (`None`
+    /// otherwise: nothing else reads it).
     pub inefficiency_all: Option<f64>,
 }
 
