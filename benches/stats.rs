@@ -1,13 +1,20 @@
 //! Criterion benches for the statistics module: each statistic on 10⁶ rows (the O(n²)
-//! trend tests on their 2000-point cap), and "all statistics for 1,000,000 rows × 10
-//! columns". Synthetic data made here (AR(1) noise with transients); not run in CI.
+//! trend tests on their 2000-point cap), "all statistics for 1,000,000 rows × 10
+//! columns", and the whole analysis of a report (`Analyzer::update` on an invented
+//! 10-column log of 10⁶ rows: every statistic, every per-row detector, on all cores).
+//! Synthetic data made here (AR(1) noise with transients, and the `equilibration`
+//! scenario); not run in CI.
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers may fail loudly
 
 use std::hint::black_box;
 
 use criterion::{criterion_group, Criterion};
+use plateau::analysis::{AnalysisOptions, Analyzer};
+use plateau::parse::ParseOptions;
+use plateau::scenario::{write_log, LogStyle, Scenario, ScenarioSpec};
 use plateau::stats::{self, Estimator, HampelOptions, RunawayOptions, SlopeSeMethod};
+use plateau::table::RunTable;
 
 const N: usize = 1_000_000;
 
@@ -62,6 +69,21 @@ fn all_for_column(t: &[f64], x: &[f64]) -> usize {
     acc += stats::hampel(x, &HampelOptions::default()).len();
     acc += usize::from(stats::runaway(x, &RunawayOptions::default()).is_runaway());
     acc
+}
+
+/// An invented 10-column log (step, time and 8 analysed columns) of `rows` rows, parsed.
+fn scenario_table(rows: u64) -> RunTable {
+    let spec = ScenarioSpec::new(Scenario::Equilibration, LogStyle::Whitespace, rows);
+    let mut text = Vec::new();
+    write_log(&spec, &mut text).unwrap();
+    plateau::ingest::read_with(&text[..], ParseOptions::default(), 16 << 20).unwrap()
+}
+
+/// The whole analysis of a finished file, as `plateau report` runs it.
+fn analyse(table: &RunTable) -> usize {
+    let mut analyzer = Analyzer::new(AnalysisOptions::default());
+    let a = analyzer.update(table, true, None, false);
+    a.columns.len() + analyzer.engine().alerts().len()
 }
 
 fn benches(c: &mut Criterion) {
@@ -131,6 +153,10 @@ fn benches(c: &mut Criterion) {
                 .sum::<usize>()
         })
     });
+    let table = scenario_table(N as u64);
+    g.bench_function("report_analysis_1e6_rows_x_10_columns", |b| {
+        b.iter(|| analyse(black_box(&table)))
+    });
     g.finish();
 }
 
@@ -139,12 +165,21 @@ criterion_group!(stats_benches, benches);
 /// `PLATEAU_STATS_PASSES=K` skips criterion: it builds the 10 columns and runs the
 /// all-statistics pass K times, so `perf stat -e task-clock` with K = 0 and K > 0 gives the
 /// CPU time per pass even on a machine shared with other jobs (wall time is then
-/// meaningless).
+/// meaningless). With `PLATEAU_ANALYSIS_FILE=LOG` as well it reads LOG instead and runs
+/// the whole report analysis (`Analyzer::update`) K times.
 fn main() {
-    if let Some(k) = std::env::var("PLATEAU_STATS_PASSES")
+    let passes = std::env::var("PLATEAU_STATS_PASSES")
         .ok()
-        .and_then(|v| v.parse::<usize>().ok())
-    {
+        .and_then(|v| v.parse::<usize>().ok());
+    if let (Some(k), Some(path)) = (passes, std::env::var_os("PLATEAU_ANALYSIS_FILE")) {
+        let table =
+            plateau::ingest::read_path(std::path::Path::new(&path), ParseOptions::default())
+                .unwrap();
+        let acc: usize = (0..k).map(|_| analyse(black_box(&table))).sum();
+        println!("{acc}");
+        return;
+    }
+    if let Some(k) = passes {
         let t: Vec<f64> = (0..N).map(|i| i as f64 * 0.002).collect();
         let cols: Vec<Vec<f64>> = (0..10).map(|c| column(c, N)).collect();
         let mut acc = 0usize;

@@ -23,8 +23,19 @@
 //! (and at least 50 rows) since the last computation, or when the input is finished, so
 //! the total cost over a run of N rows is O(N log N) times a constant (a geometric series of
 //! O(N log N) computations), never O(N²).
+//!
+//! Each update first finds the per-row flags (spikes, runaway) of the new rows, columns on
+//! all cores, then computes the statistics when due (columns on all cores; when the flags
+//! cover the whole segment their first runaway rows give the stable end without a second
+//! pass), then feeds the engine in a fixed order (drift and fluctuation summaries, then per
+//! segment: restarts, and per column non-finite, spike, runaway, off-target), so alerts and
+//! output do not depend on the number of threads.
+
+mod parallel;
 
 use std::ops::Range;
+
+use parallel::{map_in_order, PARALLEL_MIN_VALUES};
 
 use crate::alert::{
     AlertEngine, AlertKind, DriftEvidence, FluctuationEvidence, OffTargetInput, RowLocator,
@@ -36,7 +47,7 @@ use crate::stats::{
     self, Equilibration, Estimator, FluctuationCheck, FluctuationVerdict, HampelOptions, Mser,
     RunawayOptions, SlopeSeMethod,
 };
-use crate::table::{RunTable, Segment};
+use crate::table::{Column, RunTable, Segment};
 
 mod folded;
 pub use crate::fold::{DEFAULT_KEEP_ROWS, MIN_KEEP_ROWS};
@@ -152,7 +163,10 @@ pub struct ColumnAnalysis {
     pub fluctuation: Option<FluctuationCheck>,
     pub spikes: u64,
     pub last: Option<f64>,
-    /// Statistical inefficiency of the whole stable part (used while not equilibrated).
+    /// Statistical inefficiency of the whole stable part (median `g` of 500-row blocks),
+    /// for the off-target check while the column has no production `g`; computed only for
+    /// a temperature or pressure column with a target and no production `g` (`None`
+    /// otherwise: nothing else reads it).
     pub inefficiency_all: Option<f64>,
 }
 
@@ -229,6 +243,18 @@ fn has_statistics(role: Option<Role>) -> bool {
     !matches!(role, Some(Role::Step) | Some(Role::Time))
 }
 
+/// The rows of `v` before `stable_end`.
+fn stable_part(v: &[f64], stable_end: usize) -> &[f64] {
+    v.get(..stable_end.min(v.len())).unwrap_or(&[])
+}
+
+fn analysed_count(seg: &Segment) -> usize {
+    seg.columns
+        .iter()
+        .filter(|c| has_statistics(c.spec.role))
+        .count()
+}
+
 fn first_nonfinite(x: &[f64]) -> usize {
     x.iter().position(|v| !v.is_finite()).unwrap_or(x.len())
 }
@@ -239,6 +265,35 @@ struct ColumnCursor {
     /// Cached runaway baseline: (end row within segment, baseline).
     baseline: Option<(usize, Option<stats::Baseline>)>,
     spikes: u64,
+}
+
+/// A runaway baseline cache: (end row within segment, baseline).
+type BaselineCache = Option<(usize, Option<stats::Baseline>)>;
+
+/// What the per-row detectors of one segment look at in this update.
+#[derive(Debug, Clone, Copy)]
+struct ScanPlan {
+    /// Rows of the segment.
+    n: usize,
+    /// First row not yet scanned (non-finite, runaway, off-target).
+    start: usize,
+    /// Rows judged by the spike detector: `spike_start..spike_end`.
+    spike_start: usize,
+    spike_end: usize,
+    /// Rows scanned by the spike detector before this update, after new restarts (not
+    /// clamped to `n`).
+    spike_scanned: usize,
+}
+
+/// Per-row detector results of one analysed column over the rows of a [`ScanPlan`]
+/// (segment rows, ascending). Pure, so columns are computed on all cores; the alert
+/// engine then sees them column by column in order.
+#[derive(Debug, Clone, Default)]
+struct ColumnFlags {
+    /// Hampel rows confirmed by the context test.
+    spikes: Vec<usize>,
+    /// Runaway rows with the growth's samples per decade (NaN for a far excursion).
+    runaway: Vec<(usize, f64)>,
 }
 
 /// The incremental analyser: owns the alert engine and what was already looked at.
@@ -322,21 +377,49 @@ impl Analyzer {
             }
             _ => true,
         };
+        // Per-row detectors (pure) on every segment's new rows, before the statistics so
+        // the runaway rows found here also give the statistics' stable end.
+        let plans: Vec<ScanPlan> = table
+            .segments
+            .iter()
+            .enumerate()
+            .map(|(si, seg)| self.scan_plan(si, seg, finished))
+            .collect();
+        let flags: Vec<Vec<Option<ColumnFlags>>> = table
+            .segments
+            .iter()
+            .zip(&plans)
+            .enumerate()
+            .map(|(si, (seg, plan))| self.detect(si, seg, plan))
+            .collect();
+
         if due || self.cached.is_none() {
             if let Some(s) = last {
                 let rows = self.segment_total_rows(table, s);
-                self.cached = Some(self.full_view(table, s));
+                // Runaway rows of the whole segment are known when this update scans it
+                // from its first row (a whole file, or a new segment).
+                let known = plans
+                    .get(s)
+                    .filter(|p| p.start == 0)
+                    .and_then(|_| flags.get(s))
+                    .map(Vec::as_slice);
+                self.cached = Some(self.full_view(table, s, known));
                 self.full_at = Some((s, rows));
                 self.evaluation += 1;
                 self.evaluate_summaries(table, s);
             }
         }
 
-        // Per-row detectors on every segment's new rows.
+        // Per-row alerts on every segment's new rows, in order.
         let mut offset = 0usize;
-        for (si, seg) in table.segments.iter().enumerate() {
+        for (si, (seg, (plan, seg_flags))) in table
+            .segments
+            .iter()
+            .zip(plans.iter().zip(&flags))
+            .enumerate()
+        {
             offset += self.forgotten_rows(si);
-            self.scan_segment(table, si, seg, offset, finished);
+            self.scan_segment(table, si, seg, offset, plan, seg_flags);
             offset += seg.rows();
         }
 
@@ -465,84 +548,108 @@ impl Analyzer {
         p
     }
 
-    /// The full statistics of segment `si`.
-    fn full(&self, table: &RunTable, si: usize) -> RunAnalysis {
+    /// The full statistics of segment `si`. `known`: per-row detector results of this
+    /// update covering the whole segment (their runaway rows give the stable end without a
+    /// second pass). Columns are computed on all cores.
+    fn full(
+        &self,
+        table: &RunTable,
+        si: usize,
+        known: Option<&[Option<ColumnFlags>]>,
+    ) -> RunAnalysis {
         let Some(seg) = table.segments.get(si) else {
             return empty_analysis(si + 1);
         };
         let first_row: usize = table.segments.iter().take(si).map(Segment::rows).sum();
+        let parallel = seg.rows() >= PARALLEL_MIN_VALUES / 4;
         // The statistics describe the run before it blew up: rows from the first non-finite
         // value or runaway growth in any analysed column on are left out.
         let ropts = runaway_options(&self.opts.thresholds);
-        let stable_end = seg
+        let analysed: Vec<(usize, &Column)> = seg
             .columns
             .iter()
-            .filter(|c| has_statistics(c.spec.role))
-            .map(|c| {
-                let v = c.values();
-                let end = first_nonfinite(v);
-                let mut cache = None;
-                runaway_flags(v, 0..end, &ropts, &mut cache, true)
-                    .first()
-                    .map_or(end, |f| f.0)
-            })
-            .min()
-            .unwrap_or(seg.rows());
-        let mut columns: Vec<ColumnAnalysis> = seg
-            .columns
-            .iter()
-            .map(|c| {
-                let values = c.values();
-                let finite_end = first_nonfinite(values).min(stable_end);
-                let x = values.get(..finite_end).unwrap_or(&[]);
-                let (equilibration, mser, production, trend) = if has_statistics(c.spec.role) {
-                    let eq = stats::detect_equilibration(x);
-                    let mser = stats::mser5(x);
-                    let production = eq.row().and_then(|row| production(x, row));
-                    let trend = eq
-                        .row()
-                        .and_then(|row| trend(x.get(row..).unwrap_or(&[]), seg, row));
-                    (Some(eq), mser, production, trend)
-                } else {
-                    (None, None, None, None)
-                };
-                ColumnAnalysis {
-                    name: c.spec.name.clone(),
-                    role: c.spec.role,
-                    unit: c.spec.unit.map(|u| u.to_string()).unwrap_or_default(),
-                    source_unit: c
-                        .spec
-                        .source_unit
-                        .map(|u| u.to_string())
-                        .or_else(|| c.spec.header_unit.clone())
-                        .unwrap_or_default(),
-                    unit_assumed: c.spec.assumed,
-                    count: values.len(),
-                    nonfinite: c.non_finite + c.overflow,
-                    equilibration,
-                    mser,
-                    production,
-                    trend,
-                    drift: None,
-                    fluctuation: None,
-                    spikes: self
-                        .cursors
-                        .get(si)
-                        .and_then(|v| {
-                            v.iter()
-                                .zip(&seg.columns)
-                                .find(|(_, cc)| cc.spec.name == c.spec.name)
-                        })
-                        .map_or(0, |(cur, _)| cur.spikes),
-                    last: values.last().copied(),
-                    inefficiency_all: if has_statistics(c.spec.role) {
-                        blockwise_inefficiency(x)
-                    } else {
-                        None
-                    },
-                }
-            })
+            .enumerate()
+            .filter(|(_, c)| has_statistics(c.spec.role))
             .collect();
+        let stable_end = map_in_order(&analysed, parallel, |&(ci, c)| {
+            let v = c.values();
+            let end = first_nonfinite(v);
+            let first_runaway = match known.and_then(|k| k.get(ci)).and_then(Option::as_ref) {
+                Some(flags) => flags.runaway.first().map(|f| f.0),
+                None => {
+                    let mut cache = None;
+                    runaway_flags(v, 0..end, &ropts, &mut cache, true)
+                        .first()
+                        .map(|f| f.0)
+                }
+            };
+            first_runaway.map_or(end, |r| r.min(end))
+        })
+        .into_iter()
+        .min()
+        .unwrap_or(seg.rows());
+        let cursors = self.cursors.get(si);
+        let opts = &self.opts;
+        let mut columns: Vec<ColumnAnalysis> = map_in_order(&seg.columns, parallel, |c| {
+            let values = c.values();
+            let finite_end = first_nonfinite(values).min(stable_end);
+            let x = values.get(..finite_end).unwrap_or(&[]);
+            let (equilibration, mser, production, trend) = if has_statistics(c.spec.role) {
+                let eq = stats::detect_equilibration(x);
+                let mser = stats::mser5(x);
+                let production = match eq {
+                    Equilibration::Onset { row, g, n_eff } => production(x, row, g, n_eff),
+                    _ => None,
+                };
+                let trend = eq
+                    .row()
+                    .and_then(|row| trend(x.get(row..).unwrap_or(&[]), seg, row));
+                (Some(eq), mser, production, trend)
+            } else {
+                (None, None, None, None)
+            };
+            // Only the off-target check reads it, and only without a production g.
+            let needs_inefficiency_all = has_statistics(c.spec.role)
+                && production.as_ref().and_then(|p| p.inefficiency).is_none()
+                && match c.spec.role {
+                    Some(Role::Temperature) => opts.target_temperature.is_some(),
+                    Some(Role::Pressure) => opts.target_pressure.is_some(),
+                    _ => false,
+                };
+            ColumnAnalysis {
+                name: c.spec.name.clone(),
+                role: c.spec.role,
+                unit: c.spec.unit.map(|u| u.to_string()).unwrap_or_default(),
+                source_unit: c
+                    .spec
+                    .source_unit
+                    .map(|u| u.to_string())
+                    .or_else(|| c.spec.header_unit.clone())
+                    .unwrap_or_default(),
+                unit_assumed: c.spec.assumed,
+                count: values.len(),
+                nonfinite: c.non_finite + c.overflow,
+                equilibration,
+                mser,
+                production,
+                trend,
+                drift: None,
+                fluctuation: None,
+                spikes: cursors
+                    .and_then(|v| {
+                        v.iter()
+                            .zip(&seg.columns)
+                            .find(|(_, cc)| cc.spec.name == c.spec.name)
+                    })
+                    .map_or(0, |(cur, _)| cur.spikes),
+                last: values.last().copied(),
+                inefficiency_all: if needs_inefficiency_all {
+                    blockwise_inefficiency(x)
+                } else {
+                    None
+                },
+            }
+        });
 
         // The run's onset.
         let matters = [
@@ -616,54 +723,57 @@ impl Analyzer {
         // drift strong enough to keep the run from settling is still a drift).
         let drift_from =
             run_row.or_else(|| matches!(run_eq, Some(Equilibration::NotYet)).then_some(0));
-        if let (Some(role), Some(row), Some(times)) = (drift_role, drift_from, times) {
-            let cut = |v: &'_ [f64]| -> Vec<f64> {
-                v.get(..stable_end.min(v.len())).unwrap_or(&[]).to_vec()
-            };
+        let drift_task = || -> Option<(Role, DriftSummary)> {
+            let (role, row, times) = (drift_role?, drift_from?, times?);
             let temperature_mean = seg
                 .column(Role::Temperature)
-                .and_then(|c| finite_part_mean(&cut(c.values()), row));
+                .and_then(|c| finite_part_mean(stable_part(c.values(), stable_end), row));
             let kinetic_mean = seg
                 .column(Role::Kinetic)
-                .and_then(|c| finite_part_mean(&cut(c.values()), row));
-            if let Some(c) = columns.iter_mut().find(|c| c.role == Some(role)) {
-                if let Some(col) = seg.column(role) {
-                    let v = col.values();
-                    c.drift = drift_summary(
-                        v.get(..stable_end.min(v.len())).unwrap_or(&[]),
-                        times,
-                        row,
-                        &self.opts,
-                        n_df,
-                        temperature_mean,
-                        kinetic_mean,
-                        c.unit == "kJ/mol",
-                    );
-                }
-            }
-        }
-
+                .and_then(|c| finite_part_mean(stable_part(c.values(), stable_end), row));
+            let c = columns.iter().find(|c| c.role == Some(role))?;
+            let col = seg.column(role)?;
+            let d = drift_summary(
+                stable_part(col.values(), stable_end),
+                times,
+                row,
+                &self.opts,
+                n_df,
+                temperature_mean,
+                kinetic_mean,
+                c.unit == "kJ/mol",
+            )?;
+            Some((role, d))
+        };
         // Fluctuation size: NVT/NPT with N_df known, after the run's onset.
         let canonical = ensemble
             .as_ref()
             .is_some_and(|e| matches!(e.ensemble, Ensemble::Nvt | Ensemble::Npt));
-        if let (true, Some(n_df), Some(row)) = (canonical, n_df, run_row) {
+        let fluctuation_task = || -> Option<FluctuationCheck> {
+            let (true, Some(n_df), Some(row)) = (canonical, n_df, run_row) else {
+                return None;
+            };
+            columns.iter().find(|c| c.role == Some(Role::Temperature))?;
+            let v = seg.column(Role::Temperature)?.values();
+            let end = first_nonfinite(v).min(stable_end);
+            let part = v.get(row.min(end)..end)?;
+            stats::temperature_fluctuation(part, n_df, None, self.opts.thresholds.fluctuation_band)
+        };
+        // One after the other: each needs a whole-column working copy (residuals, squared
+        // deviations), and run side by side the two copies would raise the peak memory.
+        let drift = drift_task();
+        let fluctuation = fluctuation_task();
+        if let Some((role, d)) = drift {
+            if let Some(c) = columns.iter_mut().find(|c| c.role == Some(role)) {
+                c.drift = Some(d);
+            }
+        }
+        if let Some(f) = fluctuation {
             if let Some(c) = columns
                 .iter_mut()
                 .find(|c| c.role == Some(Role::Temperature))
             {
-                if let Some(col) = seg.column(Role::Temperature) {
-                    let v = col.values();
-                    let end = first_nonfinite(v).min(stable_end);
-                    if let Some(part) = v.get(row.min(end)..end) {
-                        c.fluctuation = stats::temperature_fluctuation(
-                            part,
-                            n_df,
-                            None,
-                            self.opts.thresholds.fluctuation_band,
-                        );
-                    }
-                }
+                c.fluctuation = Some(f);
             }
         }
 
@@ -719,16 +829,103 @@ impl Analyzer {
         }
     }
 
-    /// Per-row detectors on the new rows of segment `si`.
+    /// The rows the per-row detectors of segment `si` look at in this update: from the
+    /// first row not yet scanned (or the first row a new restart replaced). Pure; the
+    /// restarts are reported and the counters moved by [`Analyzer::scan_segment`].
+    fn scan_plan(&self, si: usize, seg: &Segment, finished: bool) -> ScanPlan {
+        let n = seg.rows();
+        let mut start = self.scanned.get(si).copied().unwrap_or(0);
+        let mut spike_start = self.spike_scanned.get(si).copied().unwrap_or(0);
+        let seen = self.restarts_seen.get(si).copied().unwrap_or(0);
+        for r in seg.restarts.iter().skip(seen) {
+            let row_in_seg = seg.lines.row_at_or_after(r.line);
+            start = start.min(row_in_seg);
+            spike_start = spike_start.min(row_in_seg);
+        }
+        let k = self.opts.thresholds.spike_window.max(1);
+        ScanPlan {
+            n,
+            start: start.min(n),
+            spike_start: spike_start.min(n),
+            spike_end: if finished { n } else { n.saturating_sub(k) },
+            spike_scanned: spike_start,
+        }
+    }
+
+    /// Spike and runaway rows of every analysed column of segment `si` over `plan`,
+    /// columns on all cores (pure but for the runaway baseline caches, which only memoise).
+    fn detect(&mut self, si: usize, seg: &Segment, plan: &ScanPlan) -> Vec<Option<ColumnFlags>> {
+        let t = &self.opts.thresholds;
+        let k = t.spike_window.max(1);
+        let context_sigmas = spike_threshold(
+            t.spike_sigmas,
+            (plan.n + self.forgotten_rows(si)).saturating_mul(analysed_count(seg)),
+        );
+        let ropts = runaway_options(t);
+        let hopts = HampelOptions {
+            half_window: k,
+            threshold: t.spike_sigmas,
+            ..HampelOptions::default()
+        };
+        let Some(cursors) = self.cursors.get_mut(si) else {
+            return Vec::new();
+        };
+        cursors.resize_with(seg.columns.len(), ColumnCursor::default);
+        let jobs: Vec<(&Column, BaselineCache)> = seg
+            .columns
+            .iter()
+            .zip(cursors.iter())
+            .map(|(c, cur)| (c, cur.baseline))
+            .collect();
+        let new_rows = plan.n - plan.start.min(plan.spike_start);
+        let parallel = new_rows.saturating_mul(analysed_count(seg)) >= PARALLEL_MIN_VALUES;
+        let done = map_in_order(&jobs, parallel, |&(col, cache)| {
+            if !has_statistics(col.spec.role) {
+                return None;
+            }
+            let values = col.values();
+            // Spikes (Hampel), rows whose full window is available.
+            let spikes = if plan.spike_end > plan.spike_start {
+                let lo = plan.spike_start.saturating_sub(k);
+                let hi = (plan.spike_end + k).min(plan.n);
+                values
+                    .get(lo..hi)
+                    .map(|w| stats::hampel(w, &hopts))
+                    .unwrap_or_default()
+                    .into_iter()
+                    .map(|i| i + lo)
+                    .filter(|i| (plan.spike_start..plan.spike_end).contains(i))
+                    .filter(|&i| beyond_context(values, i, k, context_sigmas))
+                    .collect()
+            } else {
+                Vec::new()
+            };
+            let mut cache = cache;
+            let runaway = runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false);
+            Some((ColumnFlags { spikes, runaway }, cache))
+        });
+        done.into_iter()
+            .zip(cursors.iter_mut())
+            .map(|(d, cur)| {
+                d.map(|(flags, cache)| {
+                    cur.baseline = cache;
+                    flags
+                })
+            })
+            .collect()
+    }
+
+    /// Per-row alerts on the new rows of segment `si` (`plan`, with the spike and runaway
+    /// rows already found by [`Analyzer::detect`]), fed to the engine column by column.
     fn scan_segment(
         &mut self,
         table: &RunTable,
         si: usize,
         seg: &Segment,
         offset: usize,
-        finished: bool,
+        plan: &ScanPlan,
+        flags: &[Option<ColumnFlags>],
     ) {
-        let n = seg.rows();
         let loc = TableLocator::new(seg, offset);
         // Restarts: rows from the restart on were replaced; report and rescan them.
         let seen = self.restarts_seen.get(si).copied().unwrap_or(0);
@@ -736,38 +933,30 @@ impl Analyzer {
             let row_in_seg = seg.lines.row_at_or_after(r.line);
             self.engine
                 .restart(offset + row_in_seg, r.rows_replaced, &loc);
-            if let Some(s) = self.scanned.get_mut(si) {
-                *s = (*s).min(row_in_seg);
-            }
-            if let Some(s) = self.spike_scanned.get_mut(si) {
-                *s = (*s).min(row_in_seg);
-            }
         }
         if let Some(s) = self.restarts_seen.get_mut(si) {
             *s = seg.restarts.len();
         }
-        let start = self.scanned.get(si).copied().unwrap_or(0).min(n);
-        let spike_start = self.spike_scanned.get(si).copied().unwrap_or(0).min(n);
+        let ScanPlan {
+            n,
+            start,
+            spike_start,
+            spike_end,
+            ..
+        } = *plan;
         if let Some(c) = self.cursors.get_mut(si) {
             c.resize_with(seg.columns.len(), ColumnCursor::default);
         }
         let t = self.opts.thresholds.clone();
-        let k = t.spike_window.max(1);
-        let spike_end = if finished { n } else { n.saturating_sub(k) };
         let is_last = si + 1 == table.segments.len();
         let analysis = if is_last { self.cached.clone() } else { None };
         let run_row = analysis
             .as_ref()
             .and_then(|a| a.equilibration.and_then(|e| e.row()));
 
-        let analysed = seg
-            .columns
-            .iter()
-            .filter(|c| has_statistics(c.spec.role))
-            .count();
         let context_sigmas = spike_threshold(
             t.spike_sigmas,
-            (n + self.forgotten_rows(si)).saturating_mul(analysed),
+            (n + self.forgotten_rows(si)).saturating_mul(analysed_count(seg)),
         );
         for (ci, col) in seg.columns.iter().enumerate() {
             let name = col.spec.name.as_str();
@@ -779,35 +968,23 @@ impl Analyzer {
             if !has_statistics(col.spec.role) {
                 continue;
             }
+            let Some(found) = flags.get(ci).and_then(Option::as_ref) else {
+                continue;
+            };
             // Spikes (Hampel), rows whose full window is available.
             if spike_end > spike_start {
-                let lo = spike_start.saturating_sub(k);
-                let hi = (spike_end + k).min(n);
-                let opts = HampelOptions {
-                    half_window: k,
-                    threshold: t.spike_sigmas,
-                    ..HampelOptions::default()
-                };
-                let flagged: Vec<usize> = values
-                    .get(lo..hi)
-                    .map(|w| stats::hampel(w, &opts))
-                    .unwrap_or_default()
-                    .into_iter()
-                    .map(|i| i + lo)
-                    .filter(|i| (spike_start..spike_end).contains(i))
-                    .filter(|&i| beyond_context(values, i, k, context_sigmas))
-                    .collect();
+                let flagged = &found.spikes;
                 if let Some(cur) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) {
                     cur.spikes += flagged.len() as u64;
                 }
                 let clear = t.spike_clear_rows;
                 let unit_s = unit.clone();
-                self.engine.scan(
+                self.engine.scan_flagged(
                     AlertKind::Spike,
                     name,
                     Sustain::immediate(clear),
                     offset + spike_start..offset + spike_end,
-                    |r| flagged.binary_search(&(r - offset)).is_ok(),
+                    flagged.iter().map(|r| r + offset),
                     |since, _| {
                         let v = values.get(since - offset).copied().unwrap_or(f64::NAN);
                         crate::alert::Alert::new(
@@ -828,7 +1005,7 @@ impl Analyzer {
                 );
             }
             // Runaway growth.
-            self.scan_runaway(si, ci, name, &unit, values, start, n, offset, &loc);
+            self.scan_runaway(name, &unit, values, &found.runaway, start..n, offset, &loc);
             // Off-target temperature / pressure.
             let (kind, target, tolerance) = match col.spec.role {
                 Some(Role::Temperature) => (
@@ -886,36 +1063,29 @@ impl Analyzer {
             *s = n;
         }
         if let Some(s) = self.spike_scanned.get_mut(si) {
-            *s = (*s).max(spike_end);
+            *s = plan.spike_scanned.max(spike_end);
         }
     }
 
     #[allow(clippy::too_many_arguments)]
     fn scan_runaway(
         &mut self,
-        si: usize,
-        ci: usize,
         name: &str,
         unit: &str,
         values: &[f64],
-        start: usize,
-        n: usize,
+        flagged: &[(usize, f64)],
+        rows: Range<usize>,
         offset: usize,
         loc: &TableLocator<'_>,
     ) {
-        let opts = runaway_options(&self.opts.thresholds);
-        let w = opts.window;
-        let Some(cursor) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) else {
-            return;
-        };
-        let flagged = runaway_flags(values, start..n, &opts, &mut cursor.baseline, false);
+        let w = runaway_options(&self.opts.thresholds).window;
         let unit_s = unit.to_string();
-        self.engine.scan(
+        self.engine.scan_flagged(
             AlertKind::Runaway,
             name,
             Sustain::immediate(u32::try_from(w).unwrap_or(20)),
-            offset + start..offset + n,
-            |r| flagged.binary_search_by_key(&(r - offset), |p| p.0).is_ok(),
+            offset + rows.start..offset + rows.end,
+            flagged.iter().map(|p| p.0 + offset),
             |since, _| {
                 let x = values.get(since - offset).copied().unwrap_or(f64::NAN);
                 let rate = flagged
@@ -1033,8 +1203,9 @@ pub fn runaway_options(t: &Thresholds) -> RunawayOptions {
 /// Rows in `rows` that grow exponentially or sit far out (with the growth's samples per
 /// decade, NaN for a far excursion), judged against the median and MAD of the
 /// [`RUNAWAY_BASELINE_ROWS`] rows that end at the last multiple of
-/// [`RUNAWAY_BASELINE_STEP`] before the checked window (`cache` keeps the last baseline). O(rows) plus O(window) per row that passes the cheap
-/// size test. With `first_only` it stops at the first flagged row.
+/// [`RUNAWAY_BASELINE_STEP`] before the checked window (`cache` keeps the last baseline).
+/// O(rows) plus O(window) per row that passes the cheap size test. With `first_only` it
+/// stops at the first flagged row.
 fn runaway_flags(
     values: &[f64],
     rows: Range<usize>,
@@ -1044,18 +1215,27 @@ fn runaway_flags(
 ) -> Vec<(usize, f64)> {
     let w = opts.window.max(3);
     let mut flagged: Vec<(usize, f64)> = Vec::new();
+    let mut scratch = Vec::with_capacity(RUNAWAY_BASELINE_ROWS);
+    // The baseline's end changes every RUNAWAY_BASELINE_STEP rows: one division per
+    // step, not per row.
+    let mut base_end = 0;
+    let mut next_step = 0;
     for r in rows.start.max(2 * w - 1)..rows.end {
         let Some(&x) = values.get(r) else { break };
         if !x.is_finite() {
             continue;
         }
-        let base_end = ((r + 1 - w) / RUNAWAY_BASELINE_STEP) * RUNAWAY_BASELINE_STEP;
+        if r >= next_step {
+            let steps = (r + 1 - w) / RUNAWAY_BASELINE_STEP;
+            base_end = steps * RUNAWAY_BASELINE_STEP;
+            next_step = (steps + 1) * RUNAWAY_BASELINE_STEP + w - 1;
+        }
         let base = match *cache {
             Some((end, b)) if end == base_end => b,
             _ => {
                 let b = values
                     .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
-                    .and_then(stats::Baseline::from_slice);
+                    .and_then(|part| stats::Baseline::from_slice_with(part, &mut scratch));
                 *cache = Some((base_end, b));
                 b
             }
@@ -1099,13 +1279,12 @@ fn finite_part_mean(values: &[f64], from: usize) -> Option<f64> {
     stats::mean(values.get(from.min(end)..end)?)
 }
 
-fn production(x: &[f64], row: usize) -> Option<ProductionStats> {
+/// Production statistics of `x[row..]`; `g` and `n_eff` are the onset's, computed on the
+/// same full-resolution tail by the onset search (not recomputed).
+fn production(x: &[f64], row: usize, g: f64, n_eff: f64) -> Option<ProductionStats> {
     let tail = x.get(row..)?;
-    let summary = stats::summarize(tail)?;
-    let var_pop = stats::variance_population(tail);
-    let ineff = stats::inefficiency(tail);
-    let g = ineff.as_ref().map(|i| i.g);
-    let block = stats::block_average(tail);
+    let (summary, var_pop) = stats::summarize_with_variance(tail)?;
+    let block = stats::blocking::block_average_with_variance(tail, var_pop);
     Some(ProductionStats {
         first_row: row,
         count: tail.len(),
@@ -1113,13 +1292,10 @@ fn production(x: &[f64], row: usize) -> Option<ProductionStats> {
         std: summary.std,
         variance_population: var_pop,
         sem_block: block.map(|b| b.sem),
-        sem_from_g: match (var_pop, g) {
-            (Some(v), Some(g)) => stats::sem_from_g(v, g, tail.len()),
-            _ => None,
-        },
-        inefficiency: g,
+        sem_from_g: var_pop.and_then(|v| stats::sem_from_g(v, g, tail.len())),
+        inefficiency: Some(g),
         estimator: Estimator::FirstNegative,
-        effective_samples: ineff.map(|i| i.n_eff),
+        effective_samples: Some(n_eff),
         min: summary.min,
         max: summary.max,
     })

@@ -71,6 +71,21 @@ impl Hysteresis {
         self.active
     }
 
+    /// Feeds `count` consecutive false observations at once: the same state as `count`
+    /// calls of `observe(_, false)` (a false observation never raises, and the only other
+    /// transition, clearing, leaves nothing to report). O(1).
+    pub fn observe_false_run(&mut self, count: u64) {
+        if count == 0 {
+            return;
+        }
+        self.true_run = 0;
+        let count = u32::try_from(count).unwrap_or(u32::MAX);
+        self.false_run = self.false_run.saturating_add(count);
+        if self.active && self.false_run >= self.sustain.clear_after {
+            self.active = false;
+        }
+    }
+
     /// Feeds one observation made at `index` (a row, or an evaluation counter).
     pub fn observe(&mut self, index: u64, condition: bool) -> Transition {
         if condition {
@@ -109,6 +124,42 @@ mod tests {
             .map(|(i, c)| h.observe(i as u64, c == '1'))
             .filter(|t| *t != Transition::None)
             .collect()
+    }
+
+    #[test]
+    fn a_false_run_at_once_equals_one_by_one() {
+        // Every split of a pattern into false runs fed at once ends in the same state.
+        let patterns = [
+            "0000",
+            "1000001",
+            "1110011000",
+            "01",
+            "111",
+            "1001110000001",
+        ];
+        for sustain in [
+            Sustain::immediate(3),
+            Sustain::new(2, 4),
+            Sustain::new(1, 1),
+        ] {
+            for p in patterns {
+                let mut one = Hysteresis::new(sustain);
+                let mut bulk = Hysteresis::new(sustain);
+                let mut zeros = 0u64;
+                for (i, c) in p.chars().enumerate() {
+                    one.observe(i as u64, c == '1');
+                    if c == '1' {
+                        bulk.observe_false_run(zeros);
+                        zeros = 0;
+                        bulk.observe(i as u64, true);
+                    } else {
+                        zeros += 1;
+                    }
+                }
+                bulk.observe_false_run(zeros);
+                assert_eq!(one, bulk, "{p} {sustain:?}");
+            }
+        }
     }
 
     #[test]

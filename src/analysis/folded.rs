@@ -44,8 +44,8 @@ use crate::table::{RunTable, Segment};
 use super::{
     blockwise_inefficiency, drift_summary, empty_analysis, first_nonfinite, has_statistics,
     row_interval_ps, runaway_flags, runaway_options, time_values, AnalysisOptions, Analyzer,
-    ColumnAnalysis, EnsembleChoice, ProductionStats, Progress, RunAnalysis, TableLocator,
-    TrendSummary, RUNAWAY_BASELINE_ROWS, RUNAWAY_BASELINE_STEP, SPIKE_CONTEXT_ROWS,
+    ColumnAnalysis, ColumnFlags, EnsembleChoice, ProductionStats, Progress, RunAnalysis,
+    TableLocator, TrendSummary, RUNAWAY_BASELINE_ROWS, RUNAWAY_BASELINE_STEP, SPIKE_CONTEXT_ROWS,
     TREND_MAX_POINTS, TREND_P_VALUE,
 };
 
@@ -489,12 +489,17 @@ impl Analyzer {
 
     /// The full statistics of segment `si`: from the folded view when it was folded, else
     /// [`Analyzer::full`] (with rows numbered after the forgotten rows of earlier segments).
-    pub(super) fn full_view(&self, table: &RunTable, si: usize) -> RunAnalysis {
+    pub(super) fn full_view(
+        &self,
+        table: &RunTable,
+        si: usize,
+        known: Option<&[Option<ColumnFlags>]>,
+    ) -> RunAnalysis {
         let before: usize = (0..si).map(|j| self.forgotten_rows(j)).sum();
         match self.folding.last.as_ref().filter(|f| f.segment == si) {
             Some(f) => self.folded_full(table, si, f),
             None => {
-                let mut a = self.full(table, si);
+                let mut a = self.full(table, si, known);
                 a.first_row += before;
                 a
             }
@@ -817,7 +822,8 @@ mod tests {
         assert_eq!(v.onset().row(), eq.row());
         let row = eq.row().unwrap();
         let got = v.production(row).unwrap();
-        let want = super::super::production(&data, row).unwrap();
+        let ineff = stats::inefficiency(&data[row..]).unwrap();
+        let want = super::super::production(&data, row, ineff.g, ineff.n_eff).unwrap();
         assert_eq!(got.first_row, want.first_row);
         assert_eq!(got.count, want.count);
         assert!((got.mean - want.mean).abs() < 1e-12 * want.mean.abs());

@@ -10,12 +10,14 @@
 //!   eq. 13).
 
 use std::cell::RefCell;
+use std::ops::Range;
 use std::sync::Arc;
 
 use realfft::num_complex::Complex;
 use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 
 use super::descriptive::mean;
+#[cfg(test)]
 use super::fast_dot;
 
 /// Lags computed directly (O(N) each) before [`LazyAcov`] switches to FFTs.
@@ -69,20 +71,23 @@ impl AcfEngine {
         (f, i)
     }
 
-    /// Lag sums `a_t` of an already centred series `dx`, t = 0 … N−1, from one
-    /// zero-padded FFT pair. `None` on empty input or an FFT error (not expected).
-    pub(crate) fn lag_sums(&mut self, dx: &[f64]) -> Option<Vec<f64>> {
-        let n = dx.len();
+    /// Lag sums `a_t` of the series `x − m` (centred on the fly, no copy of the series
+    /// beyond the FFT buffer), t = 0 … N−1, from one zero-padded FFT pair. `None` on empty
+    /// input or an FFT error (not expected).
+    pub(crate) fn lag_sums(&mut self, x: &[f64], m: f64) -> Option<Vec<f64>> {
+        let n = x.len();
         if n == 0 {
             return None;
         }
         if n == 1 {
-            return Some(dx.iter().map(|v| v * v).collect());
+            return Some(x.iter().map(|v| (v - m) * (v - m)).collect());
         }
         let len = (2 * n - 1).next_power_of_two();
         let (fwd, inv) = self.plans(len);
         let mut input = vec![0.0; len];
-        input.get_mut(..n)?.copy_from_slice(dx);
+        for (d, v) in input.iter_mut().zip(x) {
+            *d = v - m;
+        }
         let mut spectrum = vec![Complex::new(0.0, 0.0); len / 2 + 1];
         fwd.process(&mut input, &mut spectrum).ok()?;
         for c in spectrum.iter_mut() {
@@ -101,11 +106,11 @@ impl AcfEngine {
     /// block through FFTs of length `2b`, spectra are summed, one inverse at the end.
     /// Exact linear sums (no wrap-around) in O(N log b). Falls back to [`Self::lag_sums`]
     /// when `b` is not small against N.
-    pub(crate) fn lag_sums_upto(&mut self, dx: &[f64], lags: usize) -> Option<Vec<f64>> {
-        let n = dx.len();
+    pub(crate) fn lag_sums_upto(&mut self, x: &[f64], m: f64, lags: usize) -> Option<Vec<f64>> {
+        let n = x.len();
         let b = lags.next_power_of_two().max(64);
         if 8 * b >= n {
-            return self.lag_sums(dx);
+            return self.lag_sums(x, m);
         }
         let len = 2 * b;
         let (fwd, inv) = self.plans(len);
@@ -119,10 +124,14 @@ impl AcfEngine {
         while start < n {
             a_in.iter_mut().for_each(|v| *v = 0.0);
             e_in.iter_mut().for_each(|v| *v = 0.0);
-            let a_src = dx.get(start..(start + b).min(n))?;
-            let e_src = dx.get(start..(start + len).min(n))?;
-            a_in.get_mut(..a_src.len())?.copy_from_slice(a_src);
-            e_in.get_mut(..e_src.len())?.copy_from_slice(e_src);
+            let a_src = x.get(start..(start + b).min(n))?;
+            let e_src = x.get(start..(start + len).min(n))?;
+            for (d, v) in a_in.iter_mut().zip(a_src) {
+                *d = v - m;
+            }
+            for (d, v) in e_in.iter_mut().zip(e_src) {
+                *d = v - m;
+            }
             fwd.process(&mut a_in, &mut fa).ok()?;
             fwd.process(&mut e_in, &mut fe).ok()?;
             for ((s, p), q) in acc.iter_mut().zip(&fa).zip(&fe) {
@@ -146,17 +155,75 @@ impl AcfEngine {
 }
 
 /// Centre a series on its mean. `None` if empty or the mean is not finite.
-pub(crate) fn centred(x: &[f64]) -> Option<(f64, Vec<f64>)> {
+#[cfg(test)]
+fn centred(x: &[f64]) -> Option<(f64, Vec<f64>)> {
     let m = mean(x)?;
     Some((m, x.iter().map(|v| v - m).collect()))
+}
+
+/// Direct lags computed together in one pass over the series (the series is read once
+/// per batch instead of once per lag).
+const LAG_BATCH: usize = 8;
+
+/// `a_t = Σ_i (x_i − m)(x_{i+t} − m)` for each `t` in `lags` (ascending, all `< x.len()`),
+/// appended to `out`. Each lag is summed exactly as [`fast_dot`] sums a centred copy:
+/// eight accumulators over chunks of 8 in order, the same pairwise combination, then the
+/// left-over products left to right, so the values are identical, without the copy and
+/// with one pass over the series for the whole batch.
+fn centred_lag_sums(x: &[f64], m: f64, lags: Range<usize>, out: &mut Vec<f64>) {
+    let n = x.len();
+    let lags = lags.start..lags.end.min(n);
+    if lags.is_empty() {
+        return;
+    }
+    let t_max = lags.end - 1;
+    let mut acc = vec![[0.0f64; 8]; lags.len()];
+    // Chunks that every lag of the batch has.
+    let common = (n - t_max) / 8;
+    for (c, head) in x.chunks_exact(8).take(common).enumerate() {
+        let mut a = [0.0f64; 8];
+        for (d, v) in a.iter_mut().zip(head) {
+            *d = v - m;
+        }
+        let i = 8 * c;
+        for (sums, t) in acc.iter_mut().zip(lags.clone()) {
+            let tail = x.get(i + t..i + t + 8).unwrap_or(&[]);
+            for ((s, p), q) in sums.iter_mut().zip(&a).zip(tail) {
+                *s += p * (q - m);
+            }
+        }
+    }
+    for (sums, t) in acc.iter_mut().zip(lags) {
+        let len = n - t;
+        let full = len / 8;
+        for c in common..full {
+            let i = 8 * c;
+            let head = x.get(i..i + 8).unwrap_or(&[]);
+            let tail = x.get(i + t..i + t + 8).unwrap_or(&[]);
+            for ((s, p), q) in sums.iter_mut().zip(head).zip(tail) {
+                *s += (p - m) * (q - m);
+            }
+        }
+        let rest: f64 = x
+            .get(8 * full..len)
+            .unwrap_or(&[])
+            .iter()
+            .zip(x.get(8 * full + t..).unwrap_or(&[]))
+            .map(|(p, q)| (p - m) * (q - m))
+            .sum();
+        let a = sums;
+        out.push(((a[0] + a[4]) + (a[1] + a[5])) + ((a[2] + a[6]) + (a[3] + a[7])) + rest);
+    }
 }
 
 /// Lag sums `a_t` evaluated lazily, cheapest first: the first [`DIRECT_LAGS`] lags
 /// directly (O(N) each, cheap when an estimator stops early); then lags below 256, 4096,
 /// … from segmented FFTs (O(N log b)); finally all lags from one full FFT (O(N log N)).
 /// All tiers give the same values up to rounding.
+/// The series is centred on the fly (no whole-series copy).
 pub(crate) struct LazyAcov<'a> {
-    dx: Vec<f64>,
+    x: &'a [f64],
+    mean: f64,
     direct: Vec<f64>,
     partial: Option<Vec<f64>>,
     engine: &'a mut AcfEngine,
@@ -164,10 +231,11 @@ pub(crate) struct LazyAcov<'a> {
 
 impl<'a> LazyAcov<'a> {
     /// `None` if `x` is empty.
-    pub(crate) fn new(x: &[f64], engine: &'a mut AcfEngine) -> Option<Self> {
-        let (_, dx) = centred(x)?;
+    pub(crate) fn new(x: &'a [f64], engine: &'a mut AcfEngine) -> Option<Self> {
+        let mean = mean(x)?;
         Some(Self {
-            dx,
+            x,
+            mean,
             direct: Vec::new(),
             partial: None,
             engine,
@@ -176,7 +244,7 @@ impl<'a> LazyAcov<'a> {
 
     /// `a_t`, or `None` for t ≥ N (or an FFT failure).
     pub(crate) fn get(&mut self, t: usize) -> Option<f64> {
-        let n = self.dx.len();
+        let n = self.x.len();
         if t >= n {
             return None;
         }
@@ -185,11 +253,9 @@ impl<'a> LazyAcov<'a> {
         }
         if self.partial.is_none() && t < DIRECT_LAGS {
             while self.direct.len() <= t {
-                let lag = self.direct.len();
-                let head = self.dx.get(..n - lag)?;
-                let tail = self.dx.get(lag..)?;
-                let s = fast_dot(head, tail);
-                self.direct.push(s);
+                let from = self.direct.len();
+                let to = (from + LAG_BATCH).min(DIRECT_LAGS).min(n);
+                centred_lag_sums(self.x, self.mean, from..to, &mut self.direct);
             }
             return self.direct.get(t).copied();
         }
@@ -198,7 +264,7 @@ impl<'a> LazyAcov<'a> {
         while want <= t {
             want *= 16;
         }
-        let p = self.engine.lag_sums_upto(&self.dx, want)?;
+        let p = self.engine.lag_sums_upto(self.x, self.mean, want)?;
         let v = p.get(t).copied();
         self.partial = Some(p);
         v
@@ -208,8 +274,8 @@ impl<'a> LazyAcov<'a> {
 /// Linear lag sums `a_t = Σ δx_i δx_{i+t}` for t = 0 … N−1 via zero-padded FFT.
 /// `None` if empty. Cost O(N log N).
 pub fn lag_sums(x: &[f64]) -> Option<Vec<f64>> {
-    let (_, dx) = centred(x)?;
-    with_engine(|e| e.lag_sums(&dx))
+    let m = mean(x)?;
+    with_engine(|e| e.lag_sums(x, m))
 }
 
 /// Biased autocorrelation `ρ̂_t = a_t/a_0`, t = 0 … N−1 (METHODS §0; statsmodels
@@ -273,9 +339,24 @@ mod tests {
             .map(|i| ((i * 7919) % 113) as f64 + (i as f64 * 0.01).sin())
             .collect();
         let full = lag_sums(&x).unwrap();
-        let (_, dx) = centred(&x).unwrap();
+        let m = centred(&x).unwrap().0;
         let mut eng = AcfEngine::new();
-        let part = eng.lag_sums_upto(&dx, 300).unwrap();
+        let part = eng.lag_sums_upto(&x, m, 300).unwrap();
+        // Centring on the fly, lags in batches, gives the same sums, bit for bit, as
+        // centring a copy first and summing each lag on its own.
+        for len in [1, 2, 7, 8, 9, 23, 24, 25, 31, 100, 4999, 5000] {
+            let x = &x[..len];
+            let (_, dx) = centred(x).unwrap();
+            let mut fresh = LazyAcov::new(x, &mut eng).unwrap();
+            for t in 0..DIRECT_LAGS.min(len) {
+                let copy = fast_dot(&dx[..len - t], &dx[t..]);
+                assert_eq!(
+                    fresh.get(t).unwrap().to_bits(),
+                    copy.to_bits(),
+                    "{len} lag {t}"
+                );
+            }
+        }
         assert_eq!(part.len(), 512);
         for t in 0..512 {
             assert!((part[t] - full[t]).abs() < 1e-9 * full[0], "lag {t}");

@@ -10,7 +10,7 @@
 //! own one-sigma error: `SE_{l+1} ≤ SE_l + err_l`. The SE of the mean is `SE_l`. If no
 //! level qualifies the correlation time is *not resolved*: the largest SE among the
 //! eligible levels is reported with `resolved = false`.
-//! Cost O(N) time, O(N) memory (one copy, halved in place).
+//! Cost O(N) time, O(N/2) memory (the second level, halved in place).
 
 use serde::{Deserialize, Serialize};
 
@@ -59,13 +59,19 @@ pub struct BlockAverage {
 /// Cost O(N).
 pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
     let mut levels = Vec::new();
-    let mut cur: Vec<f64> = x.to_vec();
+    // Level 0 is read from `x`; the levels above live in one buffer of N/2 values,
+    // halved in place.
+    let mut cur: Vec<f64> = Vec::new();
     let mut level = 0;
     let mut size = 1usize;
-    while cur.len() >= 2 {
-        let n = cur.len();
-        let Some(m) = mean(&cur) else { break };
-        let c0 = cur.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n as f64;
+    loop {
+        let data: &[f64] = if level == 0 { x } else { &cur };
+        if data.len() < 2 {
+            break;
+        }
+        let n = data.len();
+        let Some(m) = mean(data) else { break };
+        let c0 = data.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n as f64;
         let se = (c0 / (n - 1) as f64).sqrt();
         levels.push(BlockLevel {
             level,
@@ -75,16 +81,26 @@ pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
             se_error: se / (2.0 * (n - 1) as f64).sqrt(),
         });
         let half = n / 2;
-        for i in 0..half {
-            let v = match (cur.get(2 * i), cur.get(2 * i + 1)) {
-                (Some(a), Some(b)) => 0.5 * (a + b),
-                _ => break,
-            };
-            if let Some(slot) = cur.get_mut(i) {
-                *slot = v;
+        if level == 0 {
+            cur = x
+                .chunks_exact(2)
+                .map(|p| match p {
+                    [a, b] => 0.5 * (a + b),
+                    _ => f64::NAN,
+                })
+                .collect();
+        } else {
+            for i in 0..half {
+                let v = match (cur.get(2 * i), cur.get(2 * i + 1)) {
+                    (Some(a), Some(b)) => 0.5 * (a + b),
+                    _ => break,
+                };
+                if let Some(slot) = cur.get_mut(i) {
+                    *slot = v;
+                }
             }
+            cur.truncate(half);
         }
-        cur.truncate(half);
         level += 1;
         size *= 2;
     }
@@ -94,6 +110,12 @@ pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
 /// Block-averaged standard error of the mean with the plateau rule above. `None` if
 /// fewer than 2 values or non-finite data. Cost O(N).
 pub fn block_average(x: &[f64]) -> Option<BlockAverage> {
+    block_average_with_variance(x, variance_population(x))
+}
+
+/// [`block_average`] given `variance_population(x)` already computed (so the caller's
+/// pass is not repeated).
+pub fn block_average_with_variance(x: &[f64], var0: Option<f64>) -> Option<BlockAverage> {
     let levels = block_levels(x);
     let first = levels.first()?;
     finite(first.se)?;
@@ -115,7 +137,7 @@ pub fn block_average(x: &[f64]) -> Option<BlockAverage> {
             .max_by(|a, b| a.se.total_cmp(&b.se))
             .or(Some(first)),
     }?;
-    let var0 = variance_population(x)?;
+    let var0 = var0?;
     let n = x.len() as f64;
     let g = if var0 > 0.0 {
         finite(n * chosen.se * chosen.se / var0)

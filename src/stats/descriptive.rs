@@ -144,18 +144,25 @@ pub struct Summary {
 
 /// Two-pass summary. `None` if empty. Cost O(N) (four passes).
 pub fn summarize(x: &[f64]) -> Option<Summary> {
+    summarize_with_variance(x).map(|(s, _)| s)
+}
+
+/// [`summarize`] and [`variance_population`] from one pass of the centred sums (the same
+/// values as the two calls). `None` if empty or the mean is not finite.
+pub fn summarize_with_variance(x: &[f64]) -> Option<(Summary, Option<f64>)> {
     let (mean, ss) = centred_ss(x)?;
     let (min, max) = min_max(x)?;
     let std = (x.len() > 1)
         .then(|| (ss / (x.len() - 1) as f64).sqrt())
         .and_then(finite);
-    Some(Summary {
+    let summary = Summary {
         count: x.len(),
         mean,
         std,
         min,
         max,
-    })
+    };
+    Some((summary, finite(ss / x.len() as f64)))
 }
 
 /// Mergeable running moments (count, mean, M2 = Σ(x − x̄)², min, max): Welford's update

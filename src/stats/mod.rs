@@ -33,8 +33,8 @@ pub mod trend;
 pub use acf::{acf_adjusted, acf_biased, lag_sums};
 pub use blocking::{block_average, block_levels, BlockAverage, BlockLevel};
 pub use descriptive::{
-    lag1_autocorrelation, mean, min_max, std_dev, summarize, variance, variance_population,
-    Moments, Summary,
+    lag1_autocorrelation, mean, min_max, std_dev, summarize, summarize_with_variance, variance,
+    variance_population, Moments, Summary,
 };
 pub use drift::{
     drift, kt_per_ns_per_dof, per_atom, per_ns, Drift, SlopeSeMethod, BOLTZMANN_KJ_PER_MOL_K,
@@ -81,6 +81,7 @@ pub(crate) fn fast_sum(x: &[f64]) -> f64 {
 }
 
 /// Dot product `Σ a_i b_i` over the common length, eight accumulators (see [`fast_sum`]).
+#[cfg(test)]
 pub(crate) fn fast_dot(a: &[f64], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
     let (a, b) = (a.get(..n).unwrap_or(&[]), b.get(..n).unwrap_or(&[]));

@@ -14,7 +14,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::spikes::{median, robust_sd};
+use super::spikes::{median_and_mad_mut, MAD_SCALE};
 use super::{finite, regression::ols};
 
 /// Robust centre and scale of a reference part.
@@ -29,9 +29,17 @@ pub struct Baseline {
 impl Baseline {
     /// Baseline from the finite values of a slice. `None` if there are none. O(N).
     pub fn from_slice(x: &[f64]) -> Option<Baseline> {
-        let v: Vec<f64> = x.iter().copied().filter(|a| a.is_finite()).collect();
-        let m = median(&v)?;
-        let s = robust_sd(&v)?;
+        let mut scratch = Vec::new();
+        Baseline::from_slice_with(x, &mut scratch)
+    }
+
+    /// As [`Baseline::from_slice`], with a scratch buffer the caller reuses (one copy of
+    /// the finite values, two selections, no allocation once the buffer is big enough).
+    pub fn from_slice_with(x: &[f64], scratch: &mut Vec<f64>) -> Option<Baseline> {
+        scratch.clear();
+        scratch.extend(x.iter().copied().filter(|a| a.is_finite()));
+        let (m, raw) = median_and_mad_mut(scratch)?;
+        let s = MAD_SCALE * raw;
         let floor = f64::EPSILON * m.abs().max(1.0);
         Some(Baseline {
             median: m,
