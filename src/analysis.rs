@@ -433,6 +433,12 @@ impl Analyzer {
         }
 
         let mut analysis = self.cached.clone().unwrap_or_else(|| empty_analysis(nseg));
+        // The statistics were computed before this update's scan counted its spikes.
+        if let Some(cursors) = self.cursors.get(analysis.segment) {
+            for (c, cursor) in analysis.columns.iter_mut().zip(cursors) {
+                c.spikes = cursor.spikes;
+            }
+        }
         analysis.progress = self.progress(table, &analysis, arrivals);
         analysis.status = self.status(&analysis, ended);
         analysis

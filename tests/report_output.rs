@@ -168,3 +168,47 @@ fn timings_go_to_standard_error() {
     assert!(err.contains("statistics: "), "{err}");
     assert!(!String::from_utf8(out.stdout).unwrap().contains("ingest:"));
 }
+
+#[test]
+fn a_spike_is_counted_on_its_column_in_a_one_shot_report() {
+    // 3000 rows of smooth, correlated noise (AR(1), φ = 0.9, uniform innovations from a
+    // fixed linear congruential generator) with one value pushed 40 SDs away at row 1500:
+    // the spike alert and the column's spike count must agree (the count used to be read
+    // before the same update's scan had counted it).
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("spike.log");
+    let mut state: u64 = 12345;
+    let mut uniform = || {
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+    };
+    let mut text = String::from("# step time(ps) potential(kJ/mol)\n");
+    let mut x = 0.0f64;
+    for row in 0..3000 {
+        x = 0.9 * x + uniform();
+        let v = if row == 1500 {
+            -1000.0 + 40.0
+        } else {
+            -1000.0 + x
+        };
+        text.push_str(&format!("{} {:.3} {:.5}\n", row * 10, row as f64 * 0.02, v));
+    }
+    std::fs::write(&path, text).unwrap();
+    let out = plateau()
+        .args(["report", "--format", "json"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    let r: Report = serde_json::from_slice(&out.stdout).unwrap();
+    let spikes: Vec<_> = r
+        .alerts
+        .iter()
+        .filter(|a| a.kind == AlertKind::Spike)
+        .collect();
+    assert_eq!(spikes.len(), 1, "{:?}", r.alerts);
+    assert_eq!(spikes[0].row, Some(1500));
+    let p = r.columns.iter().find(|c| c.name == "potential").unwrap();
+    assert_eq!(p.spikes, 1);
+}
