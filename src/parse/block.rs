@@ -9,10 +9,10 @@
 //! order and decides headers, segments, field counts and restarts.
 
 use super::layout::{
-    header_column_count, is_space, trim, trim_start, wide_header_column_count, Delimiter,
-    DelimiterChoice, Fields,
+    header_column_count, is_space, trim, wide_header_column_count, Delimiter, DelimiterChoice,
+    Fields,
 };
-use super::number::{parse_field, parse_plain, parse_window, Field, WINDOW};
+use super::number::{parse_field, parse_plain, Field};
 use super::ParseOptions;
 
 /// Longest field text kept for a skip reason.
@@ -128,8 +128,7 @@ pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockRes
     let mut line = 0u64;
     for nl in memchr::memchr_iter(b'\n', bytes) {
         let text = bytes.get(start..nl).unwrap_or_default();
-        let ahead = bytes.get(start..).unwrap_or_default();
-        classify(text, ahead, line, options, &firsts, out);
+        classify(text, line, options, &firsts, out);
         line += 1;
         start = nl + 1;
     }
@@ -182,12 +181,9 @@ impl BlockResult {
 /// Lines longer than this are not parsed (counted as free text).
 pub const MAX_LINE: usize = 1 << 20;
 
-/// `ahead` is the block from the start of `raw` on: the number parser reads fixed windows
-/// that may run past the end of the line (never taking those bytes as part of a field).
 #[inline]
 fn classify(
     raw: &[u8],
-    ahead: &[u8],
     line: u64,
     options: &ParseOptions,
     comment_firsts: &[bool; 256],
@@ -201,9 +197,7 @@ fn classify(
         [head @ .., b'\r'] => head,
         _ => raw,
     };
-    let front = trim_start(raw);
-    let ahead = ahead.get(raw.len() - front.len()..).unwrap_or_default();
-    let t = trim(front);
+    let t = trim(raw);
     if t.is_empty() {
         out.items.push(Item::Blank { line });
         return;
@@ -239,8 +233,7 @@ fn classify(
             return;
         }
         let rest = rest.strip_prefix(b",").unwrap_or(rest);
-        let ahead = ahead.get(t.len() - rest.len()..).unwrap_or_default();
-        match data(rest, ahead, line, options, out) {
+        match data(rest, line, options, out) {
             DataOutcome::Done => {}
             DataOutcome::NotData => {
                 if !candidate(rest, line, false, options, out) {
@@ -253,7 +246,7 @@ fn classify(
         }
         return;
     }
-    match data(t, ahead, line, options, out) {
+    match data(t, line, options, out) {
         DataOutcome::Done => {}
         DataOutcome::NotData => {
             if !candidate(t, line, false, options, out) {
@@ -271,13 +264,7 @@ enum DataOutcome {
 }
 
 #[inline]
-fn data(
-    payload: &[u8],
-    ahead: &[u8],
-    line: u64,
-    options: &ParseOptions,
-    out: &mut BlockResult,
-) -> DataOutcome {
+fn data(payload: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) -> DataOutcome {
     let values_start = out.values.len();
     let overflow_start = out.overflow_fields.len();
     let auto = options.delimiter == DelimiterChoice::Auto;
@@ -293,7 +280,7 @@ fn data(
     let mut failed: Option<&[u8]> = None;
     if delim == Delimiter::Whitespace {
         let whole;
-        (fields, failed, whole) = whitespace_row(payload, ahead, options, out);
+        (fields, failed, whole) = whitespace_row(payload, options, out);
         if auto && !whole && memchr::memchr(b',', payload).is_some() {
             out.values.truncate(values_start);
             out.overflow_fields.truncate(overflow_start);
@@ -347,44 +334,33 @@ fn data(
     DataOutcome::Done
 }
 
-/// Splits and parses a whitespace-separated row in one pass: the number parser finds the end
-/// of the number itself, on a fixed window of `ahead` (the block from the start of
-/// `payload` on) where one fits, else on the field text; anything else (D exponents, `****`,
-/// text) takes the slow path on the whole field. Returns the fields taken, the field that is
-/// not a number (if any), and whether the row was read to its end (no field failed, no
-/// trailing comment).
+/// Splits and parses a whitespace-separated row in one pass: the fast float parser finds the
+/// end of the number itself; anything else (D exponents, `****`, text) takes the slow path on
+/// the whole field. Returns the fields taken, the field that is not a number (if any), and
+/// whether the row was read to its end (no field failed, no trailing comment).
 #[inline]
 fn whitespace_row<'a>(
     payload: &'a [u8],
-    ahead: &[u8],
     options: &ParseOptions,
     out: &mut BlockResult,
 ) -> (u32, Option<&'a [u8]>, bool) {
-    // `ahead` must begin where `payload` begins (same address, at least as long).
-    debug_assert!(ahead.starts_with(payload));
-    let ahead = if std::ptr::eq(ahead.as_ptr(), payload.as_ptr()) && ahead.len() >= payload.len() {
-        ahead
-    } else {
-        payload
-    };
-    let len = trim(payload).len() + (payload.len() - trim_start(payload).len());
     let mut fields = 0u32;
-    let mut at = payload.len() - trim_start(payload).len();
-    while at < len {
-        let window = ahead
-            .get(at..at + WINDOW)
-            .and_then(|w| <&[u8; WINDOW]>::try_from(w).ok());
-        if let Some((v, n)) = window.and_then(|w| parse_window(w, len - at)) {
-            out.values.push(v);
-            fields += 1;
-            at += n;
-            while payload.get(at).is_some_and(|&b| is_space(b)) {
-                at += 1;
+    let mut rest = trim(payload);
+    while !rest.is_empty() {
+        let (field, parsed, next) = if let Some((v, n)) = parse_plain(rest) {
+            (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+        } else {
+            match fast_float2::parse_partial::<f64, _>(rest) {
+                Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
+                    (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
+                }
+                _ => {
+                    let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
+                    let f = rest.get(..end).unwrap_or_default();
+                    (f, parse_field(f), end)
+                }
             }
-            continue;
-        }
-        let rest = payload.get(at..len).unwrap_or_default();
-        let (field, parsed, next) = general_field(rest);
+        };
         if !take(out, parsed, fields) {
             if fields > 0 && starts_comment(field, options) {
                 return (fields, None, false); // a trailing comment ends the row
@@ -392,32 +368,14 @@ fn whitespace_row<'a>(
             return (fields, Some(field), false);
         }
         fields += 1;
-        at += next;
-        while payload.get(at).is_some_and(|&b| is_space(b)) {
-            at += 1;
-        }
+        rest = rest.get(next..).unwrap_or_default();
+        let skip = rest
+            .iter()
+            .position(|&b| !is_space(b))
+            .unwrap_or(rest.len());
+        rest = rest.get(skip..).unwrap_or_default();
     }
     (fields, None, true)
-}
-
-/// A whitespace field the windowed parser did not take: the exact fast path on the field
-/// text, then the general parser on the number's text or, failing that, on the whole
-/// field. Returns the field text, its value and where it ends.
-#[inline(never)]
-fn general_field(rest: &[u8]) -> (&[u8], Field, usize) {
-    if let Some((v, n)) = parse_plain(rest) {
-        return (rest.get(..n).unwrap_or_default(), Field::Value(v), n);
-    }
-    match fast_float2::parse_partial::<f64, _>(rest) {
-        Ok((v, n)) if rest.get(n).is_none_or(|&b| is_space(b)) => {
-            (rest.get(..n).unwrap_or_default(), Field::Value(v), n)
-        }
-        _ => {
-            let end = rest.iter().position(|&b| is_space(b)).unwrap_or(rest.len());
-            let f = rest.get(..end).unwrap_or_default();
-            (f, parse_field(f), end)
-        }
-    }
 }
 
 /// True when a field starts with a comment prefix (a comment at the end of a row).

@@ -95,19 +95,6 @@ pub fn is_space(b: u8) -> bool {
     b == b' ' || b == b'\t' || b == b'\x0b' || b == b'\x0c'
 }
 
-/// Trims spaces and tabs at the start.
-#[inline]
-pub fn trim_start(mut s: &[u8]) -> &[u8] {
-    while let [first, rest @ ..] = s {
-        if is_space(*first) {
-            s = rest;
-        } else {
-            break;
-        }
-    }
-    s
-}
-
 /// Trims spaces and tabs at both ends.
 #[inline]
 pub fn trim(mut s: &[u8]) -> &[u8] {
