@@ -433,3 +433,57 @@ fn candidate(
     });
     true
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn number() -> impl Strategy<Value = String> {
+        (
+            prop_oneof![Just(""), Just("-"), Just("+")],
+            "[0-9]{1,19}",
+            proptest::option::of("[0-9]{0,12}"),
+            proptest::option::of(-30i32..30),
+        )
+            .prop_map(|(sign, int, frac, exp)| {
+                let mut s = format!("{sign}{int}");
+                if let Some(f) = frac {
+                    s.push('.');
+                    s.push_str(&f);
+                }
+                if let Some(e) = exp {
+                    s.push_str(&format!("e{e}"));
+                }
+                s
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(256))]
+        /// Every field of whitespace rows reads as `str::parse::<f64>` (the reference) reads
+        /// it, bit for bit, whatever separates the fields and ends the line, including the
+        /// last line of the block where no full window fits.
+        #[test]
+        fn whitespace_rows_match_std(
+            rows in prop::collection::vec(prop::collection::vec(number(), 4), 1..6),
+            gaps in prop::collection::vec(prop_oneof![Just(" "), Just("\t"), Just("   "), Just(" \t ")], 4),
+            ending in prop_oneof![Just("\n"), Just("\r\n"), Just(" \n"), Just("\t\r\n")],
+        ) {
+            let mut log = String::new();
+            for row in &rows {
+                for (field, gap) in row.iter().zip(&gaps) {
+                    log.push_str(gap);
+                    log.push_str(field);
+                }
+                log.push_str(ending);
+            }
+            let (block, used) = parse_block(log.as_bytes(), &ParseOptions::default());
+            prop_assert_eq!(used, log.len());
+            let want: Vec<u64> = rows.iter().flatten().map(|f| f.parse::<f64>().unwrap().to_bits()).collect();
+            let got: Vec<u64> = block.values.iter().map(|v| v.to_bits()).collect();
+            prop_assert_eq!(got, want);
+            prop_assert_eq!(block.uniform, 4);
+        }
+    }
+}

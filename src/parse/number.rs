@@ -389,6 +389,39 @@ mod tests {
                 check(&s);
             }
 
+            /// 1 to 19 digits, with or without a point, leading zeros, a sign and an
+            /// exponent, followed by nothing, a space, a tab or a carriage return.
+            #[test]
+            fn matches_std_any_digit_count(
+                sign in prop_oneof![Just(""), Just("-"), Just("+")],
+                zeros in "0{0,3}",
+                digits in "[0-9]{1,19}",
+                point in proptest::option::of(0usize..20),
+                exp in proptest::option::of(-25i32..25),
+                after in prop_oneof![Just(""), Just(" 1"), Just("\t1"), Just("\r")],
+            ) {
+                let mut s = format!("{sign}{zeros}");
+                match point {
+                    Some(p) => {
+                        let p = p.min(digits.len());
+                        s.push_str(&digits[..p]);
+                        s.push('.');
+                        s.push_str(&digits[p..]);
+                    }
+                    None => s.push_str(&digits),
+                }
+                if let Some(e) = exp { s.push_str(&format!("e{e}")); }
+                check(&s);
+                let want: f64 = s.parse().unwrap();
+                let text = format!("{s}{after}");
+                if let Some((got, n)) = parse_plain(text.as_bytes()) {
+                    // A carriage return is not a field end here: the row splitter strips it.
+                    prop_assert!(after != "\r");
+                    prop_assert_eq!(n, s.len());
+                    prop_assert_eq!(got.to_bits(), want.to_bits());
+                }
+            }
+
             #[test]
             fn matches_std_on_printed_doubles(bits in any::<u64>(), prec in 0usize..18) {
                 let v = f64::from_bits(bits);
