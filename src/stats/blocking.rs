@@ -10,7 +10,8 @@
 //! own one-sigma error: `SE_{l+1} ≤ SE_l + err_l`. The SE of the mean is `SE_l`. If no
 //! level qualifies the correlation time is *not resolved*: the largest SE among the
 //! eligible levels is reported with `resolved = false`.
-//! Cost O(N) time, O(N/2) memory (the second level, halved in place).
+//! Cost O(N) time, O(N/4) memory (level 1 generated on the fly, the levels above halved in
+//! place).
 
 use serde::{Deserialize, Serialize};
 
@@ -56,55 +57,133 @@ pub struct BlockAverage {
 }
 
 /// All Flyvbjerg–Petersen levels (down to 2 blocks). Empty if fewer than 2 values.
-/// Cost O(N).
+/// Cost O(N) time; O(N/4) memory: level 1 (pair means) is generated on the fly from the
+/// data, never stored, and the levels from 2 on live in one buffer halved in place. Every
+/// level's numbers are bit-for-bit those of the plain construction (same operations in
+/// the same order; tested).
 pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
     let mut levels = Vec::new();
-    // Level 0 is read from `x`; the levels above live in one buffer of N/2 values,
-    // halved in place.
-    let mut cur: Vec<f64> = Vec::new();
-    let mut level = 0;
-    let mut size = 1usize;
-    loop {
-        let data: &[f64] = if level == 0 { x } else { &cur };
-        if data.len() < 2 {
-            break;
-        }
-        let n = data.len();
-        let Some(m) = mean(data) else { break };
-        let c0 = data.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n as f64;
+    let push = |levels: &mut Vec<BlockLevel>, level: usize, n: usize, m: f64, ss: f64| {
+        let c0 = ss / n as f64;
         let se = (c0 / (n - 1) as f64).sqrt();
         levels.push(BlockLevel {
             level,
-            block_size: size,
+            block_size: 1 << level,
             n_blocks: n,
             se,
             se_error: se / (2.0 * (n - 1) as f64).sqrt(),
         });
-        let half = n / 2;
-        if level == 0 {
-            cur = x
-                .chunks_exact(2)
-                .map(|p| match p {
-                    [a, b] => 0.5 * (a + b),
-                    _ => f64::NAN,
-                })
-                .collect();
-        } else {
-            for i in 0..half {
-                let v = match (cur.get(2 * i), cur.get(2 * i + 1)) {
-                    (Some(a), Some(b)) => 0.5 * (a + b),
-                    _ => break,
-                };
-                if let Some(slot) = cur.get_mut(i) {
-                    *slot = v;
-                }
-            }
-            cur.truncate(half);
+    };
+    // Level 0: the data.
+    if x.len() < 2 {
+        return levels;
+    }
+    let Some(m) = mean(x) else { return levels };
+    push(
+        &mut levels,
+        0,
+        x.len(),
+        m,
+        squared_deviations(x.iter().copied(), m),
+    );
+    // Level 1: pair means, generated as needed.
+    let pairs = || {
+        x.chunks_exact(2).map(|p| match p {
+            [a, b] => 0.5 * (a + b),
+            _ => f64::NAN,
+        })
+    };
+    let n1 = x.len() / 2;
+    if n1 < 2 {
+        return levels;
+    }
+    let Some(m) = mean_of(pairs, n1) else {
+        return levels;
+    };
+    push(&mut levels, 1, n1, m, squared_deviations(pairs(), m));
+    // Level 2 on: means of four, then halved in place.
+    let mut cur: Vec<f64> = x
+        .chunks_exact(4)
+        .map(|q| match q {
+            [a, b, c, d] => 0.5 * (0.5 * (a + b) + 0.5 * (c + d)),
+            _ => f64::NAN,
+        })
+        .collect();
+    let mut level = 2;
+    loop {
+        let n = cur.len();
+        if n < 2 {
+            break;
         }
+        let Some(m) = mean(&cur) else { break };
+        push(
+            &mut levels,
+            level,
+            n,
+            m,
+            squared_deviations(cur.iter().copied(), m),
+        );
+        let half = n / 2;
+        for i in 0..half {
+            let v = match (cur.get(2 * i), cur.get(2 * i + 1)) {
+                (Some(a), Some(b)) => 0.5 * (a + b),
+                _ => break,
+            };
+            if let Some(slot) = cur.get_mut(i) {
+                *slot = v;
+            }
+        }
+        cur.truncate(half);
         level += 1;
-        size *= 2;
     }
     levels
+}
+
+/// `Σ (v − m)²` in sequence order.
+fn squared_deviations(values: impl Iterator<Item = f64>, m: f64) -> f64 {
+    values.map(|v| (v - m) * (v - m)).sum::<f64>()
+}
+
+/// [`mean`] of the `n` values `values()` yields, with the same operations in the same order
+/// (eight running sums, then the compensating pass with four), so that the result is
+/// bit-for-bit that of `mean` on the stored values.
+fn mean_of<I: Iterator<Item = f64>>(values: impl Fn() -> I, n: usize) -> Option<f64> {
+    if n == 0 {
+        return None;
+    }
+    let whole8 = n - n % 8;
+    let mut acc8 = [0.0f64; 8];
+    let mut tail8 = [0.0f64; 8];
+    for (i, v) in values().enumerate().take(n) {
+        if i < whole8 {
+            if let Some(a) = acc8.get_mut(i % 8) {
+                *a += v;
+            }
+        } else if let Some(t) = tail8.get_mut(i - whole8) {
+            *t = v;
+        }
+    }
+    let tail: f64 = tail8.get(..n - whole8).unwrap_or(&[]).iter().sum();
+    let total = ((acc8[0] + acc8[4]) + (acc8[1] + acc8[5]))
+        + ((acc8[2] + acc8[6]) + (acc8[3] + acc8[7]))
+        + tail;
+    let nf = n as f64;
+    let m0 = total / nf;
+    let whole4 = n - n % 4;
+    let mut acc4 = [0.0f64; 4];
+    let mut rest4 = [0.0f64; 4];
+    for (i, v) in values().enumerate().take(n) {
+        if i < whole4 {
+            if let Some(a) = acc4.get_mut(i % 4) {
+                *a += v - m0;
+            }
+        } else if let Some(r) = rest4.get_mut(i - whole4) {
+            *r = v - m0;
+        }
+    }
+    let rest: f64 = rest4.get(..n - whole4).unwrap_or(&[]).iter().sum();
+    let corr = (acc4[0] + acc4[1] + acc4[2] + acc4[3] + rest) / nf;
+    finite(m0 + corr)
 }
 
 /// Block-averaged standard error of the mean with the plateau rule above. `None` if
@@ -157,6 +236,49 @@ pub fn block_average_with_variance(x: &[f64], var0: Option<f64>) -> Option<Block
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The plain construction: every level stored, its mean, c0 and SE from the stored
+    /// values (the definition in the module doc).
+    fn plain_levels(x: &[f64]) -> Vec<BlockLevel> {
+        let mut levels = Vec::new();
+        let mut cur = x.to_vec();
+        let mut level = 0;
+        while cur.len() >= 2 {
+            let n = cur.len();
+            let Some(m) = mean(&cur) else { break };
+            let c0 = cur.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n as f64;
+            let se = (c0 / (n - 1) as f64).sqrt();
+            levels.push(BlockLevel {
+                level,
+                block_size: 1 << level,
+                n_blocks: n,
+                se,
+                se_error: se / (2.0 * (n - 1) as f64).sqrt(),
+            });
+            cur = cur.chunks_exact(2).map(|p| 0.5 * (p[0] + p[1])).collect();
+            level += 1;
+        }
+        levels
+    }
+
+    #[test]
+    fn levels_generated_on_the_fly_equal_the_stored_construction_bit_for_bit() {
+        // A fixed linear congruential generator; lengths that exercise every remainder of
+        // the eight- and four-way sums at levels 0, 1 and 2.
+        let mut state: u64 = 0x2545_f491_4f6c_dd1d;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 1.0e4 - 5.0e3
+        };
+        let mut lengths: Vec<usize> = (0..70).collect();
+        lengths.extend([255, 256, 257, 1001, 4099, 65_537]);
+        for n in lengths {
+            let x: Vec<f64> = (0..n).map(|_| next()).collect();
+            assert_eq!(block_levels(&x), plain_levels(&x), "n = {n}");
+        }
+    }
 
     #[test]
     fn level0_is_s_over_sqrt_n() {
