@@ -63,7 +63,7 @@ pub struct BlockAverage {
 /// the same order; tested).
 pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
     let mut levels = Vec::new();
-    let push = |levels: &mut Vec<BlockLevel>, level: usize, n: usize, m: f64, ss: f64| {
+    let push = |levels: &mut Vec<BlockLevel>, level: usize, n: usize, ss: f64| {
         let c0 = ss / n as f64;
         let se = (c0 / (n - 1) as f64).sqrt();
         levels.push(BlockLevel {
@@ -100,7 +100,7 @@ pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
     let Some(m) = mean_of(pairs, n1) else {
         return levels;
     };
-    push(&mut levels, 1, n1, m, squared_deviations(pairs(), m));
+    push(&mut levels, 1, n1, squared_deviations(pairs(), m));
     // Level 2 on: means of four, then halved in place.
     let mut cur: Vec<f64> = x
         .chunks_exact(4)
