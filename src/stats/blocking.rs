@@ -83,7 +83,6 @@ pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
         &mut levels,
         0,
         x.len(),
-        m,
         squared_deviations(x.iter().copied(), m),
     );
     // Level 1: pair means, generated as needed.
@@ -120,7 +119,6 @@ pub fn block_levels(x: &[f64]) -> Vec<BlockLevel> {
             &mut levels,
             level,
             n,
-            m,
             squared_deviations(cur.iter().copied(), m),
         );
         let half = n / 2;
