@@ -38,7 +38,7 @@ use crate::alert::{RowLocator, RunStatus};
 use crate::config::Ensemble;
 use crate::fold::{FoldedSeries, DEFAULT_KEEP_ROWS, MIN_KEEP_ROWS};
 use crate::mapping::Role;
-use crate::stats::{self, Equilibration, Estimator, FluctuationCheck, FluctuationVerdict, Moments};
+use crate::stats::{self, Equilibration, Estimator, FluctuationCheck, Moments};
 use crate::table::{RunTable, Segment};
 
 use super::{
@@ -746,37 +746,8 @@ fn fluctuation_from_moments(
     if n < 3 {
         return None;
     }
-    let expected = stats::canonical_relative_sd(n_df)?;
     let mean = m.mean().filter(|x| *x > 0.0)?;
-    let observed = m.std_dev()? / mean;
-    let g = g.max(1.0);
-    let n_eff = n as f64 / g;
-    let nu = n_eff - 1.0;
-    if !observed.is_finite() || nu < 1.0 {
-        return None;
-    }
-    let nu_eff = 2.0 / (2.0 / nu + 12.0 / (n_df * n_eff));
-    let (lo, hi) = stats::chi2_band(nu_eff, coverage)?;
-    let low = expected * lo.sqrt();
-    let high = expected * hi.sqrt();
-    let verdict = if observed < low {
-        FluctuationVerdict::TooSmall
-    } else if observed > high {
-        FluctuationVerdict::TooLarge
-    } else {
-        FluctuationVerdict::Consistent
-    };
-    Some(FluctuationCheck {
-        n_df,
-        observed,
-        expected,
-        low,
-        high,
-        coverage,
-        n,
-        g,
-        verdict,
-    })
+    stats::fluctuation_band(m.std_dev()? / mean, n, g, n_df, coverage)
 }
 
 #[cfg(test)]

@@ -107,7 +107,8 @@ pub fn temperature_fluctuation(
     if n < 3 {
         return None;
     }
-    let expected = canonical_relative_sd(n_df)?;
+    // Invalid N_df: no band, and no need to estimate g.
+    canonical_relative_sd(n_df)?;
     let m = mean(temps)?;
     if m <= 0.0 {
         return None;
@@ -115,13 +116,32 @@ pub fn temperature_fluctuation(
     let sd = std_dev(temps)?;
     let observed = finite(sd / m)?;
     let g = match g {
-        Some(g) if g >= 1.0 => g,
-        Some(_) => 1.0,
+        Some(g) => g,
         None => {
             let sq: Vec<f64> = temps.iter().map(|t| (t - m) * (t - m)).collect();
             statistical_inefficiency(&sq, Estimator::FirstNegative)?.g
         }
     };
+    fluctuation_band(observed, n, g, n_df, coverage)
+}
+
+/// The band and verdict for an observed relative SD `σ_T/⟨T⟩` of `n` temperatures whose
+/// squared deviations have inefficiency `g` (taken as at least 1): a χ² band on the
+/// variance with `ν_eff = 2/(2/ν + 12/(N_df·N_eff))` (METHODS §6). Shared by the slice
+/// version above and by callers that hold only moments. `None` if `n_df ≤ 0`, the
+/// observed value is not finite, coverage is not in (0, 1) or fewer than 2 effective
+/// samples.
+pub fn fluctuation_band(
+    observed: f64,
+    n: usize,
+    g: f64,
+    n_df: f64,
+    coverage: f64,
+) -> Option<FluctuationCheck> {
+    let expected = canonical_relative_sd(n_df)?;
+    let observed = finite(observed)?;
+    // NaN or below 1 (no correlation can make samples more than independent): 1.
+    let g = if g >= 1.0 { g } else { 1.0 };
     let n_eff = n as f64 / g;
     let nu = n_eff - 1.0;
     if nu < 1.0 {

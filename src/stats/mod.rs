@@ -41,8 +41,8 @@ pub use drift::{
 };
 pub use equilibration::{combine_onsets, detect_equilibration, mser, mser5, Equilibration, Mser};
 pub use fluctuation::{
-    canonical_relative_sd, chi2_band, degrees_of_freedom, infer_ensemble, temperature_fluctuation,
-    Ensemble, EnsembleGuess, FluctuationCheck, FluctuationVerdict,
+    canonical_relative_sd, chi2_band, degrees_of_freedom, fluctuation_band, infer_ensemble,
+    temperature_fluctuation, Ensemble, EnsembleGuess, FluctuationCheck, FluctuationVerdict,
 };
 pub use inefficiency::{
     inefficiency, sem_from_g, statistical_inefficiency, Estimator, Inefficiency,
