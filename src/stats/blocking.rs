@@ -149,39 +149,36 @@ fn mean_of<I: Iterator<Item = f64>>(values: impl Fn() -> I, n: usize) -> Option<
     if n == 0 {
         return None;
     }
-    let whole8 = n - n % 8;
-    let mut acc8 = [0.0f64; 8];
-    let mut tail8 = [0.0f64; 8];
-    for (i, v) in values().enumerate().take(n) {
-        if i < whole8 {
-            if let Some(a) = acc8.get_mut(i % 8) {
-                *a += v;
-            }
-        } else if let Some(t) = tail8.get_mut(i - whole8) {
-            *t = v;
-        }
-    }
-    let tail: f64 = tail8.get(..n - whole8).unwrap_or(&[]).iter().sum();
-    let total = ((acc8[0] + acc8[4]) + (acc8[1] + acc8[5]))
-        + ((acc8[2] + acc8[6]) + (acc8[3] + acc8[7]))
-        + tail;
     let nf = n as f64;
+    let (a, tail) = strided_sums::<8>(values(), n, 0.0);
+    let total = ((a[0] + a[4]) + (a[1] + a[5])) + ((a[2] + a[6]) + (a[3] + a[7])) + tail;
     let m0 = total / nf;
-    let whole4 = n - n % 4;
-    let mut acc4 = [0.0f64; 4];
-    let mut rest4 = [0.0f64; 4];
-    for (i, v) in values().enumerate().take(n) {
-        if i < whole4 {
-            if let Some(a) = acc4.get_mut(i % 4) {
-                *a += v - m0;
+    let (b, rest) = strided_sums::<4>(values(), n, m0);
+    finite(m0 + (b[0] + b[1] + b[2] + b[3] + rest) / nf)
+}
+
+/// The `K` running sums of `v − shift` over the first `n − n % K` values (value `i` into
+/// sum `i mod K`) and the plain sum of the last `n % K`: the order of `fast_sum` (`K` = 8,
+/// `shift` = 0) and of `mean`'s compensating pass (`K` = 4).
+fn strided_sums<const K: usize>(
+    values: impl Iterator<Item = f64>,
+    n: usize,
+    shift: f64,
+) -> ([f64; K], f64) {
+    let whole = n - n % K;
+    let mut acc = [0.0f64; K];
+    let mut last = [0.0f64; K];
+    for (i, v) in values.enumerate().take(n) {
+        let d = v - shift;
+        if i < whole {
+            if let Some(a) = acc.get_mut(i % K) {
+                *a += d;
             }
-        } else if let Some(r) = rest4.get_mut(i - whole4) {
-            *r = v - m0;
+        } else if let Some(t) = last.get_mut(i - whole) {
+            *t = d;
         }
     }
-    let rest: f64 = rest4.get(..n - whole4).unwrap_or(&[]).iter().sum();
-    let corr = (acc4[0] + acc4[1] + acc4[2] + acc4[3] + rest) / nf;
-    finite(m0 + corr)
+    (acc, last.get(..n - whole).unwrap_or(&[]).iter().sum())
 }
 
 /// Block-averaged standard error of the mean with the plateau rule above. `None` if
