@@ -170,6 +170,36 @@ pub struct ColumnAnalysis {
     pub inefficiency_all: Option<f64>,
 }
 
+impl ColumnAnalysis {
+    /// The column's name, role and units, with no rows and no statistics yet. The spike
+    /// count is filled in by [`Analyzer::update`] after its scan.
+    fn described(c: &Column) -> ColumnAnalysis {
+        ColumnAnalysis {
+            name: c.spec.name.clone(),
+            role: c.spec.role,
+            unit: c.spec.unit.map(|u| u.to_string()).unwrap_or_default(),
+            source_unit: c
+                .spec
+                .source_unit
+                .map(|u| u.to_string())
+                .or_else(|| c.spec.header_unit.clone())
+                .unwrap_or_default(),
+            unit_assumed: c.spec.assumed,
+            count: 0,
+            nonfinite: c.non_finite + c.overflow,
+            equilibration: None,
+            mser: None,
+            production: None,
+            trend: None,
+            drift: None,
+            fluctuation: None,
+            spikes: 0,
+            last: c.values().last().copied(),
+            inefficiency_all: None,
+        }
+    }
+}
+
 /// How the ensemble was known.
 #[derive(Debug, Clone, PartialEq)]
 pub struct EnsembleChoice {
@@ -594,7 +624,6 @@ impl Analyzer {
         .into_iter()
         .min()
         .unwrap_or(seg.rows());
-        let cursors = self.cursors.get(si);
         let opts = &self.opts;
         let mut columns: Vec<ColumnAnalysis> = map_in_order(&seg.columns, parallel, |c| {
             let values = c.values();
@@ -623,37 +652,18 @@ impl Analyzer {
                     _ => false,
                 };
             ColumnAnalysis {
-                name: c.spec.name.clone(),
-                role: c.spec.role,
-                unit: c.spec.unit.map(|u| u.to_string()).unwrap_or_default(),
-                source_unit: c
-                    .spec
-                    .source_unit
-                    .map(|u| u.to_string())
-                    .or_else(|| c.spec.header_unit.clone())
-                    .unwrap_or_default(),
-                unit_assumed: c.spec.assumed,
                 count: values.len(),
-                nonfinite: c.non_finite + c.overflow,
                 equilibration,
                 mser,
                 production,
                 trend,
-                drift: None,
-                fluctuation: None,
-                spikes: cursors
-                    .and_then(|v| {
-                        v.iter()
-                            .zip(&seg.columns)
-                            .find(|(_, cc)| cc.spec.name == c.spec.name)
-                    })
-                    .map_or(0, |(cur, _)| cur.spikes),
                 last: values.last().copied(),
                 inefficiency_all: if needs_inefficiency_all {
                     blockwise_inefficiency(x)
                 } else {
                     None
                 },
+                ..ColumnAnalysis::described(c)
             }
         });
 

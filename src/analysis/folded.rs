@@ -529,8 +529,7 @@ impl Analyzer {
             .columns
             .iter()
             .zip(&views)
-            .enumerate()
-            .map(|(ci, (c, view))| {
+            .map(|(c, view)| {
                 let values = c.values();
                 let (equilibration, mser, production, trend) = match view {
                     Some(v) => {
@@ -542,33 +541,15 @@ impl Analyzer {
                     None => (None, None, None, None),
                 };
                 ColumnAnalysis {
-                    name: c.spec.name.clone(),
-                    role: c.spec.role,
-                    unit: c.spec.unit.map(|u| u.to_string()).unwrap_or_default(),
-                    source_unit: c
-                        .spec
-                        .source_unit
-                        .map(|u| u.to_string())
-                        .or_else(|| c.spec.header_unit.clone())
-                        .unwrap_or_default(),
-                    unit_assumed: c.spec.assumed,
                     count: forgotten + values.len(),
-                    nonfinite: c.non_finite + c.overflow,
                     equilibration,
                     mser,
                     production,
                     trend,
-                    drift: None,
-                    fluctuation: None,
-                    spikes: self
-                        .cursors
-                        .get(si)
-                        .and_then(|v| v.get(ci))
-                        .map_or(0, |cur| cur.spikes),
-                    last: values.last().copied(),
                     inefficiency_all: view
                         .as_ref()
                         .and_then(|_| blockwise_inefficiency(&kept_part(values))),
+                    ..ColumnAnalysis::described(c)
                 }
             })
             .collect();
