@@ -292,6 +292,21 @@ struct State {
     raised: Option<usize>,
 }
 
+/// The hysteresis state of `(kind, column)`, new with `sustain` the first time.
+fn state_of<'a>(
+    states: &'a mut BTreeMap<Key, State>,
+    kind: AlertKind,
+    column: &str,
+    sustain: Sustain,
+) -> &'a mut State {
+    states
+        .entry((kind, column.to_string()))
+        .or_insert_with(|| State {
+            hysteresis: Hysteresis::new(sustain),
+            raised: None,
+        })
+}
+
 /// The alert engine: per (kind, column) hysteresis states and the list of raised alerts.
 #[derive(Debug, Clone)]
 pub struct AlertEngine {
@@ -374,13 +389,7 @@ impl AlertEngine {
         C: FnMut(usize) -> bool,
         M: FnMut(usize, usize) -> Alert,
     {
-        let state = self
-            .states
-            .entry((kind, column.to_string()))
-            .or_insert_with(|| State {
-                hysteresis: Hysteresis::new(sustain),
-                raised: None,
-            });
+        let state = state_of(&mut self.states, kind, column, sustain);
         let mut raised = 0;
         for row in rows {
             match state.hysteresis.observe(row as u64, condition(row)) {
@@ -411,13 +420,7 @@ impl AlertEngine {
     where
         M: FnMut(usize, usize) -> Alert,
     {
-        let state = self
-            .states
-            .entry((kind, column.to_string()))
-            .or_insert_with(|| State {
-                hysteresis: Hysteresis::new(sustain),
-                raised: None,
-            });
+        let state = state_of(&mut self.states, kind, column, sustain);
         let mut raised = 0;
         let mut next = rows.start;
         for row in flagged {
@@ -453,13 +456,7 @@ impl AlertEngine {
     where
         M: FnOnce() -> Alert,
     {
-        let state = self
-            .states
-            .entry((kind, column.to_string()))
-            .or_insert_with(|| State {
-                hysteresis: Hysteresis::new(sustain),
-                raised: None,
-            });
+        let state = state_of(&mut self.states, kind, column, sustain);
         match state.hysteresis.observe(index, condition) {
             Transition::Raised { .. } => {
                 state.raised = Some(self.alerts.len());
