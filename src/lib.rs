@@ -14,6 +14,7 @@ pub mod error;
 pub mod fold;
 pub mod follow;
 pub mod ingest;
+pub mod live;
 pub mod mapping;
 pub mod parse;
 pub mod report;

@@ -39,26 +39,13 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
     Ok((settings, table))
 }
 
-/// Bytes looked at when guessing a row tag.
-const SNIFF_BYTES: u64 = 256 * 1024;
-
 /// Without `--row-tag`, looks at the start of the file for data rows marked by a leading
-/// word ([`crate::parse::sniff::sniff_row_tag`]) and uses that word, marked as guessed.
-/// Standard input and unreadable files are left alone (reading them fails later, with the
-/// path, or cannot be rewound).
+/// word ([`crate::live::sniff_row_tag`]) and uses that word, marked as guessed.
 pub fn guess_row_tag(file: &Path, settings: &mut Settings) {
-    use std::io::Read;
-    if settings.parse.row_tag.is_some() || file == Path::new("-") {
+    if settings.parse.row_tag.is_some() {
         return;
     }
-    let Ok(handle) = std::fs::File::open(file) else {
-        return;
-    };
-    let mut start = Vec::new();
-    if handle.take(SNIFF_BYTES).read_to_end(&mut start).is_err() {
-        return;
-    }
-    if let Some(tag) = crate::parse::sniff::sniff_row_tag(&start) {
+    if let Some(tag) = crate::live::sniff_row_tag(file) {
         settings.parse.row_tag = Some(tag);
         settings.row_tag_guessed = true;
     }
