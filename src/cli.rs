@@ -36,6 +36,8 @@ pub enum Command {
     Check(CheckArgs),
     /// Write the mapped rows in canonical units (CSV, TSV or JSONL), live with `--follow`.
     Export(ExportArgs),
+    /// A live dashboard of one run or many: trends, equilibration, alerts, ETA.
+    Watch(WatchArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(GenerateArgs),
 }

@@ -21,4 +21,5 @@ pub mod report;
 pub mod scenario;
 pub mod stats;
 pub mod table;
+pub mod tui;
 pub mod units;

@@ -9,6 +9,7 @@ pub mod columns;
 pub mod export;
 pub mod generate;
 pub mod report;
+pub mod watch;
 
 use std::io::Write;
 use std::path::Path;
@@ -25,6 +26,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Report(args) => report::run(&args, out),
         Command::Check(args) => check::run(&args, out),
         Command::Export(args) => export::run(&args, out),
+        Command::Watch(args) => watch::run(&args),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
     }
 }

@@ -22,6 +22,9 @@ use super::{History, RunId, RunSpec};
 /// Recent notable follower events kept per run (truncation, rotation, errors...).
 const NOTICES_KEPT: usize = 20;
 
+/// Bytes a file may hold beyond what was read and still count as caught up.
+pub const LOADING_MARGIN: u64 = 256 * 1024;
+
 /// Whether the source is there and being read.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Presence {
@@ -66,11 +69,12 @@ pub struct Feed {
 }
 
 impl Feed {
-    /// Fraction of the file read so far, while a file is read that is longer than what
-    /// was read (its first read of a large log); `None` once caught up.
+    /// Fraction of the file read so far, while more than [`LOADING_MARGIN`] bytes of it
+    /// are still to read (the first read of a large log); `None` once caught up (an
+    /// unfinished last line is never read).
     pub fn loading(&self) -> Option<f64> {
         let size = self.size?;
-        (size > self.bytes_read && size > 0).then(|| self.bytes_read as f64 / size as f64)
+        (size > self.bytes_read + LOADING_MARGIN).then(|| self.bytes_read as f64 / size as f64)
     }
 
     fn notice(&mut self, at: f64, text: String) {
@@ -130,6 +134,9 @@ pub struct LiveRun {
     dirty: bool,
     /// The run is known to be over (its input ended).
     ended: bool,
+    /// Wall-clock second of each alert (the arrival of its row when known, else when it
+    /// was raised), parallel to the alerts.
+    alert_times: Vec<f64>,
     /// Bumped on every change a viewer may want to redraw for.
     version: u64,
 }
@@ -138,6 +145,22 @@ fn describe_dropped(dropped: Option<Partial>) -> String {
     match dropped {
         Some(p) => format!("; unfinished line {} ({} bytes) given up", p.line, p.bytes),
         None => String::new(),
+    }
+}
+
+/// Gives each alert raised since `times` was last extended the arrival second of its row
+/// (while the row is kept), else the last arrival.
+fn time_new_alerts(analyzer: &Analyzer, arrivals: &[f64], times: &mut Vec<f64>) {
+    let forgotten = analyzer.rows_forgotten();
+    let fallback = arrivals.last().copied().unwrap_or(0.0);
+    for alert in analyzer.engine().alerts().get(times.len()..).unwrap_or(&[]) {
+        let at = alert
+            .row
+            .and_then(|r| r.checked_sub(forgotten))
+            .and_then(|i| usize::try_from(i).ok())
+            .and_then(|i| arrivals.get(i).copied())
+            .unwrap_or(fallback);
+        times.push(at);
     }
 }
 
@@ -168,6 +191,7 @@ impl LiveRun {
             feed: Feed::default(),
             dirty: false,
             ended: false,
+            alert_times: Vec::new(),
             version: 0,
         }
     }
@@ -226,6 +250,12 @@ impl LiveRun {
             Some(a) => a.analyzer.engine().alerts(),
             None => &[],
         }
+    }
+
+    /// Wall-clock second of each alert in [`alerts`](Self::alerts) (the arrival of its row
+    /// when known, else when it was raised); shorter when the last alerts are not timed yet.
+    pub fn alert_times(&self) -> &[f64] {
+        &self.alert_times
     }
 
     /// Alerts whose condition still holds.
@@ -363,6 +393,7 @@ impl LiveRun {
         self.parser.reset();
         self.arrivals.clear();
         self.history = History::default();
+        self.alert_times.clear();
         if let (Some(a), Some(opts)) = (&mut self.analysing, &self.analysis_options) {
             a.analyzer = Analyzer::new(opts.clone());
             a.latest = None;
@@ -396,6 +427,7 @@ impl LiveRun {
             self.ended,
         );
         a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
         bound_memory_with_history(
             &mut self.parser,
             &mut a.analyzer,
@@ -417,6 +449,7 @@ impl LiveRun {
             .analyzer
             .update(self.parser.table(), true, Some(&self.arrivals), true);
         a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
         self.version += 1;
         a.latest.as_ref()
     }
@@ -435,8 +468,11 @@ impl LiveRun {
         let active_before = a.analyzer.engine().active().len();
         let last_row = usize::try_from(rows).ok().and_then(|r| r.checked_sub(1));
         a.analyzer.check_stall(now, &self.arrivals, last_row);
-        let changed = a.analyzer.engine().alerts().len() != before
-            || a.analyzer.engine().active().len() != active_before;
+        let raised = a.analyzer.engine().alerts().len();
+        while self.alert_times.len() < raised {
+            self.alert_times.push(now);
+        }
+        let changed = raised != before || a.analyzer.engine().active().len() != active_before;
         if changed {
             self.version += 1;
         }
