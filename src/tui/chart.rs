@@ -106,6 +106,9 @@ impl Widget for &TrendChart<'_> {
         let mut early = vec![false; w];
         let mut late = vec![false; w];
         let mut nonfinite = vec![false; w];
+        // Values beyond the scale (after a blow-up the scale ends before it).
+        let mut above = vec![false; w];
+        let mut below = vec![false; w];
         let mut previous: Option<(usize, usize)> = None;
         for p in 0..px_w {
             let Some(b) = c.buckets.get(p * nb / px_w) else {
@@ -121,6 +124,16 @@ impl Widget for &TrendChart<'_> {
                 previous = None;
                 continue;
             };
+            if hi > c.y_high {
+                if let Some(x) = above.get_mut(p / 2) {
+                    *x = true;
+                }
+            }
+            if lo < c.y_low {
+                if let Some(x) = below.get_mut(p / 2) {
+                    *x = true;
+                }
+            }
             let (Some(mut y0), Some(mut y1)) = (to_px(lo), to_px(hi)) else {
                 previous = None;
                 continue;
@@ -166,9 +179,15 @@ impl Widget for &TrendChart<'_> {
                 }
             }
         }
-        for (cx, bad) in nonfinite.iter().enumerate() {
-            if *bad {
-                set(buf, plot.x + cx as u16, plot.y, "×", t.nonfinite());
+        for cx in 0..w {
+            let x = plot.x + cx as u16;
+            if nonfinite.get(cx).copied().unwrap_or(false) {
+                set(buf, x, plot.y, "×", t.nonfinite());
+            } else if above.get(cx).copied().unwrap_or(false) {
+                set(buf, x, plot.y, "▲", t.nonfinite());
+            }
+            if below.get(cx).copied().unwrap_or(false) {
+                set(buf, x, plot.y + plot.height - 1, "▼", t.nonfinite());
             }
         }
         // Value labels: top, bottom and the mean's row.

@@ -112,12 +112,12 @@ impl OverviewColumns {
     pub fn for_width(width: u16) -> OverviewColumns {
         let (name, spark, speed) = match width {
             0..=59 => (12, 0, 0),
-            60..=99 => (16, 11, 0),
+            60..=99 => (15, 11, 0),
             100..=139 => (24, 21, 9),
             _ => (32, 31, 9),
         };
         let status = 12;
-        let progress = if width < 100 { 10 } else { 11 };
+        let progress = if width < 60 { 10 } else { 14 };
         let age = if width < 100 { 6 } else { 7 };
         let used = status + name + spark + progress + speed + age;
         OverviewColumns {

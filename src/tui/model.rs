@@ -125,6 +125,8 @@ pub struct AlertLine {
     pub message: String,
     /// Its condition still holds.
     pub active: bool,
+    /// Alerts merged into this line (the same kind, severity and row on other columns).
+    pub also: usize,
 }
 
 fn alert_line(alert: &Alert, wall: Option<f64>, active: bool) -> AlertLine {
@@ -137,6 +139,7 @@ fn alert_line(alert: &Alert, wall: Option<f64>, active: bool) -> AlertLine {
         wall,
         message: escape(&alert.message).into_owned(),
         active,
+        also: 0,
     }
 }
 
@@ -160,7 +163,32 @@ fn alert_lines(run: &LiveRun) -> Vec<AlertLine> {
         let (ka, kb) = (key(a), key(b));
         kb.0.total_cmp(&ka.0).then(kb.1.cmp(&ka.1))
     });
-    lines
+    group_alerts(lines)
+}
+
+/// Merges alerts of one kind, severity and row on several columns into one line that
+/// names the columns (a blow-up turns every column non-finite at once).
+fn group_alerts(lines: Vec<AlertLine>) -> Vec<AlertLine> {
+    let mut out: Vec<AlertLine> = Vec::with_capacity(lines.len());
+    for line in lines {
+        if let Some(last) = out.last_mut() {
+            let same = last.kind == line.kind
+                && last.severity == line.severity
+                && last.row.is_some()
+                && last.row == line.row
+                && last.active == line.active;
+            if same {
+                if let (Some(c), Some(new)) = (&mut last.column, &line.column) {
+                    c.push_str(", ");
+                    c.push_str(new);
+                    last.also += 1;
+                    continue;
+                }
+            }
+        }
+        out.push(line);
+    }
+    out
 }
 
 /// One line of the overview.
@@ -289,7 +317,9 @@ pub struct Detail {
     pub chart: Option<Chart>,
     pub summary: Vec<Item>,
     pub alerts: Vec<AlertLine>,
+    /// Alerts still active, and raised in all (lines may merge several).
     pub active_alerts: usize,
+    pub total_alerts: usize,
     /// The latest things the follower said (truncated, deleted...), newest last.
     pub notices: Vec<(f64, String)>,
 }
@@ -557,16 +587,40 @@ fn chart_of(run: &LiveRun, q: &Quantity, app: &App, plot: Rect) -> Option<Chart>
         },
     };
     let (from, to) = x_range(app.view, rows, onset_row, app.window_rows);
+    // After a blow-up the scale comes from the rows before it; later rows are drawn off
+    // the scale (marked), so the run's history stays readable.
+    let first_row = analysis.first_row as u64;
+    let blow_up = run
+        .alerts()
+        .iter()
+        .filter(|a| a.column.as_deref() == Some(q.name_raw.as_str()))
+        .filter(|a| matches!(a.kind, AlertKind::Runaway | AlertKind::Nonfinite))
+        .filter(|a| a.severity == Severity::Critical)
+        .filter_map(|a| a.row?.checked_sub(first_row))
+        .min();
     // One bucket per pixel column, or per row when the range has fewer rows.
     let pixels = usize::from(plot.width) * 2;
     let n = pixels.min(usize::try_from(to - from).unwrap_or(usize::MAX));
     let buckets = series.resample(from, to, n);
-    let (mut lo, mut hi) = buckets
+    let n = buckets.len().max(1) as u64;
+    let bucket_first_row = |i: usize| from + (to - from) * i as u64 / n;
+    let scaled = buckets
         .iter()
-        .filter_map(Bucket::range)
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), (a, b)| {
-            (lo.min(a), hi.max(b))
-        });
+        .enumerate()
+        .filter(|(i, _)| blow_up.is_none_or(|b| bucket_first_row(*i + 1) <= b))
+        .filter_map(|(_, b)| b.range());
+    let (mut lo, mut hi) = scaled.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), (a, b)| {
+        (lo.min(a), hi.max(b))
+    });
+    if !lo.is_finite() {
+        // Nothing before the blow-up in view: scale on everything.
+        (lo, hi) = buckets
+            .iter()
+            .filter_map(Bucket::range)
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), (a, b)| {
+                (lo.min(a), hi.max(b))
+            });
+    }
     let (mean, error) = match q.mean {
         Some((m, e)) => (Some(m), e),
         None => (None, None),
@@ -577,7 +631,6 @@ fn chart_of(run: &LiveRun, q: &Quantity, app: &App, plot: Rect) -> Option<Chart>
         hi = hi.max(m + e);
     }
     let (y_low, y_high) = y_range(lo, hi);
-    let first_row = analysis.first_row as u64;
     let note = match (app.view, onset_row) {
         (ChartView::Production, None) => Some("no onset yet: all rows".to_string()),
         _ => None,
@@ -919,7 +972,8 @@ fn detail(run: &LiveRun, app: &App, order: &[RunId], size: Rect, now: f64) -> De
         last_row_age: run.last_row_arrival().map(|t| (now - t).max(0.0)),
         verdict,
         verdict_flag,
-        active_alerts: all_alerts.iter().filter(|a| a.active).count(),
+        active_alerts: run.active_alerts().len(),
+        total_alerts: run.alerts().len(),
         alerts: all_alerts,
         quantities: qs,
         charted,

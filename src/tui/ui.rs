@@ -5,7 +5,7 @@
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::Widget;
+use ratatui::widgets::{Paragraph, Widget, Wrap};
 
 use super::app::Screen;
 use super::chart::TrendChart;
@@ -78,6 +78,7 @@ fn draw_detail(d: &Detail, s: &Snapshot, theme: &Theme, area: Rect, buf: &mut Bu
         AlertList {
             alerts: &d.alerts,
             active: d.active_alerts,
+            total: d.total_alerts,
             scroll: s.alert_scroll,
             notices: &d.notices,
             theme,
@@ -93,13 +94,12 @@ impl Widget for &Dashboard<'_> {
         let t = self.theme;
         if layout::too_small(area) {
             let text = format!(
-                "terminal too small ({}×{}): plateau needs {MIN_WIDTH}×{MIN_HEIGHT}; q quits",
+                "terminal too small ({}×{}): plateau needs {MIN_WIDTH}×{MIN_HEIGHT} · q quits",
                 area.width, area.height
             );
-            if area.height > 0 {
-                Line::from(Span::styled(text, t.title()))
-                    .render(Rect::new(area.x, area.y, area.width, 1), buf);
-            }
+            Paragraph::new(Line::from(Span::styled(text, t.title())))
+                .wrap(Wrap { trim: true })
+                .render(area, buf);
             return;
         }
         let footer = Rect::new(area.x, area.y + area.height - 1, area.width, 1);

@@ -16,7 +16,9 @@ use super::super::theme::{severity_marker, Theme};
 pub struct AlertList<'a> {
     pub alerts: &'a [AlertLine],
     pub active: usize,
-    /// Alerts scrolled past (newest first).
+    /// Alerts raised (lines may merge several).
+    pub total: usize,
+    /// Alert lines scrolled past (newest first).
     pub scroll: usize,
     pub notices: &'a [(f64, String)],
     pub theme: &'a Theme,
@@ -76,21 +78,21 @@ impl Widget for &AlertList<'_> {
         title.push(Span::styled(
             match n {
                 0 => " · none".to_string(),
-                _ => format!(" · {} active, {} in all, newest first", self.active, n),
+                _ => format!(" · {} active of {}, newest first", self.active, self.total),
             },
             t.label(),
         ));
         let rows = usize::from(area.height - 1);
         let shown = n.saturating_sub(scroll).min(rows);
-        if scroll > 0 || n > scroll + shown {
-            title.push(Span::styled(
-                format!(
-                    " · {} newer, {} older (PgUp PgDn)",
-                    scroll,
-                    n - scroll - shown
-                ),
-                t.dim(),
-            ));
+        let older = n - scroll - shown;
+        let more = match (scroll, older) {
+            (0, 0) => String::new(),
+            (0, o) => format!(" · {o} older: PgDn"),
+            (s, 0) => format!(" · {s} newer: PgUp"),
+            (s, o) => format!(" · {s} newer, {o} older: PgUp PgDn"),
+        };
+        if !more.is_empty() {
+            title.push(Span::styled(more, t.dim()));
         }
         if let Some((at, text)) = self.notices.last() {
             title.push(Span::styled(
@@ -102,5 +104,100 @@ impl Widget for &AlertList<'_> {
         for (i, a) in self.alerts.iter().skip(scroll).take(rows).enumerate() {
             alert_spans(a, t).render(Rect::new(area.x, area.y + 1 + i as u16, area.width, 1), buf);
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::alert::Severity;
+    use crate::tui::panels::buffer_lines;
+    use ratatui::style::{Color, Modifier};
+
+    fn line(severity: Severity, kind: &'static str, row: u64, active: bool) -> AlertLine {
+        AlertLine {
+            severity,
+            kind,
+            column: Some("potential".into()),
+            row: Some(row),
+            time: Some(row as f64 * 2.0),
+            wall: None,
+            message: "what happened".into(),
+            active,
+            also: 0,
+        }
+    }
+
+    fn render(list: &AlertList<'_>, w: u16, h: u16) -> Buffer {
+        let mut buf = Buffer::empty(Rect::new(0, 0, w, h));
+        list.render(buf.area, &mut buf);
+        buf
+    }
+
+    #[test]
+    fn alerts_are_listed_with_time_severity_place_and_message() {
+        let alerts = [
+            line(Severity::Critical, "runaway", 900, true),
+            line(Severity::Warning, "spike", 120, false),
+        ];
+        let theme = Theme::colored();
+        let list = AlertList {
+            alerts: &alerts,
+            active: 1,
+            total: 2,
+            scroll: 0,
+            notices: &[],
+            theme: &theme,
+        };
+        let buf = render(&list, 90, 3);
+        assert_eq!(
+            buffer_lines(&buf),
+            vec![
+                format!("{:<90}", " alerts · 1 active of 2, newest first"),
+                format!(
+                    "{:<90}",
+                    " --:--:-- ✗ CRIT runaway potential (row 900 · 1.8 ns): what happened"
+                ),
+                format!(
+                    "{:<90}",
+                    " --:--:-- ▲ WARN spike potential (row 120 · 240 ps) cleared: what happened"
+                ),
+            ]
+        );
+        // Critical: red, bold, reversed; a cleared warning is dimmed, not coloured.
+        let crit = &buf[(10, 1)];
+        assert_eq!(crit.symbol(), "✗");
+        assert_eq!(crit.fg, Color::Red);
+        assert!(crit.modifier.contains(Modifier::BOLD | Modifier::REVERSED));
+        let cleared = &buf[(10, 2)];
+        assert_eq!(cleared.symbol(), "▲");
+        assert!(cleared.modifier.contains(Modifier::DIM));
+        assert_ne!(cleared.fg, Color::Yellow);
+    }
+
+    #[test]
+    fn more_alerts_than_lines_say_how_to_scroll() {
+        let alerts: Vec<AlertLine> = (0..10)
+            .map(|i| line(Severity::Warning, "spike", 100 - i, true))
+            .collect();
+        let theme = Theme::plain();
+        let mut list = AlertList {
+            alerts: &alerts,
+            active: 10,
+            total: 10,
+            scroll: 0,
+            notices: &[],
+            theme: &theme,
+        };
+        let lines = buffer_lines(&render(&list, 80, 4));
+        assert!(lines[0].contains("7 older: PgDn"), "{lines:?}");
+        assert!(lines[1].contains("row 100 "), "{lines:?}");
+        list.scroll = 5;
+        let lines = buffer_lines(&render(&list, 80, 4));
+        assert!(
+            lines[0].contains("5 newer, 2 older: PgUp PgDn"),
+            "{lines:?}"
+        );
+        assert!(lines[1].contains("row 95 "), "{lines:?}");
     }
 }

@@ -41,7 +41,8 @@ fn progress_text(line: &RunLine) -> String {
     }
 }
 
-fn alert_text(line: &RunLine) -> String {
+/// The newest alert: symbol, kind, column; its time and "cleared" when they fit.
+fn alert_text(line: &RunLine, width: usize) -> String {
     match &line.newest_alert {
         Some(a) => {
             let symbol = severity_marker(a.severity).split(' ').next().unwrap_or("");
@@ -49,11 +50,15 @@ fn alert_text(line: &RunLine) -> String {
             if let Some(c) = &a.column {
                 s.push_str(&format!(" {c}"));
             }
-            if let Some(w) = a.wall {
-                s.push_str(&format!(" {}", format::clock(w)));
-            }
+            let mut tail = String::new();
             if !a.active {
-                s.push_str(" (cleared)");
+                tail.push_str(" cleared");
+            }
+            if let Some(w) = a.wall {
+                tail.push_str(&format!(" {}", format::clock(w)));
+            }
+            if s.chars().count() + tail.chars().count() < width {
+                s.push_str(&tail);
             }
             s
         }
@@ -123,7 +128,7 @@ impl OverviewTable<'_> {
             None => t.dim(),
         };
         spans.push(Span::styled(
-            cell(&alert_text(line), cols.alert),
+            cell(&alert_text(line, usize::from(cols.alert)), cols.alert),
             alert_style,
         ));
         Line::from(spans)

@@ -64,3 +64,57 @@ impl Widget for &QuantityLines<'_> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::tui::panels::buffer_lines;
+
+    fn quantity(name: &str, onset: Onset, alert: Option<Severity>) -> Quantity {
+        Quantity {
+            column: 0,
+            name: name.into(),
+            name_raw: name.into(),
+            unit: "K".into(),
+            role: None,
+            current: Some(301.25),
+            onset,
+            mean: None,
+            n_eff: None,
+            g: None,
+            still_changing: false,
+            alert,
+            spark: vec![Some(1.0), Some(2.0), Some(3.0), Some(4.0)],
+        }
+    }
+
+    #[test]
+    fn each_other_quantity_has_its_number_mark_sparkline_and_value() {
+        let qs = [
+            quantity("potential", Onset::At { row: 5, time: None }, None),
+            quantity("temperature", Onset::NotYet, None),
+            quantity(
+                "pressure",
+                Onset::At { row: 5, time: None },
+                Some(Severity::Critical),
+            ),
+        ];
+        let theme = Theme::plain();
+        let mut buf = Buffer::empty(Rect::new(0, 0, 38, 3));
+        QuantityLines {
+            quantities: &qs,
+            charted: 0,
+            theme: &theme,
+        }
+        .render(buf.area, &mut buf);
+        // 38 columns leave 4 for the sparkline.
+        assert_eq!(
+            buffer_lines(&buf),
+            vec![
+                " 2~ temperature  ▁▃▆█     301.2 K     ",
+                " 3✗ pressure     ▁▃▆█     301.2 K     ",
+                "                                      ",
+            ]
+        );
+    }
+}

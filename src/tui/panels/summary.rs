@@ -58,3 +58,50 @@ impl Widget for &SummaryPanel<'_> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::tui::panels::buffer_lines;
+    use ratatui::style::Color;
+
+    #[test]
+    fn items_line_up_and_warnings_are_marked() {
+        let items = [
+            Item {
+                label: "rows",
+                value: "12 345".into(),
+                flag: None,
+            },
+            Item {
+                label: "drift",
+                value: "+0.31±0.05 kJ/mol/ns".into(),
+                flag: Some(Severity::Warning),
+            },
+            Item {
+                label: "skipped",
+                value: "3 lines".into(),
+                flag: Some(Severity::Info),
+            },
+        ];
+        let theme = Theme::colored();
+        let mut buf = Buffer::empty(Rect::new(0, 0, 34, 4));
+        SummaryPanel {
+            items: &items,
+            theme: &theme,
+        }
+        .render(buf.area, &mut buf);
+        assert_eq!(
+            buffer_lines(&buf),
+            vec![
+                "│ rows        12 345              ",
+                "│ drift     ▲ +0.31±0.05 kJ/mol/ns",
+                "│ skipped   · 3 lines             ",
+                "│                                 ",
+            ]
+        );
+        assert_eq!(buf[(12, 1)].symbol(), "▲");
+        assert_eq!(buf[(12, 1)].fg, Color::Yellow);
+        assert_eq!(buf[(14, 1)].fg, Color::Yellow);
+    }
+}
