@@ -461,9 +461,22 @@ impl LiveRun {
             return false;
         }
         let rows = self.rows_seen();
+        let last = self.arrivals.last().copied();
         let Some(a) = &mut self.analysing else {
             return false;
         };
+        // Nothing can change before the shortest possible limit while not stalled: skip
+        // the median of the gaps (a hundred quiet runs are checked every second).
+        let shortest = a.analyzer.engine().thresholds().stall_limit_seconds(None);
+        let stalled = a
+            .analyzer
+            .engine()
+            .active()
+            .iter()
+            .any(|x| x.kind == crate::alert::AlertKind::Stalled);
+        if !stalled && last.is_some_and(|t| now - t <= shortest) {
+            return false;
+        }
         let before = a.analyzer.engine().alerts().len();
         let active_before = a.analyzer.engine().active().len();
         let last_row = usize::try_from(rows).ok().and_then(|r| r.checked_sub(1));

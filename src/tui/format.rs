@@ -61,6 +61,16 @@ pub fn number(v: f64) -> String {
     }
 }
 
+/// Three significant digits (a rate that should not flicker with every row).
+pub fn sig3(v: f64) -> String {
+    if !v.is_finite() || v == 0.0 {
+        return number(v);
+    }
+    let digits_before = v.abs().log10().floor() as i32 + 1;
+    let scale = 10f64.powi(3 - digits_before);
+    number((v * scale).round() / scale)
+}
+
 /// A number with its unit, `-` when absent.
 pub fn quantity(v: Option<f64>, unit: &str) -> String {
     match v {
@@ -242,6 +252,9 @@ mod tests {
         assert_eq!(number(2.5e9), "2.50e9");
         assert_eq!(number(f64::NAN), "nan");
         assert_eq!(number(f64::NEG_INFINITY), "-inf");
+        assert_eq!(sig3(1715.4), "1720");
+        assert_eq!(sig3(31.26), "31.3");
+        assert_eq!(sig3(0.0), "0");
     }
 
     #[test]

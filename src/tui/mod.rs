@@ -17,6 +17,7 @@
 //! - The terminal is restored by [`terminal::TerminalGuard`] on every way out.
 
 pub mod app;
+pub mod backend;
 pub mod chart;
 pub mod format;
 pub mod keys;
@@ -36,9 +37,6 @@ use std::thread;
 use std::time::{Duration, Instant};
 
 use crossterm::event::{Event as TermEvent, KeyEvent, KeyEventKind};
-use crossterm::queue;
-use crossterm::terminal::{BeginSynchronizedUpdate, EndSynchronizedUpdate};
-use ratatui::backend::CrosstermBackend;
 use ratatui::layout::Rect;
 use ratatui::Terminal;
 
@@ -52,6 +50,7 @@ pub use model::Snapshot;
 pub use theme::Theme;
 
 use app::{Effect, Message};
+use backend::LeanBackend;
 use terminal::TerminalGuard;
 
 /// The shortest time between two frames drawn for new data (a key draws at once). 100 ms
@@ -310,13 +309,13 @@ pub fn write_report(live: &Live, id: RunId, dir: &Path) -> Message {
     }
 }
 
-type Screen = Terminal<CrosstermBackend<BufWriter<Stdout>>>;
+type Screen = Terminal<LeanBackend<BufWriter<Stdout>>>;
 
+/// Draws one frame: the cells that changed, inside a synchronized update, in one write
+/// (nothing when no cell changed).
 fn draw(term: &mut Screen, snapshot: &Snapshot, theme: &Theme) -> io::Result<()> {
-    queue!(term.backend_mut(), BeginSynchronizedUpdate)?;
     term.draw(|f| f.render_widget(&ui::Dashboard { snapshot, theme }, f.area()))?;
-    queue!(term.backend_mut(), EndSynchronizedUpdate)?;
-    term.backend_mut().flush()
+    term.backend_mut().finish_frame()
 }
 
 /// Runs the dashboard on the runs of `live` until the user quits or a signal ends it.
@@ -347,7 +346,8 @@ pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, 
             .spawn(move || input_loop(tx))
             .map_err(Error::Output)?;
     }
-    let backend = CrosstermBackend::new(BufWriter::with_capacity(1 << 16, io::stdout()));
+    let backend = LeanBackend::new(BufWriter::with_capacity(1 << 16, io::stdout()))
+        .with_synchronized_frames();
     let mut term = Terminal::new(backend).map_err(Error::Output)?;
     let theme = Theme::from_env();
     let mut app = App::new(runs, patterns);
@@ -419,6 +419,7 @@ fn ui_loop(
                         Effect::Redraw => redraw = true,
                         Effect::FullRedraw => {
                             term.clear().map_err(Error::Output)?;
+                            term.backend_mut().finish_frame().map_err(Error::Output)?;
                             redraw = true;
                         }
                         Effect::WriteReport(id) => {
@@ -429,6 +430,7 @@ fn ui_loop(
                         Effect::Suspend => {
                             guard.suspend().map_err(Error::Output)?;
                             term.clear().map_err(Error::Output)?;
+                            term.backend_mut().finish_frame().map_err(Error::Output)?;
                             redraw = true;
                         }
                         Effect::Quit => return Ok(0),

@@ -422,8 +422,9 @@ fn spark_of(series: Option<SeriesView<'_>>, n: usize) -> Vec<Option<f64>> {
     if rows == 0 || n == 0 {
         return vec![None; n];
     }
-    // Fewer rows than cells: one row per cell, the rest empty (the line grows rightwards).
-    let to = rows.max(n as u64);
+    // The buckets' rows only change when the series passes a "nice" length (as the
+    // chart's), so a new row redraws one cell; fewer rows than cells give one row a cell.
+    let to = nice_ceiling(rows).max(n as u64);
     s.resample(0, to, n).iter().map(Bucket::mean).collect()
 }
 
@@ -712,12 +713,8 @@ fn verdict(run: &LiveRun) -> (String, Option<Severity>) {
                 Some(t) => format::sim_time(t),
                 None => format!("row {}", row + a.first_row),
             };
-            let rows_after = run
-                .series(segment, 0)
-                .map_or(0, |s| s.rows().saturating_sub(row as u64));
             let mut text = format!(
-                "equilibrated from {at}: production {} rows, N_eff {}{from}",
-                format::count(rows_after),
+                "equilibrated from {at}{from}; production N_eff {}",
                 format::number(n_eff.round())
             );
             if changing.is_empty() {
@@ -755,7 +752,7 @@ fn summary(run: &LiveRun, charted: Option<&Quantity>, now: f64) -> Vec<Item> {
         "speed",
         progress
             .and_then(|p| p.ns_per_day)
-            .map_or("-".into(), |v| format!("{} ns/day", format::number(v))),
+            .map_or("-".into(), |v| format!("{} ns/day", format::sig3(v))),
     ));
     let opts = run.analysis_options();
     let until = opts.and_then(|o| o.until_ps);

@@ -54,9 +54,11 @@ impl Widget for &QuantityLines<'_> {
                 Span::styled(symbol, style),
                 Span::raw(format!(" {:<12} ", format::fit(&q.name, 12))),
                 Span::styled(format!("{spark:<spark_w$}"), t.data()),
+                // The value in the sparkline's style: a new row changes both, and one style
+                // for the two keeps each frame's diff small.
                 Span::styled(
                     format!(" {:>9}", q.current.map_or("-".into(), format::number)),
-                    t.value(),
+                    t.data(),
                 ),
                 Span::styled(format!(" {}", format::fit(&q.unit, 8)), t.label()),
             ]);
