@@ -104,6 +104,37 @@ pub fn not_a_terminal() -> Error {
     )
 }
 
+/// The runs, shared by the engine thread and the UI thread.
+///
+/// A mutex is not fair: the engine, taking the lock again right after letting it go while
+/// a large file loads, could keep the UI waiting for seconds. So the UI says when it waits
+/// ([`Shared::lock_for_ui`]) and the engine steps aside before its next hold
+/// ([`Shared::lock_for_engine`]); the UI's holds are short (building one snapshot).
+struct Shared {
+    live: Mutex<Live>,
+    ui_waiting: AtomicBool,
+}
+
+/// The longest the engine steps aside for a waiting UI before taking the lock anyway.
+const STEP_ASIDE: Duration = Duration::from_millis(200);
+
+impl Shared {
+    fn lock_for_ui(&self) -> MutexGuard<'_, Live> {
+        self.ui_waiting.store(true, Ordering::SeqCst);
+        let guard = lock(&self.live);
+        self.ui_waiting.store(false, Ordering::SeqCst);
+        guard
+    }
+
+    fn lock_for_engine(&self) -> MutexGuard<'_, Live> {
+        let start = Instant::now();
+        while self.ui_waiting.load(Ordering::SeqCst) && start.elapsed() < STEP_ASIDE {
+            thread::sleep(Duration::from_millis(1));
+        }
+        lock(&self.live)
+    }
+}
+
 fn lock(live: &Mutex<Live>) -> MutexGuard<'_, Live> {
     live.lock().unwrap_or_else(|poisoned| poisoned.into_inner())
 }
@@ -126,7 +157,7 @@ fn event_bytes(event: &FollowEvent) -> usize {
 }
 
 fn engine_loop(
-    live: Arc<Mutex<Live>>,
+    live: Arc<Shared>,
     rx: FollowReceiver,
     wake: Sender<Event>,
     pending: Arc<AtomicBool>,
@@ -141,7 +172,7 @@ fn engine_loop(
         match rx.recv_timeout(wait) {
             Ok((source, event)) => {
                 let mut budget = DRAIN_BYTES.saturating_sub(event_bytes(&event));
-                let mut l = lock(&live);
+                let mut l = live.lock_for_engine();
                 l.apply(source, event, live::now_seconds());
                 // Apply what is already waiting before analysing: one analysis per burst.
                 while budget > 0 {
@@ -158,7 +189,10 @@ fn engine_loop(
                 // One run at a time, letting go of the lock in between, so that the screen
                 // shows each run as soon as it is analysed.
                 for id in runs {
-                    let analysed = lock(&live).run_mut(id).is_some_and(|r| r.analyse());
+                    let analysed = live
+                        .lock_for_engine()
+                        .run_mut(id)
+                        .is_some_and(|r| r.analyse());
                     if analysed
                         && !pending.swap(true, Ordering::SeqCst)
                         && wake.send(Event::Data).is_err()
@@ -175,7 +209,7 @@ fn engine_loop(
             last_tick = Instant::now();
             ticks += 1;
             let now = live::now_seconds();
-            let mut l = lock(&live);
+            let mut l = live.lock_for_engine();
             changed |= l.check_stalls(now);
             if let Some(until) = options.until {
                 let ids: Vec<RunId> = l
@@ -326,7 +360,10 @@ pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, 
     }
     let runs = live.runs().len();
     let patterns = !live.patterns().is_empty();
-    let live = Arc::new(Mutex::new(live));
+    let live = Arc::new(Shared {
+        live: Mutex::new(live),
+        ui_waiting: AtomicBool::new(false),
+    });
     let pending = Arc::new(AtomicBool::new(false));
     let (tx, events) = mpsc::channel();
     signal_loop(tx.clone()).map_err(Error::Output)?;
@@ -363,7 +400,7 @@ pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, 
 fn ui_loop(
     term: &mut Screen,
     guard: &TerminalGuard,
-    live: &Mutex<Live>,
+    live: &Shared,
     pending: &AtomicBool,
     events: &Receiver<Event>,
     app: &mut App,
@@ -381,7 +418,7 @@ fn ui_loop(
             let size = term.size().map_err(Error::Output)?;
             pending.store(false, Ordering::SeqCst);
             let snapshot = {
-                let l = lock(live);
+                let l = live.lock_for_ui();
                 model::build(
                     l.runs(),
                     l.patterns(),
@@ -423,7 +460,8 @@ fn ui_loop(
                             redraw = true;
                         }
                         Effect::WriteReport(id) => {
-                            let message = write_report(&lock(live), id, &options.report_dir);
+                            let message =
+                                write_report(&live.lock_for_ui(), id, &options.report_dir);
                             app.message = Some(message);
                             redraw = true;
                         }
