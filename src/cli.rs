@@ -33,6 +33,8 @@ pub enum Command {
     Export(crate::commands::export::ExportArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(crate::commands::generate::GenerateArgs),
+    /// Write a finished log into a new file at a pace, to rehearse watching a live run.
+    Replay(crate::commands::replay::ReplayArgs),
 }
 
 /// How to describe a log; shared by every command that reads one.
