@@ -16,6 +16,8 @@
 //! middle of a row). The stall is only seen as such with a stall limit shorter than the
 //! default minute: use [`DemoPlan::stall_after`].
 
+pub mod examples;
+
 use std::fs::File;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};

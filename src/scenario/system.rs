@@ -91,7 +91,7 @@ pub const SOLVENT_BOX: System = System {
 /// about 230 nm³, bonds to hydrogen and the solvent held rigid.
 pub const PEPTIDE_IN_WATER: System = System {
     name: "PX-24",
-    description: "an invented 24-residue peptide in 7626 rigid solvent molecules, 23,244 atoms",
+    description: "a 24-residue peptide in 7626 rigid solvent molecules, 23,244 atoms",
     atoms: 23_244,
     // Three constraints per rigid solvent molecule and about 180 in the peptide.
     constraints_per_atom: (3.0 * 7626.0 + 180.0) / 23_244.0,
@@ -111,7 +111,7 @@ pub const PEPTIDE_IN_WATER: System = System {
 /// viscous, so its box settles slowly; bonds to hydrogen rigid.
 pub const IONIC_LIQUID: System = System {
     name: "IX-4",
-    description: "an invented ionic liquid, 256 ion pairs, 8448 atoms",
+    description: "an ionic liquid, 256 ion pairs, 8448 atoms",
     atoms: 8448,
     constraints_per_atom: 0.45,
     mass_per_atom: 284.0 / 33.0,
