@@ -39,6 +39,7 @@ use std::path::PathBuf;
 use std::time::{Duration, SystemTime};
 
 pub use clock::{Clock, ManualClock, SystemClock};
+pub(crate) use command::detach;
 pub use command::{
     AlwaysRestart, Backoff, CommandControl, CommandSource, CommandSpec, Restart, RestartPolicy,
     OVERLAP, START_BYTE,
