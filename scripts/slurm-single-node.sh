@@ -1,7 +1,13 @@
 #!/usr/bin/env bash
-# Single-node Slurm 22.05 (Debian bookworm packages) without systemd, as root.
+# Single-node Slurm 22.05 (Debian bookworm packages) without systemd, as root, for the
+# integration tests in tests/slurm.rs and for trying `plateau ... --jobs` by hand.
 # Usage: slurm-single-node.sh up | down   (in CI: up; trap "... down" EXIT)
+# The partition lets up to 8 jobs share a core, so that several small test jobs run at
+# once on a 2-core machine.
 set -euo pipefail
+
+# True when the pid file names a running process.
+alive() { [ -s "$1" ] && kill -0 "$(cat "$1")" 2>/dev/null; }
 
 up() {
   if ! command -v slurmctld >/dev/null; then
@@ -47,13 +53,14 @@ MailProg=/bin/true
 NodeName=${h} NodeAddr=127.0.0.1 CPUs=$(nproc) State=UNKNOWN
 PartitionName=debug Nodes=ALL Default=YES MaxTime=INFINITE State=UP OverSubscribe=FORCE:8
 EOF
-  /usr/sbin/slurmctld      # both daemonize and write their pid files
-  /usr/sbin/slurmd
+  # Both daemonize and write their pid files; one already running is left as it is.
+  alive /run/slurmctld.pid || /usr/sbin/slurmctld
+  alive /run/slurmd.pid || /usr/sbin/slurmd
   for _ in $(seq 1 120); do
-    [ "$(sinfo --noheader -o %t 2>/dev/null)" = idle ] && return 0
+    case "$(sinfo --noheader -o %t 2>/dev/null)" in idle|mix|alloc) return 0 ;; esac
     sleep 0.5
   done
-  echo "slurm node not idle after 60 s" >&2
+  echo "slurm node not up after 60 s" >&2
   tail -n 30 /var/log/slurm/slurmctld.log /var/log/slurm/slurmd.log >&2
   return 1
 }
