@@ -33,6 +33,12 @@ pub enum Command {
     Export(crate::commands::export::ExportArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(crate::commands::generate::GenerateArgs),
+    /// Write a finished log into a new file at a pace, to rehearse watching a live run.
+    Replay(crate::commands::replay::ReplayArgs),
+    /// Print a completion script for bash, zsh, fish, elvish or PowerShell.
+    Completions(crate::commands::completions::CompletionsArgs),
+    /// Print the manual page (roff), or write every page into a folder with --dir.
+    Manpage(crate::commands::manpage::ManpageArgs),
 }
 
 /// How to describe a log; shared by every command that reads one.

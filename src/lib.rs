@@ -10,6 +10,7 @@ pub mod analysis;
 pub mod cli;
 pub mod commands;
 pub mod config;
+pub mod demo;
 pub mod error;
 pub mod fold;
 pub mod follow;

@@ -12,7 +12,8 @@ use crate::scenario::{write_log, LogStyle, Scenario, ScenarioSpec};
 /// Arguments of `plateau generate`.
 #[derive(Debug, Args)]
 pub struct GenerateArgs {
-    /// Scenario: equilibration, heating, nve-drift, blow-up, stalled, thermostat-failure.
+    /// Scenario: equilibration, density-settling, heating, staged-heating, production,
+    /// nve-drift, blow-up, stalled, thermostat-failure.
     #[arg(value_parser = parse_scenario)]
     pub scenario: Scenario,
     /// Layout of the written log: whitespace, csv, tagged, tab, fixed-width.
@@ -24,9 +25,10 @@ pub struct GenerateArgs {
     /// Seed of the random series (same seed, same log).
     #[arg(long, default_value_t = 20_261_201)]
     pub seed: u64,
-    /// Number of atoms of the invented system.
-    #[arg(long, default_value_t = 3000)]
-    pub atoms: u64,
+    /// Number of atoms of the invented system (default: the scenario's own system); its
+    /// energies, volume and fluctuations scale with it.
+    #[arg(long)]
+    pub atoms: Option<u64>,
     /// Where to write the log (standard output when absent). An existing file is replaced.
     #[arg(long, short)]
     pub output: Option<PathBuf>,
@@ -34,10 +36,9 @@ pub struct GenerateArgs {
 
 fn parse_scenario(name: &str) -> Result<Scenario, String> {
     Scenario::from_name(name).ok_or_else(|| {
-        let names: Vec<&str> = Scenario::ALL.iter().map(|s| s.name()).collect();
         format!(
             "unknown scenario '{name}'; choose one of {}",
-            names.join(", ")
+            Scenario::names()
         )
     })
 }
@@ -53,7 +54,9 @@ fn parse_style(name: &str) -> Result<LogStyle, String> {
 pub fn run(args: &GenerateArgs) -> io::Result<()> {
     let mut spec = ScenarioSpec::new(args.scenario, args.style, args.rows);
     spec.seed = args.seed;
-    spec.atoms = args.atoms;
+    if let Some(atoms) = args.atoms {
+        spec.atoms = atoms;
+    }
     match &args.output {
         Some(path) => {
             let mut out = BufWriter::with_capacity(1 << 20, File::create(path)?);

@@ -6,8 +6,11 @@
 
 pub mod check;
 pub mod columns;
+pub mod completions;
 pub mod export;
 pub mod generate;
+pub mod manpage;
+pub mod replay;
 pub mod report;
 
 use std::io::Write;
@@ -26,6 +29,9 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Check(args) => check::run(&args, out),
         Command::Export(args) => export::run(&args, out),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
+        Command::Replay(args) => replay::run(&args, out),
+        Command::Completions(args) => completions::run(&args, out),
+        Command::Manpage(args) => manpage::run(&args, out),
     }
 }
 
