@@ -10,6 +10,7 @@ use std::path::PathBuf;
 use std::time::Duration;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
+use clap_complete::Shell;
 
 use crate::alert::Severity;
 use crate::config::Ensemble;
@@ -40,6 +41,12 @@ pub enum Command {
     Watch(WatchArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(GenerateArgs),
+    /// Write a finished log into a new file at a pace, to rehearse watching a live run.
+    Replay(ReplayArgs),
+    /// Print a completion script for bash, zsh, fish, elvish or PowerShell.
+    Completions(CompletionsArgs),
+    /// Print the manual page (roff), or write every page into a folder with --dir.
+    Manpage(ManpageArgs),
 }
 
 /// How to describe a log; shared by every command that reads one.
@@ -315,7 +322,8 @@ pub struct WatchArgs {
 /// Arguments of `plateau generate`.
 #[derive(Debug, Args)]
 pub struct GenerateArgs {
-    /// Scenario: equilibration, heating, nve-drift, blow-up, stalled, thermostat-failure.
+    /// Scenario: equilibration, density-settling, heating, staged-heating, production,
+    /// nve-drift, blow-up, stalled, thermostat-failure.
     #[arg(value_parser = parse_scenario)]
     pub scenario: Scenario,
     /// Layout of the written log: whitespace, csv, tagged, tab, fixed-width.
@@ -327,9 +335,10 @@ pub struct GenerateArgs {
     /// Seed of the random series (same seed, same log).
     #[arg(long, default_value_t = 20_261_201)]
     pub seed: u64,
-    /// Number of atoms of the invented system.
-    #[arg(long, default_value_t = 3000)]
-    pub atoms: u64,
+    /// Number of atoms of the invented system (default: the scenario's own system); its
+    /// energies, volume and fluctuations scale with it.
+    #[arg(long)]
+    pub atoms: Option<u64>,
     /// Where to write the log (standard output when absent). An existing file is replaced.
     #[arg(long, short)]
     pub output: Option<PathBuf>,
@@ -337,10 +346,9 @@ pub struct GenerateArgs {
 
 fn parse_scenario(name: &str) -> Result<Scenario, String> {
     Scenario::from_name(name).ok_or_else(|| {
-        let names: Vec<&str> = Scenario::ALL.iter().map(|s| s.name()).collect();
         format!(
             "unknown scenario '{name}'; choose one of {}",
-            names.join(", ")
+            Scenario::names()
         )
     })
 }
@@ -350,6 +358,59 @@ fn parse_style(name: &str) -> Result<LogStyle, String> {
         let names: Vec<&str> = LogStyle::ALL.iter().map(|s| s.name()).collect();
         format!("unknown style '{name}'; choose one of {}", names.join(", "))
     })
+}
+
+// ---- replay -----------------------------------------------------------------------------
+
+/// Arguments of `plateau replay`.
+#[derive(Debug, Clone, Args)]
+pub struct ReplayArgs {
+    /// The finished log to replay.
+    pub source: PathBuf,
+    /// The file to write (must not exist yet), or `-` for standard output.
+    pub destination: PathBuf,
+    /// Data rows written per second.
+    #[arg(long, value_name = "R", default_value_t = 10.0, value_parser = parse_rate)]
+    pub rows_per_second: f64,
+    /// How the log is described (to tell its data rows from the other lines).
+    #[command(flatten)]
+    pub input: InputArgs,
+}
+
+pub(crate) fn parse_rate(text: &str) -> Result<f64, String> {
+    match text.trim().parse::<f64>() {
+        Ok(r) if r.is_finite() && r > 0.0 => Ok(r),
+        _ => Err(format!(
+            "'{text}' is not a positive number of rows per second"
+        )),
+    }
+}
+
+// ---- completions and manual page --------------------------------------------------------
+
+/// Arguments of `plateau completions`.
+#[derive(Debug, Clone, Args)]
+#[command(after_help = "Install, for example:
+  bash: plateau completions bash > ~/.local/share/bash-completion/completions/plateau
+  zsh:  plateau completions zsh > ~/.zfunc/_plateau   (with ~/.zfunc in $fpath)
+  fish: plateau completions fish > ~/.config/fish/completions/plateau.fish")]
+pub struct CompletionsArgs {
+    /// The shell to complete in.
+    #[arg(value_enum)]
+    pub shell: Shell,
+}
+
+/// Arguments of `plateau manpage`.
+#[derive(Debug, Clone, Args)]
+#[command(
+    after_help = "Read it with `plateau manpage | man -l -`, or install every page with
+`plateau manpage --dir ~/.local/share/man/man1`."
+)]
+pub struct ManpageArgs {
+    /// Write plateau.1 and one page per subcommand into this folder (created if missing)
+    /// instead of plateau.1 to standard output.
+    #[arg(long, value_name = "DIR")]
+    pub dir: Option<PathBuf>,
 }
 
 // ---- shared value parsers ---------------------------------------------------------------

@@ -2,14 +2,15 @@
 //!
 //! The library holds everything; `src/main.rs` only parses the command line and maps the
 //! outcome to an exit code. Pure modules (`parse`, `units`, `mapping`, `table`, `stats`,
-//! `analysis`, `alert`) do no I/O and read no clock; `ingest`, `follow`, `report` and
-//! `commands` are the edges.
+//! `analysis`, `alert`) do no I/O and read no clock; `ingest`, `follow`, `scheduler`,
+//! `report` and `commands` are the edges.
 
 pub mod alert;
 pub mod analysis;
 pub mod cli;
 pub mod commands;
 pub mod config;
+pub mod demo;
 pub mod error;
 pub mod fold;
 pub mod follow;
@@ -19,6 +20,7 @@ pub mod mapping;
 pub mod parse;
 pub mod report;
 pub mod scenario;
+pub mod scheduler;
 pub mod stats;
 pub mod table;
 pub mod tui;

@@ -11,7 +11,9 @@ use crate::scenario::{write_log, ScenarioSpec};
 pub fn run(args: &GenerateArgs) -> io::Result<()> {
     let mut spec = ScenarioSpec::new(args.scenario, args.style, args.rows);
     spec.seed = args.seed;
-    spec.atoms = args.atoms;
+    if let Some(atoms) = args.atoms {
+        spec.atoms = atoms;
+    }
     match &args.output {
         Some(path) => {
             let mut out = BufWriter::with_capacity(1 << 20, File::create(path)?);

@@ -6,8 +6,11 @@
 
 pub mod check;
 pub mod columns;
+pub mod completions;
 pub mod export;
 pub mod generate;
+pub mod manpage;
+pub mod replay;
 pub mod report;
 pub mod watch;
 
@@ -28,6 +31,9 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Export(args) => export::run(&args, out),
         Command::Watch(args) => watch::run(&args),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
+        Command::Replay(args) => replay::run(&args, out),
+        Command::Completions(args) => completions::run(&args, out),
+        Command::Manpage(args) => manpage::run(&args, out),
     }
 }
 

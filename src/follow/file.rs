@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::SystemTime;
 
-use super::lines::{LineSplitter, Piece};
+use super::lines::{keep_last, LineSplitter, Piece};
 use super::{Clock, FollowEvent, FollowOptions, Source, Step};
 
 /// How many bytes just before the read offset are remembered, to notice a file that was
@@ -292,7 +292,7 @@ impl FileFollower {
         }
         let data = self.buf.get(..filled).unwrap_or_default();
         open.offset += filled as u64;
-        remember_tail(&mut open.tail, data);
+        keep_last(&mut open.tail, data, FINGERPRINT);
         if filled > 0 {
             self.read_error = None;
             let arrival = self.clock.now();
@@ -356,17 +356,6 @@ fn rewritten(open: &OpenFile) -> bool {
     }
 }
 
-fn remember_tail(tail: &mut Vec<u8>, data: &[u8]) {
-    if data.len() >= FINGERPRINT {
-        tail.clear();
-        tail.extend_from_slice(data.get(data.len() - FINGERPRINT..).unwrap_or_default());
-    } else {
-        tail.extend_from_slice(data);
-        let excess = tail.len().saturating_sub(FINGERPRINT);
-        tail.drain(..excess);
-    }
-}
-
 impl Source for FileFollower {
     fn label(&self) -> &str {
         &self.label
@@ -378,6 +367,10 @@ impl Source for FileFollower {
 
     fn blocks(&self) -> bool {
         false
+    }
+
+    fn unfinished(&self) -> Option<super::Partial> {
+        self.splitter.partial()
     }
 
     fn step(&mut self, out: &mut Vec<FollowEvent>) -> Step {

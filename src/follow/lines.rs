@@ -26,6 +26,9 @@ pub struct LineSplitter {
     next_line: u64,
     max_line: usize,
     overlong: bool,
+    /// Bytes taken in since the last newline, including those of an over-long line that
+    /// were let go (a resumable source restarts its input at the start of this line).
+    unfinished: u64,
 }
 
 impl LineSplitter {
@@ -36,6 +39,7 @@ impl LineSplitter {
             next_line: 1,
             max_line: max_line.max(1),
             overlong: false,
+            unfinished: 0,
         }
     }
 
@@ -49,8 +53,23 @@ impl LineSplitter {
         self.partial.len()
     }
 
+    /// Bytes of the unfinished last line taken in so far, counting the part of an over-long
+    /// line that was let go: the input position of the line's start is the bytes taken in
+    /// minus this.
+    pub fn unfinished_bytes(&self) -> u64 {
+        self.unfinished
+    }
+
     /// Takes in `chunk` and appends the complete lines (and skipped over-long lines) to `out`.
-    pub fn push(&mut self, mut chunk: &[u8], out: &mut Vec<Piece>) {
+    pub fn push(&mut self, chunk: &[u8], out: &mut Vec<Piece>) {
+        match memchr::memrchr(b'\n', chunk) {
+            Some(last) => self.unfinished = (chunk.len() - last - 1) as u64,
+            None => self.unfinished += chunk.len() as u64,
+        }
+        self.split(chunk, out);
+    }
+
+    fn split(&mut self, mut chunk: &[u8], out: &mut Vec<Piece>) {
         while !chunk.is_empty() {
             if self.overlong {
                 match memchr::memchr(b'\n', chunk) {
@@ -109,10 +128,29 @@ impl LineSplitter {
     /// Starts a new generation at line 1, giving up the unfinished line (returned).
     pub fn reset(&mut self) -> Option<Partial> {
         let dropped = self.partial();
-        self.partial = Vec::new();
-        self.overlong = false;
+        self.forget_unfinished();
         self.next_line = 1;
         dropped
+    }
+
+    /// Forgets the unfinished line but keeps the numbering: the input resumes at the start
+    /// of that line, which will come again whole (a command restarted at a byte offset).
+    pub fn forget_unfinished(&mut self) {
+        self.partial = Vec::new();
+        self.overlong = false;
+        self.unfinished = 0;
+    }
+}
+
+/// Keeps in `tail` the last `max` bytes of `tail` followed by `data`.
+pub(crate) fn keep_last(tail: &mut Vec<u8>, data: &[u8], max: usize) {
+    if data.len() >= max {
+        tail.clear();
+        tail.extend_from_slice(data.get(data.len() - max..).unwrap_or_default());
+    } else {
+        tail.extend_from_slice(data);
+        let excess = tail.len().saturating_sub(max);
+        tail.drain(..excess);
     }
 }
 
@@ -183,6 +221,31 @@ mod tests {
                 },
             ]
         );
+    }
+
+    #[test]
+    fn unfinished_bytes_count_the_let_go_part_of_an_overlong_line() {
+        let mut s = LineSplitter::new(4);
+        let mut out = Vec::new();
+        s.push(b"ok\n12", &mut out);
+        assert_eq!(s.unfinished_bytes(), 2);
+        s.push(b"3456789", &mut out);
+        assert_eq!(s.unfinished_bytes(), 9);
+        assert_eq!(s.pending_bytes(), 0);
+        s.push(b"0\nab", &mut out);
+        assert_eq!(s.unfinished_bytes(), 2);
+    }
+
+    #[test]
+    fn forgetting_the_unfinished_line_keeps_the_numbering() {
+        let mut s = LineSplitter::new(100);
+        let mut out = Vec::new();
+        s.push(b"x\ny\nzz", &mut out);
+        s.forget_unfinished();
+        assert_eq!((s.partial(), s.unfinished_bytes()), (None, 0));
+        out.clear();
+        s.push(b"zzz\n", &mut out);
+        assert_eq!(lines_of(&out), vec![(3, b"zzz\n".to_vec())]);
     }
 
     proptest::proptest! {

@@ -1,6 +1,6 @@
 //! Following live logs: growing, truncated, rotated, deleted, not yet created, or stdin.
 //!
-//! A follower turns a source (a path, standard input, later a command's output) into a
+//! A follower turns a source (a path, standard input, a command's output) into a
 //! stream of [`FollowEvent`]s. It works on bytes and lines only and knows nothing about the
 //! log's columns: [`FollowEvent::Data`] carries bytes that end at a newline, ready for the
 //! parser's `feed`.
@@ -11,7 +11,12 @@
 //! - [`FileFollower`] (`file.rs`): follows one path by name, like `tail -F`: identity
 //!   (device, inode), byte offset, unfinished line; truncation, rotation, deletion, a file
 //!   that does not exist yet. Driven by [`Source::step`]; tests call it by hand.
-//! - [`ReaderSource`] (`stream.rs`): any `Read` (standard input, a pipe, a command's output).
+//! - [`ReaderSource`] (`stream.rs`): any `Read` (standard input, a pipe).
+//! - [`CommandSource`] (`command.rs`): a command's standard output (a scheduler step
+//!   attached to a job, `ssh NODE tail -F ...`), restarted with back-off when it exits
+//!   while a [`RestartPolicy`] says so, resuming at a byte offset without losing or
+//!   repeating a line; [`CommandControl`] ends it from another thread.
+//! - [`Endable`] (`ending.rs`): a file source that ends when told (its job ended).
 //! - [`FollowSet`] (`set.rs`): one thread multiplexing all file sources, woken by file
 //!   events on the parent folders (a hint) and by its own stat check (the truth), with a
 //!   polling fallback; blocking sources get a thread each. Everything arrives as
@@ -22,6 +27,8 @@
 //! renames it: files are opened with `File::open` (read-only) only.
 
 mod clock;
+mod command;
+mod ending;
 mod file;
 mod lines;
 mod set;
@@ -32,6 +39,12 @@ use std::path::PathBuf;
 use std::time::{Duration, SystemTime};
 
 pub use clock::{Clock, ManualClock, SystemClock};
+pub(crate) use command::detach;
+pub use command::{
+    AlwaysRestart, Backoff, CommandControl, CommandSource, CommandSpec, Restart, RestartPolicy,
+    OVERLAP, START_BYTE,
+};
+pub use ending::{EndSignal, Endable};
 pub use file::FileFollower;
 pub use lines::{LineSplitter, Piece};
 pub use set::{FollowError, FollowReceiver, FollowSet};
@@ -61,6 +74,31 @@ pub enum WatchMode {
     Polling { interval: Duration },
     /// Polling because file events are unavailable; `reason` says why.
     PollingFallback { interval: Duration, reason: String },
+    /// The output of a command, started again `restarts` times so far; `note` says what
+    /// just happened to it (how it exited, when it starts again).
+    Command { restarts: u32, note: Option<String> },
+}
+
+impl WatchMode {
+    /// A short description for the user: "file events", "polling every 1 s", "command".
+    pub fn describe(&self) -> String {
+        match self {
+            WatchMode::Events { .. } => "file events".into(),
+            WatchMode::Polling { interval } => format!("polling every {}", secs(*interval)),
+            WatchMode::PollingFallback { interval, reason } => {
+                format!("polling every {} ({reason})", secs(*interval))
+            }
+            WatchMode::Command { restarts: 0, .. } => "command".into(),
+            WatchMode::Command { restarts: 1, .. } => "command, started again once".into(),
+            WatchMode::Command { restarts, .. } => {
+                format!("command, started again {restarts} times")
+            }
+        }
+    }
+}
+
+fn secs(d: Duration) -> String {
+    format!("{} s", d.as_secs_f64())
 }
 
 /// What a follower reports.

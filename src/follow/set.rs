@@ -8,7 +8,7 @@
 //! own polling and says so with a [`FollowEvent::Mode`] event. notify's own polling watcher
 //! is not used: it compares modification times in whole seconds and misses appends.
 //!
-//! Blocking sources (standard input, pipes) get a thread each.
+//! Blocking sources (standard input, pipes, commands) get a thread each.
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
@@ -20,8 +20,8 @@ use std::time::{Duration, Instant};
 use notify::{EventKind, RecommendedWatcher, RecursiveMode, Watcher};
 
 use super::{
-    Clock, FileFollower, FollowEvent, FollowOptions, ReaderSource, Source, SourceId, Step,
-    WatchMode,
+    Backoff, Clock, CommandControl, CommandSource, CommandSpec, FileFollower, FollowEvent,
+    FollowOptions, ReaderSource, RestartPolicy, Source, SourceId, Step, WatchMode,
 };
 
 /// At most this many steps (each at most one read buffer) per source before the others get
@@ -110,6 +110,27 @@ impl FollowSet {
     pub fn add_stdin(&mut self) -> Result<SourceId, FollowError> {
         let source = ReaderSource::stdin(self.clock.clone(), &self.options);
         self.add_source(Box::new(source))
+    }
+
+    /// Follows the standard output of `command` (see [`CommandSource`]), shown as `label`;
+    /// `policy` decides whether it is started again when it exits. The control ends it.
+    pub fn add_command(
+        &mut self,
+        label: impl Into<String>,
+        command: CommandSpec,
+        policy: Box<dyn RestartPolicy>,
+        backoff: Backoff,
+    ) -> Result<(SourceId, CommandControl), FollowError> {
+        let (source, control) = CommandSource::new(
+            label,
+            command,
+            policy,
+            backoff,
+            self.clock.clone(),
+            &self.options,
+        );
+        let id = self.add_source(Box::new(source))?;
+        Ok((id, control))
     }
 
     /// Follows any source. Blocking sources get their own thread.

@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::FollowEvent;
+use super::{FollowEvent, Partial};
 
 /// What a source says after one step.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -15,7 +15,7 @@ pub enum Step {
     Finished,
 }
 
-/// A source of log bytes: a followed path, standard input, a command's output...
+/// A source of log bytes: a followed path, standard input, a command's output.
 ///
 /// A [`super::FollowSet`] drives sources: non-blocking ones (files) are multiplexed on one
 /// thread and stepped on wake-ups; blocking ones (pipes) get a thread each and are stepped
@@ -31,6 +31,12 @@ pub trait Source: Send {
 
     /// `true` if `step` blocks until data arrives (a pipe); such a source gets its own thread.
     fn blocks(&self) -> bool;
+
+    /// The unfinished last line held back, if any (reported as given up when the source is
+    /// ended from outside, e.g. because its job ended).
+    fn unfinished(&self) -> Option<Partial> {
+        None
+    }
 
     /// Does one bounded unit of work (at most one read buffer of data) and appends what
     /// happened to `out`.

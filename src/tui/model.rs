@@ -676,6 +676,7 @@ fn mode_text(run: &LiveRun) -> String {
                 format::duration(interval.as_secs_f64())
             )
         }
+        Some(mode @ WatchMode::Command { .. }) => mode.describe(),
         None => "starting".into(),
     }
 }
