@@ -170,3 +170,32 @@ fn a_run_fed_by_hand_needs_no_thread() {
     let report = run.report().unwrap();
     assert_eq!(report.rows, 300);
 }
+
+#[test]
+fn a_source_handed_over_ready_made_is_a_run_like_any_other() {
+    use plateau::follow::ReaderSource;
+    let (mut live, rx) = Live::start(options(), Arc::new(SystemClock)).unwrap();
+    let reader = ReaderSource::new(
+        "node42: tail -F md.log",
+        std::io::Cursor::new(log(40)),
+        Arc::new(SystemClock),
+        &FollowOptions::default(),
+    );
+    let spec = RunSpec {
+        source: RunSource::Other("node42: tail -F md.log".into()),
+        label: "job 1234 md.log".into(),
+        found_by: None,
+    };
+    // Such a run cannot be started from its description alone.
+    assert!(matches!(
+        live.add(spec.clone()),
+        Err(live::LiveError::NeedsSource(_))
+    ));
+    let id = live.add_source(spec, Box::new(reader)).unwrap();
+    pump(&mut live, &rx, |l| l.run(id).unwrap().ended());
+    let run = live.run(id).unwrap();
+    assert_eq!(run.rows_seen(), 40);
+    assert_eq!(run.feed().presence, Presence::Ended);
+    assert_eq!(run.spec().label, "job 1234 md.log");
+    live.stop();
+}

@@ -7,7 +7,7 @@ use std::sync::Arc;
 
 use crate::analysis::AnalysisOptions;
 use crate::follow::{
-    Clock, FollowError, FollowEvent, FollowOptions, FollowReceiver, FollowSet, SourceId,
+    Clock, FollowError, FollowEvent, FollowOptions, FollowReceiver, FollowSet, Source, SourceId,
 };
 use crate::parse::ParseOptions;
 
@@ -46,6 +46,9 @@ pub enum LiveError {
     /// `-` given twice.
     #[error("standard input (-) can be read only once")]
     StdinTwice,
+    /// A run whose source must be handed over with `Live::add_source`.
+    #[error("{0}: this source is handed over ready-made (Live::add_source)")]
+    NeedsSource(String),
     /// A glob pattern that does not parse.
     #[error("'{pattern}' is not a valid file pattern: {message}")]
     Pattern { pattern: String, message: String },
@@ -157,11 +160,35 @@ impl Live {
                 self.stdin_taken = true;
                 self.set.add_stdin()
             }
+            RunSource::Other(_) => return Err(LiveError::NeedsSource(spec.label.clone())),
         };
         let source = added.map_err(|source| LiveError::Add {
             label: spec.label.clone(),
             source,
         })?;
+        Ok(self.push_run(spec, parse, source))
+    }
+
+    /// Follows a run whose source is handed over ready-made (a command's output, a
+    /// scheduler step attached to a job: see `follow::CommandSource`, `scheduler`); `spec`
+    /// names it (its `source` is usually [`RunSource::Other`]).
+    pub fn add_source(
+        &mut self,
+        spec: RunSpec,
+        source: Box<dyn Source>,
+    ) -> Result<RunId, LiveError> {
+        let id = self
+            .set
+            .add_source(source)
+            .map_err(|source| LiveError::Add {
+                label: spec.label.clone(),
+                source,
+            })?;
+        let parse = self.options.parse.clone();
+        Ok(self.push_run(spec, parse, id))
+    }
+
+    fn push_run(&mut self, spec: RunSpec, parse: ParseOptions, source: SourceId) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
         self.runs.push(LiveRun::new(
@@ -171,7 +198,7 @@ impl Live {
             self.options.analysis.clone(),
             self.options.keep_rows,
         ));
-        Ok(id)
+        id
     }
 
     /// Follows what a command-line argument names: `-` (standard input), a glob pattern

@@ -1,8 +1,9 @@
 //! A run and where its rows come from.
 //!
 //! A [`RunSpec`] names one run: its [`RunSource`] (what is followed) and the label the user
-//! sees. To add a kind of source (a command's output, a scheduler step), add a variant to
-//! [`RunSource`] and say in `Live::add` how it is handed to the follower.
+//! sees. A source the engine cannot start by itself (a command's output, a scheduler step)
+//! is handed over ready-made with `Live::add_source`; a kind the engine should start from a
+//! description gets its own variant here and a branch in `Live::add`.
 
 use std::fmt;
 use std::path::{Path, PathBuf};
@@ -15,6 +16,9 @@ pub enum RunSource {
     Path(PathBuf),
     /// Standard input, until it ends.
     Stdin,
+    /// A source handed over ready-made ([`super::Live::add_source`]): a command's output,
+    /// a scheduler step attached to a job; the text says what it is.
+    Other(String),
 }
 
 impl RunSource {
@@ -31,7 +35,7 @@ impl RunSource {
     pub fn path(&self) -> Option<&Path> {
         match self {
             RunSource::Path(p) => Some(p),
-            RunSource::Stdin => None,
+            RunSource::Stdin | RunSource::Other(_) => None,
         }
     }
 }
@@ -41,6 +45,7 @@ impl fmt::Display for RunSource {
         match self {
             RunSource::Path(p) => write!(f, "{}", p.display()),
             RunSource::Stdin => f.write_str("-"),
+            RunSource::Other(what) => f.write_str(what),
         }
     }
 }
