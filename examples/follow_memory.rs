@@ -12,7 +12,7 @@
 use std::io::Read;
 
 use plateau::analysis::{AnalysisOptions, Analyzer, DEFAULT_KEEP_ROWS};
-use plateau::commands::check::follow::bound_memory;
+use plateau::live::bound_memory;
 use plateau::parse::{LogParser, ParseOptions};
 
 fn peak_kib() -> Option<u64> {

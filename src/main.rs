@@ -11,8 +11,9 @@ use clap::Parser;
 
 fn main() -> ExitCode {
     let cli = plateau::cli::Cli::parse();
-    let stdout = std::io::stdout();
-    let mut out = stdout.lock();
+    // Not locked for the whole run: the dashboard's threads (and a panic hook restoring the
+    // terminal) write to standard output too.
+    let mut out = std::io::stdout();
     let result = plateau::commands::run(cli, &mut out).and_then(|code| {
         out.flush().map_err(plateau::error::Error::Output)?;
         Ok(code)

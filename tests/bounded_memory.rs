@@ -8,7 +8,7 @@
 
 use plateau::alert::{Alert, AlertKind, Thresholds};
 use plateau::analysis::{AnalysisOptions, Analyzer, RunAnalysis, MIN_KEEP_ROWS};
-use plateau::commands::check::follow::bound_memory;
+use plateau::live::bound_memory;
 use plateau::mapping::Role;
 use plateau::parse::{LogParser, ParseOptions};
 use plateau::scenario::{write_log, LogStyle, Scenario, ScenarioSpec};

@@ -9,14 +9,12 @@ pub mod follow;
 pub mod hook;
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::time::{Duration, Instant};
-
-use clap::{Args, ValueEnum};
 
 use crate::alert::{Alert, Severity, Target, Thresholds};
 use crate::analysis::{AnalysisOptions, Analyzer};
-use crate::cli::InputArgs;
+pub use crate::cli::{AlertArgs, CheckArgs, FailOn};
 use crate::config::Settings;
 use crate::error::Error;
 use crate::units::{self, Dimension, Schedule, TimeSpec};
@@ -29,102 +27,6 @@ pub const EXIT_HEALTHY: u8 = 0;
 pub const EXIT_ALERTS: u8 = 1;
 /// Exit code: unreadable input or bad arguments.
 pub const EXIT_ERROR: u8 = 2;
-
-/// Options that set targets and alert thresholds; shared by `report` and `check`.
-#[derive(Debug, Clone, Default, Args)]
-pub struct AlertArgs {
-    /// Target temperature: a value (`300K`) or a schedule (`0ps=10K,50ps=300K`, linear
-    /// between points, held after the last).
-    #[arg(long, value_name = "VALUE|SCHEDULE")]
-    pub target_temperature: Option<String>,
-    /// Target pressure: a value (`1atm`, bare numbers are bar) or a schedule.
-    #[arg(long, value_name = "VALUE|SCHEDULE")]
-    pub target_pressure: Option<String>,
-    /// Allowed offset of the mean temperature from its target before the 3-SE margin
-    /// (default 5 K).
-    #[arg(long, value_name = "KELVIN")]
-    pub temperature_tolerance: Option<String>,
-    /// Allowed offset of the mean pressure from its target before the 3-SE margin
-    /// (default 50 bar).
-    #[arg(long, value_name = "PRESSURE")]
-    pub pressure_tolerance: Option<String>,
-    /// Stalled output after this long without a row (default 5x the median gap, at least
-    /// 1 min), e.g. `10min`.
-    #[arg(long, value_name = "DURATION")]
-    pub stall_after: Option<String>,
-    /// Set an alert threshold, KEY=VALUE (keys as in the `[alerts]` table of plateau.toml,
-    /// e.g. `drift-warning=0.02`). Repeatable.
-    #[arg(long = "threshold", value_name = "KEY=VALUE")]
-    pub threshold: Vec<String>,
-    /// The run ends at this simulated time or step (`10ns`, `500000steps`): ETA, and with
-    /// `check --follow` the end of watching.
-    #[arg(long, value_name = "TIME|STEPS")]
-    pub until: Option<String>,
-    /// Precision ETA: COLUMN=SEM, wall time until the standard error of COLUMN's mean
-    /// reaches SEM (canonical unit of the column).
-    #[arg(long, value_name = "COLUMN=SEM")]
-    pub target_sem: Option<String>,
-}
-
-/// Severity level at which `check` fails.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, ValueEnum)]
-pub enum FailOn {
-    /// Warnings and critical alerts fail (the default).
-    #[default]
-    Warning,
-    /// Only critical alerts fail.
-    Critical,
-}
-
-impl FailOn {
-    /// The lowest severity that fails.
-    pub fn severity(self) -> Severity {
-        match self {
-            FailOn::Warning => Severity::Warning,
-            FailOn::Critical => Severity::Critical,
-        }
-    }
-}
-
-/// Options of `plateau check`.
-#[derive(Debug, Clone, Args)]
-pub struct CheckArgs {
-    /// Log files (`-` for standard input).
-    #[arg(required = true)]
-    pub files: Vec<PathBuf>,
-    /// How the logs are described.
-    #[command(flatten)]
-    pub input: InputArgs,
-    /// Targets and thresholds.
-    #[command(flatten)]
-    pub alerts: AlertArgs,
-    /// Lowest severity that makes the exit code 1.
-    #[arg(long, value_enum, default_value_t = FailOn::Warning)]
-    pub fail_on: FailOn,
-    /// Keep watching the files and print alerts as they happen; ends at `--until`, when
-    /// the `--pid` process exits, or at the end of standard input.
-    #[arg(long)]
-    pub follow: bool,
-    /// With `--follow`: rows kept at full resolution per run (default 10000, at least
-    /// 2000). Older rows are folded into block summaries so memory stays bounded on endless
-    /// runs; the statistics that become approximate are then named.
-    #[arg(long, value_name = "N")]
-    pub keep_rows: Option<usize>,
-    /// With `--follow`: stop when this process exits.
-    #[arg(long, value_name = "PID")]
-    pub pid: Option<u32>,
-    /// Run this command for each alert at or above `--fail-on`, with the alert in
-    /// PLATEAU_ALERT_* environment variables (words split like a simple shell; no shell
-    /// unless you write `sh -c`). At most 10 runs a minute.
-    #[arg(long, value_name = "CMD")]
-    pub on_alert: Option<String>,
-    /// Append every alert to this file as one JSON line.
-    #[arg(long, value_name = "FILE")]
-    pub alert_log: Option<PathBuf>,
-    /// Ring the terminal bell on alerts at or above `--fail-on`.
-    #[arg(long)]
-    pub bell: bool,
-}
 
 fn usage(option: &str, e: impl std::fmt::Display) -> Error {
     Error::Usage(format!("{option}: {e}"))

@@ -2,30 +2,16 @@
 
 use std::fmt::Write as _;
 use std::io::Write;
-use std::path::PathBuf;
 
-use clap::Args;
 use serde::Serialize;
 
-use crate::cli::{InputArgs, OutputFormat};
+pub use crate::cli::ColumnsArgs;
+use crate::cli::OutputFormat;
 use crate::config::Settings;
 use crate::error::Error;
 use crate::mapping::{map_line, Role, RoleSource};
 use crate::parse::{Delimiter, DelimiterChoice};
 use crate::table::{PartialLine, Restart, RunTable};
-
-/// Options of `plateau columns`.
-#[derive(Debug, Clone, Args)]
-pub struct ColumnsArgs {
-    /// The log file (`-` for standard input).
-    pub file: PathBuf,
-    /// How the log is described.
-    #[command(flatten)]
-    pub input: InputArgs,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = OutputFormat::Text)]
-    pub format: OutputFormat,
-}
 
 /// Version of the JSON written by `columns --format json`.
 pub const COLUMNS_SCHEMA_VERSION: u32 = 1;

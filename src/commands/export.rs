@@ -17,63 +17,21 @@
 
 use std::fmt::Write as _;
 use std::io::{BufWriter, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::sync::Arc;
-use std::time::Duration;
 
-use clap::{Args, ValueEnum};
-
-use crate::cli::InputArgs;
+use crate::analysis::DEFAULT_KEEP_ROWS;
+pub use crate::cli::{ExportArgs, ExportFormat};
 use crate::config::Settings;
 use crate::error::Error;
-use crate::follow::{
-    FollowEvent, FollowOptions, FollowSet, Partial, ReaderSource, Source, Step, SystemClock,
-    WatchMode,
-};
-use crate::parse::{LogParser, ParseOptions};
+use crate::follow::{FollowOptions, Partial, ReaderSource, Source, Step, SystemClock, WatchMode};
+use crate::live::{self, Happened, Live, LiveOptions, LiveRun, RunId, RunSource, RunSpec};
 use crate::table::Segment;
 
-/// Output format of `plateau export`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, ValueEnum)]
-pub enum ExportFormat {
-    /// Comma-separated values with a header line per segment.
-    #[default]
-    Csv,
-    /// Tab-separated values with a header line per segment.
-    Tsv,
-    /// One JSON object per row.
-    Jsonl,
-}
-
-/// Options of `plateau export`.
-#[derive(Debug, Clone, Args)]
-pub struct ExportArgs {
-    /// The log file (`-` for standard input).
-    pub file: PathBuf,
-    /// How the log is described.
-    #[command(flatten)]
-    pub input: InputArgs,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = ExportFormat::Csv)]
-    pub format: ExportFormat,
-    /// Keep following the file as it is written (through truncation, rotation, deletion).
-    #[arg(long)]
-    pub follow: bool,
-    /// Check the file by polling instead of file events (network filesystems: NFS, Lustre,
-    /// GPFS).
-    #[arg(long)]
-    pub poll: bool,
-    /// Polling period (e.g. 500ms, 2s).
-    #[arg(long, value_name = "DURATION", default_value = "1s", value_parser = parse_interval)]
-    pub poll_interval: Duration,
-}
-
-fn parse_interval(text: &str) -> Result<Duration, String> {
-    let d = crate::units::parse_duration(text).map_err(|e| e.to_string())?;
-    if d.is_zero() {
-        Err("the polling period must be positive".to_string())
-    } else {
-        Ok(d)
+fn cannot_follow(file: &Path, e: impl std::fmt::Display) -> Error {
+    Error::Read {
+        path: file.to_path_buf(),
+        source: std::io::Error::other(e.to_string()),
     }
 }
 
@@ -84,80 +42,93 @@ pub fn run(args: &ExportArgs, out: &mut dyn Write) -> Result<u8, Error> {
     super::guess_row_tag(&args.file, &mut settings);
     let label = args.file.display().to_string();
     let mut out = BufWriter::new(out);
-    let mut exporter = Exporter::new(args.format, settings.parse, label.clone());
+    let mut exporter = Exporter::new(args.format, label.clone());
     let clock = Arc::new(SystemClock);
-    let options = FollowOptions {
+    let follow = FollowOptions {
         force_poll: args.poll,
         poll_interval: args.poll_interval,
         ..FollowOptions::default()
     };
-    let stdin = args.file.as_os_str() == "-";
+    let source = RunSource::from_argument(&args.file);
+    let stdin = source == RunSource::Stdin;
     if !args.follow && !stdin {
-        // The file as it is now, once.
+        // The file as it is now, once: the same run, fed by one plain read.
         let file = std::fs::File::open(&args.file).map_err(|source| Error::Read {
             path: args.file.clone(),
             source,
         })?;
-        let mut source = ReaderSource::new(label, file, clock, &options);
+        let mut run = LiveRun::new(
+            RunId(0),
+            RunSpec::new(source),
+            settings.parse,
+            None,
+            DEFAULT_KEEP_ROWS,
+        );
+        let mut reader = ReaderSource::new(label, file, clock, &follow);
         let mut events = Vec::new();
         loop {
-            let step = source.step(&mut events);
+            let step = reader.step(&mut events);
             for event in events.drain(..) {
-                exporter.handle(event, &mut out)?;
+                let happened = run.apply(event, live::now_seconds());
+                exporter.handle(&mut run, happened, &mut out)?;
             }
             if step == Step::Finished {
                 break;
             }
         }
+        exporter.end_generation(&run);
     } else {
-        let (mut set, rx) = FollowSet::start(options, clock).map_err(|e| Error::Read {
-            path: args.file.clone(),
-            source: std::io::Error::other(e),
-        })?;
-        let added = if stdin {
-            set.add_stdin()
-        } else {
-            set.add_path(&args.file)
+        let options = LiveOptions {
+            parse: settings.parse,
+            analysis: None,
+            keep_rows: DEFAULT_KEEP_ROWS,
+            follow,
+            guess_row_tag: false,
         };
-        added.map_err(|e| Error::Read {
-            path: args.file.clone(),
-            source: std::io::Error::other(e),
-        })?;
-        for (_, event) in rx.iter() {
-            if !exporter.handle(event, &mut out)? {
+        let (mut live, rx) =
+            Live::start(options, clock).map_err(|e| cannot_follow(&args.file, e))?;
+        let id = live
+            .add(RunSpec::new(source))
+            .map_err(|e| cannot_follow(&args.file, e))?;
+        for (source, event) in rx.iter() {
+            let Some((_, happened)) = live.apply(source, event, live::now_seconds()) else {
+                continue;
+            };
+            let Some(run) = live.run_mut(id) else {
+                break;
+            };
+            if !exporter.handle(run, happened, &mut out)? {
                 break;
             }
         }
-        set.stop();
+        if let Some(run) = live.run(id) {
+            exporter.end_generation(run);
+        }
+        live.stop();
     }
-    exporter.end_generation();
     out.flush().map_err(Error::Output)?;
     Ok(0)
 }
 
-/// Feeds complete lines to the parser and writes each new row once.
+/// Writes each new row of a run once, and tells what happens to its file.
 struct Exporter {
     format: ExportFormat,
-    options: ParseOptions,
     label: String,
-    parser: LogParser,
     /// Segments of earlier generations of the file (before truncation or rotation).
     segment_base: usize,
-    /// Per segment of the current parser: the last source line written.
+    /// Per segment of the current generation: the last source line written.
     written: Vec<u64>,
     /// Global number of the segment whose header was written last.
     header_for: Option<usize>,
-    /// Skipped lines already told about (current parser).
+    /// Skipped lines already told about (current generation).
     skipped_told: u64,
     line: String,
 }
 
 impl Exporter {
-    fn new(format: ExportFormat, options: ParseOptions, label: String) -> Self {
+    fn new(format: ExportFormat, label: String) -> Self {
         Self {
             format,
-            parser: LogParser::new(options.clone()),
-            options,
             label,
             segment_base: 0,
             written: Vec::new(),
@@ -180,51 +151,55 @@ impl Exporter {
         }
     }
 
-    /// Handles one follower event; `false` when the input is finished.
-    fn handle(&mut self, event: FollowEvent, out: &mut dyn Write) -> Result<bool, Error> {
-        match event {
-            FollowEvent::Data { bytes, .. } => {
-                self.parser.feed(&bytes);
-                self.write_new(out)?;
+    /// Acts on what one follower event did to the run; `false` when the input is finished.
+    fn handle(
+        &mut self,
+        run: &mut LiveRun,
+        happened: Happened,
+        out: &mut dyn Write,
+    ) -> Result<bool, Error> {
+        match happened {
+            Happened::Lines { .. } => {
+                self.write_new(run, out)?;
                 out.flush().map_err(Error::Output)?;
             }
-            FollowEvent::Truncated { dropped } => {
+            Happened::Truncated { dropped } => {
                 self.note_dropped(dropped);
                 self.note("truncated; reading it again from its start");
-                self.new_generation();
+                self.new_generation(run);
             }
-            FollowEvent::Rotated { dropped } => {
+            Happened::Rotated { dropped } => {
                 self.note_dropped(dropped);
                 self.note("replaced by a new file (rotation); reading the new one");
-                self.new_generation();
+                self.new_generation(run);
             }
-            FollowEvent::Deleted { dropped } => {
+            Happened::Deleted { dropped } => {
                 self.note_dropped(dropped);
                 self.note("deleted; waiting for it to come back");
-                self.new_generation();
+                self.new_generation(run);
             }
-            FollowEvent::Waiting => self.note("does not exist yet; waiting for it"),
-            FollowEvent::Appeared => {
+            Happened::Waiting => self.note("does not exist yet; waiting for it"),
+            Happened::Appeared => {
                 self.note("appeared; reading it");
-                self.new_generation();
+                self.new_generation(run);
             }
-            FollowEvent::EndOfInput { dropped } => {
+            Happened::Ended { dropped } => {
                 self.note_dropped(dropped);
                 return Ok(false);
             }
-            FollowEvent::Error { path, message } => {
+            Happened::Error { path, message } => {
                 eprintln!("plateau: {}: {message}", path.display());
             }
-            FollowEvent::Mode(WatchMode::PollingFallback { interval, reason }) => {
+            Happened::Mode(WatchMode::PollingFallback { interval, reason }) => {
                 self.note(&format!("polling every {interval:?}: {reason}"))
             }
-            FollowEvent::Mode(_) => {}
+            Happened::Mode(_) => {}
         }
         Ok(true)
     }
 
-    fn tell_skipped(&mut self) {
-        let table = self.parser.table();
+    fn tell_skipped(&mut self, run: &LiveRun) {
+        let table = run.table();
         let new = table.skipped_count.saturating_sub(self.skipped_told);
         if new > 0 {
             // The first lines skipped are kept with their reason; later ones only counted.
@@ -239,20 +214,20 @@ impl Exporter {
     }
 
     /// The file starts over: new parser, new segments, line numbers from 1.
-    fn new_generation(&mut self) {
-        self.end_generation();
-        self.segment_base += self.parser.table().segments.len();
-        self.parser = LogParser::new(self.options.clone());
+    fn new_generation(&mut self, run: &mut LiveRun) {
+        self.end_generation(run);
+        self.segment_base += run.table().segments.len();
+        run.start_over();
         self.written.clear();
         self.skipped_told = 0;
     }
 
-    fn end_generation(&mut self) {
-        self.tell_skipped();
+    fn end_generation(&mut self, run: &LiveRun) {
+        self.tell_skipped(run);
     }
 
-    fn write_new(&mut self, out: &mut dyn Write) -> Result<(), Error> {
-        let segments = &self.parser.table().segments;
+    fn write_new(&mut self, run: &mut LiveRun, out: &mut dyn Write) -> Result<(), Error> {
+        let segments = &run.table().segments;
         self.written.resize(segments.len(), 0);
         for (i, seg) in segments.iter().enumerate() {
             let last = self.written.get(i).copied().unwrap_or(0);
@@ -277,10 +252,10 @@ impl Exporter {
                 *w = l;
             }
         }
-        self.tell_skipped();
+        self.tell_skipped(run);
         // Rows written are not needed again, except the last ones that a restart may
         // replace: keep memory bounded on an endless run.
-        self.parser.forget_all_but_last(ROWS_KEPT_AFTER_WRITING);
+        run.forget_all_but_last(ROWS_KEPT_AFTER_WRITING);
         Ok(())
     }
 }

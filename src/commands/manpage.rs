@@ -3,26 +3,14 @@
 //! `--dir DIR` writes it and one page per subcommand (`plateau-report.1`, ...) into DIR.
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
-use clap::{Args, CommandFactory};
+use clap::CommandFactory;
 use clap_mangen::Man;
 
 use crate::cli::Cli;
+pub use crate::cli::ManpageArgs;
 use crate::error::Error;
-
-/// Arguments of `plateau manpage`.
-#[derive(Debug, Clone, Args)]
-#[command(
-    after_help = "Read it with `plateau manpage | man -l -`, or install every page with
-`plateau manpage --dir ~/.local/share/man/man1`."
-)]
-pub struct ManpageArgs {
-    /// Write plateau.1 and one page per subcommand into this folder (created if missing)
-    /// instead of plateau.1 to standard output.
-    #[arg(long, value_name = "DIR")]
-    pub dir: Option<PathBuf>,
-}
 
 /// The page of a command, in roff.
 fn render(command: clap::Command) -> Result<Vec<u8>, Error> {

@@ -12,6 +12,7 @@ pub mod generate;
 pub mod manpage;
 pub mod replay;
 pub mod report;
+pub mod watch;
 
 use std::io::Write;
 use std::path::Path;
@@ -28,6 +29,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Report(args) => report::run(&args, out),
         Command::Check(args) => check::run(&args, out),
         Command::Export(args) => export::run(&args, out),
+        Command::Watch(args) => watch::run(&args),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
         Command::Replay(args) => replay::run(&args, out),
         Command::Completions(args) => completions::run(&args, out),
@@ -45,26 +47,13 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
     Ok((settings, table))
 }
 
-/// Bytes looked at when guessing a row tag.
-const SNIFF_BYTES: u64 = 256 * 1024;
-
 /// Without `--row-tag`, looks at the start of the file for data rows marked by a leading
-/// word ([`crate::parse::sniff::sniff_row_tag`]) and uses that word, marked as guessed.
-/// Standard input and unreadable files are left alone (reading them fails later, with the
-/// path, or cannot be rewound).
+/// word ([`crate::live::sniff_row_tag`]) and uses that word, marked as guessed.
 pub fn guess_row_tag(file: &Path, settings: &mut Settings) {
-    use std::io::Read;
-    if settings.parse.row_tag.is_some() || file == Path::new("-") {
+    if settings.parse.row_tag.is_some() {
         return;
     }
-    let Ok(handle) = std::fs::File::open(file) else {
-        return;
-    };
-    let mut start = Vec::new();
-    if handle.take(SNIFF_BYTES).read_to_end(&mut start).is_err() {
-        return;
-    }
-    if let Some(tag) = crate::parse::sniff::sniff_row_tag(&start) {
+    if let Some(tag) = crate::live::sniff_row_tag(file) {
         settings.parse.row_tag = Some(tag);
         settings.row_tag_guessed = true;
     }

@@ -11,39 +11,13 @@
 
 use std::fs::{File, OpenOptions};
 use std::io::{self, BufRead, BufReader, BufWriter, Read, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::time::{Duration, Instant};
 
-use clap::Args;
-
-use crate::cli::InputArgs;
+pub use crate::cli::ReplayArgs;
 use crate::config::Settings;
 use crate::error::Error;
 use crate::parse::{LogParser, ParseOptions};
-
-/// Arguments of `plateau replay`.
-#[derive(Debug, Clone, Args)]
-pub struct ReplayArgs {
-    /// The finished log to replay.
-    pub source: PathBuf,
-    /// The file to write (must not exist yet), or `-` for standard output.
-    pub destination: PathBuf,
-    /// Data rows written per second.
-    #[arg(long, value_name = "R", default_value_t = 10.0, value_parser = parse_rate)]
-    pub rows_per_second: f64,
-    /// How the log is described (to tell its data rows from the other lines).
-    #[command(flatten)]
-    pub input: InputArgs,
-}
-
-fn parse_rate(text: &str) -> Result<f64, String> {
-    match text.trim().parse::<f64>() {
-        Ok(r) if r.is_finite() && r > 0.0 => Ok(r),
-        _ => Err(format!(
-            "'{text}' is not a positive number of rows per second"
-        )),
-    }
-}
 
 /// Waits until a moment given in seconds after the replay started.
 pub trait Pacer {
@@ -222,6 +196,7 @@ impl<W: Write> Write for TrackedWrite<'_, W> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::cli::parse_rate;
 
     /// Records the moments it was asked to wait for.
     #[derive(Default)]

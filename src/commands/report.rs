@@ -4,52 +4,17 @@
 //! the ingest and statistics times to standard error.
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::time::Instant;
 
-use clap::{Args, ValueEnum};
-
 use crate::analysis::{time_values, Analyzer, RunAnalysis};
-use crate::cli::InputArgs;
+use crate::cli::{AlertArgs, InputArgs};
+pub use crate::cli::{ReportArgs, ReportFormat};
 use crate::error::Error;
 use crate::report::{build_report, render_markdown, render_text, svg, Report, SourceInfo};
 use crate::table::RunTable;
 
-use super::check::{analysis_options, AlertArgs};
-
-/// Output format of `report`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, ValueEnum)]
-pub enum ReportFormat {
-    /// Plain text for people.
-    #[default]
-    Text,
-    /// Markdown for a lab notebook.
-    Markdown,
-    /// JSON for programs (documented, versioned schema).
-    Json,
-}
-
-/// Options of `plateau report`.
-#[derive(Debug, Clone, Args)]
-pub struct ReportArgs {
-    /// The log file (`-` for standard input).
-    pub file: PathBuf,
-    /// How the log is described.
-    #[command(flatten)]
-    pub input: InputArgs,
-    /// Targets and thresholds.
-    #[command(flatten)]
-    pub alerts: AlertArgs,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = ReportFormat::Text)]
-    pub format: ReportFormat,
-    /// Write one SVG plot per quantity into this folder (created if missing).
-    #[arg(long, value_name = "DIR")]
-    pub svg: Option<PathBuf>,
-    /// Print the time spent reading and on the statistics to standard error.
-    #[arg(long)]
-    pub timings: bool,
-}
+use super::check::analysis_options;
 
 /// Reads, analyses and builds the report of one file (also used by tests).
 pub fn analyse_file(

@@ -1,0 +1,65 @@
+//! `plateau watch FILE|GLOB|- ...`: the live dashboard (see [`crate::tui`]).
+//!
+//! Reads the settings as every command does (mapping options, `plateau.toml`), starts the
+//! live-run engine on the files, patterns and standard input given, and hands it to the
+//! dashboard. Refuses to start when standard output is not a terminal.
+
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use crate::analysis::DEFAULT_KEEP_ROWS;
+use crate::config::Settings;
+use crate::error::Error;
+use crate::follow::{FollowOptions, SystemClock};
+use crate::live::{Live, LiveOptions};
+use crate::tui::{self, WatchOptions};
+
+pub use crate::cli::WatchArgs;
+
+use super::check::{analysis_options, parse_until};
+
+/// Runs `plateau watch`.
+pub fn run(args: &WatchArgs) -> Result<u8, Error> {
+    if !tui::stdout_is_terminal() {
+        return Err(tui::not_a_terminal());
+    }
+    let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
+    let settings = Settings::resolve(&args.input, &cwd)?;
+    let opts = analysis_options(&settings, &args.alerts)?;
+    let until = args.alerts.until.as_deref().map(parse_until).transpose()?;
+    let keep_rows = match args.keep_rows {
+        Some(n) => crate::config::check_keep_rows(n)
+            .map_err(|e| Error::Usage(format!("--keep-rows: {e}")))?,
+        None => settings.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
+    };
+    let options = LiveOptions {
+        guess_row_tag: settings.parse.row_tag.is_none(),
+        parse: settings.parse.clone(),
+        analysis: Some(opts),
+        keep_rows,
+        follow: FollowOptions {
+            force_poll: args.poll,
+            poll_interval: args.poll_interval,
+            ..FollowOptions::default()
+        },
+    };
+    let (mut live, rx) =
+        Live::start(options, Arc::new(SystemClock)).map_err(|e| Error::Usage(e.to_string()))?;
+    for arg in &args.files {
+        live.add_argument(arg)
+            .map_err(|e| Error::Usage(e.to_string()))?;
+    }
+    let report_dir = args
+        .report_dir
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("."));
+    tui::run(
+        live,
+        rx,
+        WatchOptions {
+            report_dir,
+            until,
+            timestep_ps: settings.timestep_ps,
+        },
+    )
+}

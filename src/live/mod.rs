@@ -1,0 +1,73 @@
+//! The live-run engine: following runs while they are written, parsing their new lines,
+//! analysing them incrementally, raising alerts, recording arrival times and keeping memory
+//! bounded. `check --follow`, `export --follow` and `watch` all drive it; they differ only
+//! in what they do with it (print alerts, write rows, draw a dashboard).
+//!
+//! Pieces:
+//! - [`RunSpec`] / [`RunSource`] (`source.rs`): a run and where its rows come from.
+//! - [`LiveRun`] (`run.rs`): one run's parser, arrival times, analyser, chart history and
+//!   what the follower said about its source; plain data, driven from outside.
+//! - [`Live`] (`engine.rs`): the follower ([`crate::follow::FollowSet`]) and every run,
+//!   events routed to their run, glob patterns that find more runs as files appear.
+//! - [`bound_memory`] (`memory.rs`): folding the oldest rows past the memory cap.
+//! - [`History`] (`history.rs`): min/max/mean buckets of forgotten rows, for charts.
+//! - `end.rs`: when following can end (`--until` reached, `--pid` exited).
+//!
+//! Driving it (no thread of its own: the caller decides where it runs):
+//! ```text
+//! let (mut live, rx) = Live::start(options, clock)?;
+//! live.add_argument(path)?;
+//! loop {
+//!     let (source, event) = rx.recv_timeout(tick)?;
+//!     live.apply(source, event, now);     // parse new lines, note what happened
+//!     live.analyse();                      // statistics and alerts of runs with new rows
+//!     live.check_stalls(now);              // stalled output, against the wall clock
+//! }
+//! ```
+
+mod end;
+mod engine;
+mod history;
+mod memory;
+mod run;
+mod source;
+
+use std::path::Path;
+use std::time::{SystemTime, UNIX_EPOCH};
+
+pub use end::{process_alive, reached};
+pub use engine::{is_pattern, Live, LiveError, LiveOptions, Pattern};
+pub use history::{Bucket, Envelope, History, SeriesView, HISTORY_BUCKETS};
+pub use memory::{bound_memory, bound_memory_with_history, folding_note};
+pub use run::{Feed, Happened, LiveRun, Notice, Presence};
+pub use source::{RunId, RunSource, RunSpec};
+
+/// Seconds since the Unix epoch (0 for a time before it).
+pub fn seconds(t: SystemTime) -> f64 {
+    t.duration_since(UNIX_EPOCH)
+        .map(|d| d.as_secs_f64())
+        .unwrap_or(0.0)
+}
+
+/// The wall clock now, in seconds since the Unix epoch.
+pub fn now_seconds() -> f64 {
+    seconds(SystemTime::now())
+}
+
+/// Bytes looked at when guessing a row tag.
+const SNIFF_BYTES: u64 = 256 * 1024;
+
+/// Looks at the start of `file` for data rows marked by a leading word
+/// ([`crate::parse::sniff::sniff_row_tag`]) and returns that word. Standard input and
+/// unreadable files give `None` (reading them fails later, with the path, or cannot be
+/// rewound).
+pub fn sniff_row_tag(file: &Path) -> Option<String> {
+    use std::io::Read;
+    if file == Path::new("-") {
+        return None;
+    }
+    let handle = std::fs::File::open(file).ok()?;
+    let mut start = Vec::new();
+    handle.take(SNIFF_BYTES).read_to_end(&mut start).ok()?;
+    crate::parse::sniff::sniff_row_tag(&start)
+}

@@ -1,0 +1,526 @@
+//! One followed run: its parser, arrival times, analysis, alerts, bounded memory and what
+//! the follower last said about its source.
+//!
+//! A [`LiveRun`] is plain data driven from outside: [`LiveRun::apply`] hands it one
+//! follower event, [`LiveRun::analyse`] brings its analysis up to date (and folds its
+//! oldest rows), [`LiveRun::check_stall`] judges stalled output against the wall clock.
+//! Tests drive it without any thread or file ([`LiveRun::push_lines`]).
+
+use std::path::PathBuf;
+
+use crate::alert::Alert;
+use crate::analysis::{AnalysisOptions, Analyzer, RunAnalysis};
+use crate::follow::{FollowEvent, Partial, WatchMode};
+use crate::parse::{LogParser, ParseOptions};
+use crate::report::{build_report, Report, SourceInfo};
+use crate::table::RunTable;
+
+use super::history::SeriesView;
+use super::memory::{bound_memory_with_history, folding_note};
+use super::{History, RunId, RunSpec};
+
+/// Recent notable follower events kept per run (truncation, rotation, errors...).
+const NOTICES_KEPT: usize = 20;
+
+/// Bytes a file may hold beyond what was read and still count as caught up.
+pub const LOADING_MARGIN: u64 = 256 * 1024;
+
+/// Whether the source is there and being read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Presence {
+    /// Nothing heard from the follower yet.
+    #[default]
+    Starting,
+    /// The source is read (and followed for more).
+    Reading,
+    /// The file does not exist yet: waiting for it.
+    Waiting,
+    /// The file was deleted: waiting for it to come back.
+    Deleted,
+    /// The input is over (standard input closed).
+    Ended,
+}
+
+/// Something the follower said, with the wall-clock second (Unix epoch) it was heard.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Notice {
+    pub at: f64,
+    pub text: String,
+}
+
+/// What the follower last said about a run's source.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Feed {
+    /// How the source is watched (file events or polling), once known.
+    pub mode: Option<WatchMode>,
+    pub presence: Presence,
+    /// Errors reported (permission denied, read errors...); following goes on.
+    pub errors: u64,
+    /// Bytes read in the current file generation.
+    pub bytes_read: u64,
+    /// Length of the file when last looked at (progress of a large file's first read).
+    pub size: Option<u64>,
+    /// Arrival second of the last data.
+    pub last_data: Option<f64>,
+    /// Times the file started over (truncated, rotated, re-created).
+    pub generations: u32,
+    /// Recent notable events, oldest first.
+    pub notices: Vec<Notice>,
+}
+
+impl Feed {
+    /// Fraction of the file read so far, while more than [`LOADING_MARGIN`] bytes of it
+    /// are still to read (the first read of a large log); `None` once caught up (an
+    /// unfinished last line is never read).
+    pub fn loading(&self) -> Option<f64> {
+        let size = self.size?;
+        (size > self.bytes_read + LOADING_MARGIN).then(|| self.bytes_read as f64 / size as f64)
+    }
+
+    fn notice(&mut self, at: f64, text: String) {
+        if self.notices.len() == NOTICES_KEPT {
+            self.notices.remove(0);
+        }
+        self.notices.push(Notice { at, text });
+    }
+}
+
+/// What one follower event did to a run (the event without its bytes).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Happened {
+    /// Complete lines arrived (rows may or may not be among them).
+    Lines { first_line: u64, lines: u64 },
+    /// The file became shorter; it is read again from its start.
+    Truncated { dropped: Option<Partial> },
+    /// The path names another file now; the new one is read from its start.
+    Rotated { dropped: Option<Partial> },
+    /// The file was deleted; waiting for it to come back.
+    Deleted { dropped: Option<Partial> },
+    /// The file does not exist yet.
+    Waiting,
+    /// The file appeared (again); it is read from its start.
+    Appeared,
+    /// The input is over.
+    Ended { dropped: Option<Partial> },
+    /// A problem with the source; following goes on.
+    Error { path: PathBuf, message: String },
+    /// How the source is watched.
+    Mode(WatchMode),
+}
+
+/// The analysing part of a run (absent for runs that are only parsed, as `export` does).
+#[derive(Debug, Clone)]
+struct Analysing {
+    analyzer: Analyzer,
+    latest: Option<RunAnalysis>,
+    keep_rows: usize,
+    fold_told: bool,
+}
+
+/// One followed run.
+#[derive(Debug, Clone)]
+pub struct LiveRun {
+    id: RunId,
+    spec: RunSpec,
+    parse: ParseOptions,
+    analysis_options: Option<AnalysisOptions>,
+    parser: LogParser,
+    analysing: Option<Analysing>,
+    /// Arrival second (Unix epoch) of each row of the table.
+    arrivals: Vec<f64>,
+    history: History,
+    feed: Feed,
+    /// Rows arrived since the last analysis.
+    dirty: bool,
+    /// The run is known to be over (its input ended).
+    ended: bool,
+    /// Wall-clock second of each alert (the arrival of its row when known, else when it
+    /// was raised), parallel to the alerts.
+    alert_times: Vec<f64>,
+    /// Bumped on every change a viewer may want to redraw for.
+    version: u64,
+}
+
+fn describe_dropped(dropped: Option<Partial>) -> String {
+    match dropped {
+        Some(p) => format!("; unfinished line {} ({} bytes) given up", p.line, p.bytes),
+        None => String::new(),
+    }
+}
+
+/// Gives each alert raised since `times` was last extended the arrival second of its row
+/// (while the row is kept), else the last arrival.
+fn time_new_alerts(analyzer: &Analyzer, arrivals: &[f64], times: &mut Vec<f64>) {
+    let forgotten = analyzer.rows_forgotten();
+    let fallback = arrivals.last().copied().unwrap_or(0.0);
+    for alert in analyzer.engine().alerts().get(times.len()..).unwrap_or(&[]) {
+        let at = alert
+            .row
+            .and_then(|r| r.checked_sub(forgotten))
+            .and_then(|i| usize::try_from(i).ok())
+            .and_then(|i| arrivals.get(i).copied())
+            .unwrap_or(fallback);
+        times.push(at);
+    }
+}
+
+impl LiveRun {
+    /// A run read with `parse`, analysed with `analysis` (if given), keeping at most
+    /// `keep_rows` rows at full resolution once analysed.
+    pub fn new(
+        id: RunId,
+        spec: RunSpec,
+        parse: ParseOptions,
+        analysis: Option<AnalysisOptions>,
+        keep_rows: usize,
+    ) -> LiveRun {
+        LiveRun {
+            id,
+            spec,
+            parser: LogParser::new(parse.clone()),
+            parse,
+            analysing: analysis.clone().map(|opts| Analysing {
+                analyzer: Analyzer::new(opts),
+                latest: None,
+                keep_rows,
+                fold_told: false,
+            }),
+            analysis_options: analysis,
+            arrivals: Vec::new(),
+            history: History::default(),
+            feed: Feed::default(),
+            dirty: false,
+            ended: false,
+            alert_times: Vec::new(),
+            version: 0,
+        }
+    }
+
+    pub fn id(&self) -> RunId {
+        self.id
+    }
+
+    pub fn spec(&self) -> &RunSpec {
+        &self.spec
+    }
+
+    /// The parse options this run is read with.
+    pub fn parse_options(&self) -> &ParseOptions {
+        &self.parse
+    }
+
+    /// The analysis options, when the run is analysed.
+    pub fn analysis_options(&self) -> Option<&AnalysisOptions> {
+        self.analysis_options.as_ref()
+    }
+
+    /// The rows kept (the last ones at full resolution once memory is bounded).
+    pub fn table(&self) -> &RunTable {
+        self.parser.table()
+    }
+
+    /// Arrival second of each row of the table.
+    pub fn arrivals(&self) -> &[f64] {
+        &self.arrivals
+    }
+
+    /// What the follower last said.
+    pub fn feed(&self) -> &Feed {
+        &self.feed
+    }
+
+    /// Whether the run's input is over.
+    pub fn ended(&self) -> bool {
+        self.ended
+    }
+
+    /// Changes so far (compare to see whether anything changed).
+    pub fn version(&self) -> u64 {
+        self.version
+    }
+
+    /// The latest analysis (none before the first rows were analysed).
+    pub fn analysis(&self) -> Option<&RunAnalysis> {
+        self.analysing.as_ref()?.latest.as_ref()
+    }
+
+    /// Alerts raised so far, in the order raised.
+    pub fn alerts(&self) -> &[Alert] {
+        match &self.analysing {
+            Some(a) => a.analyzer.engine().alerts(),
+            None => &[],
+        }
+    }
+
+    /// Wall-clock second of each alert in [`alerts`](Self::alerts) (the arrival of its row
+    /// when known, else when it was raised); shorter when the last alerts are not timed yet.
+    pub fn alert_times(&self) -> &[f64] {
+        &self.alert_times
+    }
+
+    /// Alerts whose condition still holds.
+    pub fn active_alerts(&self) -> Vec<&Alert> {
+        match &self.analysing {
+            Some(a) => a.analyzer.engine().active(),
+            None => Vec::new(),
+        }
+    }
+
+    /// Rows forgotten (folded) so far.
+    pub fn rows_forgotten(&self) -> u64 {
+        self.analysing
+            .as_ref()
+            .map_or(0, |a| a.analyzer.rows_forgotten())
+    }
+
+    /// Rows seen through the run (kept and forgotten).
+    pub fn rows_seen(&self) -> u64 {
+        self.table().rows() as u64 + self.rows_forgotten()
+    }
+
+    /// Arrival second of the last row, if any.
+    pub fn last_row_arrival(&self) -> Option<f64> {
+        self.arrivals.last().copied()
+    }
+
+    /// The whole series of column `column` of segment `segment` (folded rows first).
+    pub fn series(&self, segment: usize, column: usize) -> Option<SeriesView<'_>> {
+        let seg = self.table().segments.get(segment)?;
+        let values = seg.columns.get(column)?.values();
+        Some(SeriesView {
+            folded: self.history.column(segment, column),
+            recent: values,
+        })
+    }
+
+    /// Hands one follower event to the run; `now` is the wall-clock second it was heard.
+    pub fn apply(&mut self, event: FollowEvent, now: f64) -> Happened {
+        self.version += 1;
+        match event {
+            FollowEvent::Data {
+                bytes,
+                first_line,
+                lines,
+                arrival,
+            } => {
+                let at = super::seconds(arrival);
+                self.feed.presence = Presence::Reading;
+                self.feed.bytes_read += bytes.len() as u64;
+                if let Some(path) = self.spec.source.path() {
+                    self.feed.size = std::fs::metadata(path).ok().map(|m| m.len());
+                }
+                self.push_lines(&bytes, at);
+                Happened::Lines { first_line, lines }
+            }
+            FollowEvent::Truncated { dropped } => {
+                self.new_generation(now, format!("truncated{}", describe_dropped(dropped)));
+                Happened::Truncated { dropped }
+            }
+            FollowEvent::Rotated { dropped } => {
+                self.new_generation(now, format!("replaced{}", describe_dropped(dropped)));
+                Happened::Rotated { dropped }
+            }
+            FollowEvent::Deleted { dropped } => {
+                self.feed.presence = Presence::Deleted;
+                self.feed
+                    .notice(now, format!("deleted{}", describe_dropped(dropped)));
+                Happened::Deleted { dropped }
+            }
+            FollowEvent::Waiting => {
+                self.feed.presence = Presence::Waiting;
+                Happened::Waiting
+            }
+            FollowEvent::Appeared => {
+                self.new_generation(now, "appeared".to_string());
+                Happened::Appeared
+            }
+            FollowEvent::EndOfInput { dropped } => {
+                self.feed.presence = Presence::Ended;
+                self.feed
+                    .notice(now, format!("input ended{}", describe_dropped(dropped)));
+                self.finish();
+                Happened::Ended { dropped }
+            }
+            FollowEvent::Error { path, message } => {
+                self.feed.errors += 1;
+                self.feed.notice(now, message.clone());
+                Happened::Error { path, message }
+            }
+            FollowEvent::Mode(mode) => {
+                if let WatchMode::PollingFallback { reason, .. } = &mode {
+                    self.feed.notice(now, format!("polling: {reason}"));
+                }
+                self.feed.mode = Some(mode.clone());
+                Happened::Mode(mode)
+            }
+        }
+    }
+
+    fn new_generation(&mut self, now: f64, text: String) {
+        self.feed.presence = Presence::Reading;
+        self.feed.bytes_read = 0;
+        self.feed.generations += 1;
+        self.feed.notice(now, text);
+    }
+
+    /// Feeds complete lines that arrived at wall-clock second `arrival`.
+    pub fn push_lines(&mut self, bytes: &[u8], arrival: f64) {
+        self.parser.feed(bytes);
+        let rows = self.parser.table().rows();
+        if self.arrivals.len() > rows {
+            // A restart cut rows: their arrivals go too.
+            self.arrivals.truncate(rows);
+        }
+        while self.arrivals.len() < rows {
+            self.arrivals.push(arrival);
+        }
+        self.feed.last_data = Some(arrival);
+        self.dirty = true;
+        self.version += 1;
+    }
+
+    /// The input is over: an unfinished last line is ignored, the run is finished.
+    pub fn finish(&mut self) {
+        self.parser.finish();
+        self.ended = true;
+        self.dirty = true;
+        self.version += 1;
+    }
+
+    /// Starts the run over with an empty table (a caller that treats a truncated or
+    /// replaced file as a new file, as `export` does).
+    pub fn start_over(&mut self) {
+        self.parser.reset();
+        self.arrivals.clear();
+        self.history = History::default();
+        self.alert_times.clear();
+        if let (Some(a), Some(opts)) = (&mut self.analysing, &self.analysis_options) {
+            a.analyzer = Analyzer::new(opts.clone());
+            a.latest = None;
+        }
+        self.version += 1;
+    }
+
+    /// Forgets all but the last `keep` rows of every segment (a caller that writes rows
+    /// out as they come, as `export` does).
+    pub fn forget_all_but_last(&mut self, keep: usize) {
+        self.parser.forget_all_but_last(keep);
+        let rows = self.parser.table().rows();
+        let drop = self.arrivals.len().saturating_sub(rows);
+        self.arrivals.drain(..drop);
+    }
+
+    /// Brings the analysis up to date if rows arrived since the last one, then folds the
+    /// oldest rows past the memory cap. Returns whether an analysis ran.
+    pub fn analyse(&mut self) -> bool {
+        if !self.dirty {
+            return false;
+        }
+        self.dirty = false;
+        let Some(a) = &mut self.analysing else {
+            return false;
+        };
+        let analysis = a.analyzer.update(
+            self.parser.table(),
+            self.ended,
+            Some(&self.arrivals),
+            self.ended,
+        );
+        a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        bound_memory_with_history(
+            &mut self.parser,
+            &mut a.analyzer,
+            &mut self.arrivals,
+            a.keep_rows,
+            Some(&mut self.history),
+        );
+        self.version += 1;
+        true
+    }
+
+    /// The final analysis once following is over: the remaining rows are judged as a
+    /// finished file's would be.
+    pub fn conclude(&mut self) -> Option<&RunAnalysis> {
+        self.parser.finish();
+        self.ended = true;
+        let a = self.analysing.as_mut()?;
+        let analysis = a
+            .analyzer
+            .update(self.parser.table(), true, Some(&self.arrivals), true);
+        a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.version += 1;
+        a.latest.as_ref()
+    }
+
+    /// Judges stalled output at wall-clock second `now` (not once the input is over).
+    /// Returns whether the alerts changed.
+    pub fn check_stall(&mut self, now: f64) -> bool {
+        if self.ended {
+            return false;
+        }
+        let rows = self.rows_seen();
+        let last = self.arrivals.last().copied();
+        let Some(a) = &mut self.analysing else {
+            return false;
+        };
+        // Nothing can change before the shortest possible limit while not stalled: skip
+        // the median of the gaps (a hundred quiet runs are checked every second).
+        let shortest = a.analyzer.engine().thresholds().stall_limit_seconds(None);
+        let stalled = a
+            .analyzer
+            .engine()
+            .active()
+            .iter()
+            .any(|x| x.kind == crate::alert::AlertKind::Stalled);
+        if !stalled && last.is_some_and(|t| now - t <= shortest) {
+            return false;
+        }
+        let before = a.analyzer.engine().alerts().len();
+        let active_before = a.analyzer.engine().active().len();
+        let last_row = usize::try_from(rows).ok().and_then(|r| r.checked_sub(1));
+        a.analyzer.check_stall(now, &self.arrivals, last_row);
+        let raised = a.analyzer.engine().alerts().len();
+        while self.alert_times.len() < raised {
+            self.alert_times.push(now);
+        }
+        let changed = raised != before || a.analyzer.engine().active().len() != active_before;
+        if changed {
+            self.version += 1;
+        }
+        changed
+    }
+
+    /// The sentence telling that older rows are folded, the first time it applies.
+    pub fn take_folding_note(&mut self) -> Option<String> {
+        let a = self.analysing.as_mut()?;
+        if a.fold_told {
+            return None;
+        }
+        let line = folding_note(a.latest.as_ref()?)?;
+        a.fold_told = true;
+        Some(line)
+    }
+
+    /// The report of the run as it stands (the same model `plateau report` renders).
+    pub fn report(&self) -> Option<Report> {
+        let analysis = self.analysis()?;
+        let opts = self.analysis_options.as_ref()?;
+        let alerts = match &self.analysing {
+            Some(a) => a.analyzer.engine().alerts_by_row(),
+            None => Vec::new(),
+        };
+        Some(build_report(
+            &SourceInfo {
+                path: self.spec.label.clone(),
+                bytes: self.feed.bytes_read,
+            },
+            self.table(),
+            analysis,
+            &alerts,
+            opts.target_sem.as_ref().map(|(c, v)| (c.as_str(), *v)),
+            opts.until_ps,
+        ))
+    }
+}

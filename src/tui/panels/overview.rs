@@ -1,0 +1,197 @@
+//! The overview: one line per run, the runs that need a look first (unstable, stalled,
+//! drifting, an active warning), each with its condition, a sparkline of its main
+//! quantity, how far it got, how fast, how long since its last row, and its newest alert.
+
+use ratatui::buffer::Buffer;
+use ratatui::layout::Rect;
+use ratatui::style::Style;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::Widget;
+
+use super::super::format;
+use super::super::layout::OverviewColumns;
+use super::super::model::{RunLine, Snapshot};
+use super::super::theme::{severity_marker, Theme};
+use super::header::condition_text;
+use super::sparkline;
+use crate::live::RunId;
+
+/// The table of runs.
+#[derive(Debug, Clone, Copy)]
+pub struct OverviewTable<'a> {
+    pub snapshot: &'a Snapshot,
+    pub selected: Option<RunId>,
+    pub theme: &'a Theme,
+}
+
+fn cell(text: &str, width: u16) -> String {
+    let w = usize::from(width);
+    if w == 0 {
+        return String::new();
+    }
+    let fitted = format::fit(text, w.saturating_sub(1));
+    format!("{fitted:<w$}")
+}
+
+fn progress_text(line: &RunLine) -> String {
+    match (line.sim_time, line.progress) {
+        (Some(t), Some(p)) => format!("{} {:.0}%", format::sim_time(t), p * 100.0),
+        (Some(t), None) => format::sim_time(t),
+        (None, _) => format!("{} rows", format::short_count(line.rows)),
+    }
+}
+
+/// The newest alert: symbol, kind, column; its time and "cleared" when they fit.
+fn alert_text(line: &RunLine, width: usize) -> String {
+    match &line.newest_alert {
+        Some(a) => {
+            let symbol = severity_marker(a.severity).split(' ').next().unwrap_or("");
+            let mut s = format!("{symbol} {}", a.kind);
+            if let Some(c) = &a.column {
+                s.push_str(&format!(" {c}"));
+            }
+            let mut tail = String::new();
+            if !a.active {
+                tail.push_str(" cleared");
+            }
+            if let Some(w) = a.wall {
+                tail.push_str(&format!(" {}", format::clock(w)));
+            }
+            if s.chars().count() + tail.chars().count() < width {
+                s.push_str(&tail);
+            }
+            s
+        }
+        None => "-".into(),
+    }
+}
+
+impl OverviewTable<'_> {
+    fn heading(&self, cols: &OverviewColumns) -> Line<'static> {
+        let t = self.theme;
+        let mut spans = vec![
+            Span::styled(cell(" STATUS", cols.status), t.label()),
+            Span::styled(cell("RUN", cols.name), t.label()),
+        ];
+        if cols.spark > 0 {
+            spans.push(Span::styled(cell("TREND", cols.spark), t.label()));
+        }
+        spans.push(Span::styled(cell("SIM TIME", cols.progress), t.label()));
+        if cols.speed > 0 {
+            spans.push(Span::styled(cell("NS/DAY", cols.speed), t.label()));
+        }
+        spans.push(Span::styled(cell("LAST", cols.age), t.label()));
+        spans.push(Span::styled(cell("NEWEST ALERT", cols.alert), t.label()));
+        Line::from(spans)
+    }
+
+    fn line(&self, line: &RunLine, cols: &OverviewColumns) -> Line<'static> {
+        let t = self.theme;
+        let mut spans = vec![
+            Span::styled(
+                cell(
+                    &format!(" {}", condition_text(line.condition, line.loading)),
+                    cols.status,
+                ),
+                t.condition(line.condition),
+            ),
+            Span::styled(
+                {
+                    let w = usize::from(cols.name);
+                    let name = format::fit_left(&line.label, w.saturating_sub(1));
+                    format!("{name:<w$}")
+                },
+                Style::new(),
+            ),
+        ];
+        if cols.spark > 0 {
+            let s = sparkline(&line.spark);
+            spans.push(Span::styled(cell(&s, cols.spark), t.data()));
+        }
+        spans.push(Span::raw(cell(&progress_text(line), cols.progress)));
+        if cols.speed > 0 {
+            spans.push(Span::raw(cell(
+                &line.ns_per_day.map_or("-".into(), format::number),
+                cols.speed,
+            )));
+        }
+        spans.push(Span::styled(
+            cell(
+                &line.last_row_age.map_or("-".into(), format::duration),
+                cols.age,
+            ),
+            t.label(),
+        ));
+        let alert_style = match &line.newest_alert {
+            Some(a) if a.active => t.severity(a.severity),
+            Some(_) => t.alert_text(false),
+            None => t.dim(),
+        };
+        spans.push(Span::styled(
+            cell(&alert_text(line, usize::from(cols.alert)), cols.alert),
+            alert_style,
+        ));
+        Line::from(spans)
+    }
+}
+
+impl Widget for &OverviewTable<'_> {
+    fn render(self, area: Rect, buf: &mut Buffer) {
+        let area = area.intersection(buf.area);
+        if area.height == 0 {
+            return;
+        }
+        let cols = OverviewColumns::for_width(area.width);
+        self.heading(&cols)
+            .render(Rect::new(area.x, area.y, area.width, 1), buf);
+        let rows = usize::from(area.height - 1);
+        let lines = &self.snapshot.runs;
+        if lines.is_empty() {
+            let text = if self.snapshot.waiting_patterns.is_empty() {
+                " no runs"
+            } else {
+                " no file matches yet; new files are picked up as they appear"
+            };
+            Line::styled(text, self.theme.dim())
+                .render(Rect::new(area.x, area.y + 1, area.width, 1), buf);
+            return;
+        }
+        // Keep the selected line in view.
+        let at = self
+            .selected
+            .and_then(|s| lines.iter().position(|l| l.id == s))
+            .unwrap_or(0);
+        let first = at.saturating_sub(rows.saturating_sub(1));
+        for (i, line) in lines.iter().enumerate().skip(first).take(rows) {
+            let y = area.y + 1 + (i - first) as u16;
+            let r = Rect::new(area.x, y, area.width, 1);
+            self.line(line, &cols).render(r, buf);
+            if Some(line.id) == self.selected {
+                // The selection is reverse video on the name: visible without colour.
+                let name = Rect::new(
+                    area.x + cols.status,
+                    y,
+                    cols.name.min(area.width.saturating_sub(cols.status)),
+                    1,
+                );
+                buf.set_style(name, self.theme.selected());
+                if let Some(c) = buf.cell_mut((area.x, y)) {
+                    c.set_symbol("▶");
+                }
+            }
+        }
+        if lines.len() > first + rows {
+            let more = lines.len() - first - rows;
+            let text = format!(" +{more} more ↓");
+            let w = text.chars().count() as u16;
+            if w < area.width {
+                buf.set_string(
+                    area.x + area.width - w,
+                    area.y + area.height - 1,
+                    text,
+                    self.theme.dim(),
+                );
+            }
+        }
+    }
+}
