@@ -16,7 +16,7 @@ use unicode_width::UnicodeWidthStr;
 pub fn utf8_locale(lookup: impl Fn(&str) -> Option<String>) -> bool {
     let chosen = ["LC_ALL", "LC_CTYPE", "LANG"]
         .into_iter()
-        .filter_map(|name| lookup(name))
+        .filter_map(lookup)
         .find(|value| !value.is_empty());
     match chosen {
         None => true,
