@@ -453,7 +453,7 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
             .find(|r| r.spec().job.as_ref().is_some_and(|j| j.id == job))
             .map(|r| (r.rows_seen(), r.ended()))
     };
-    let mut pump = |live: &mut Live, notes: &mut Vec<JobNote>, feed: &mut JobFeed| {
+    let pump = |live: &mut Live, notes: &mut Vec<JobNote>, feed: &mut JobFeed| {
         notes.extend(feed.apply(live));
         while let Ok((source, event)) = rx.recv_timeout(Duration::from_millis(20)) {
             live.apply(source, event, live::now_seconds());

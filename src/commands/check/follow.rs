@@ -164,6 +164,9 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         let input_over = stdin_used && live.runs().iter().all(LiveRun::ended);
         let jobs_over = jobs.as_ref().is_some_and(JobFeed::nothing_left)
             && live.runs().iter().all(LiveRun::ended);
+        if jobs_over {
+            eprintln!("plateau: none of your jobs is left to run");
+        }
         if all_reached || pid_gone || input_over || jobs_over {
             break;
         }
