@@ -428,6 +428,16 @@ fn check_jobs_follow_sees_three_jobs_through_to_their_end() {
     };
     std::thread::sleep(Duration::from_secs(1));
     run("scancel", &[&steps[0]]);
+    // plateau attaches a new reading step (after its back-off) while the job runs.
+    let deadline = Instant::now() + PATIENCE;
+    while !reading_steps(&ids[2]).iter().any(|s| s != &steps[0]) {
+        assert!(
+            Instant::now() < deadline,
+            "no new reading step after {} was cancelled",
+            steps[0]
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    }
 
     let deadline = Instant::now() + PATIENCE;
     let status = loop {
