@@ -289,6 +289,15 @@ fn parse_interval(text: &str) -> Result<Duration, String> {
     }
 }
 
+fn parse_jobs_every(text: &str) -> Result<Duration, String> {
+    let d = crate::units::parse_duration(text).map_err(|e| e.to_string())?;
+    if d.is_zero() {
+        Err("the period between questions to the scheduler must be positive".to_string())
+    } else {
+        Ok(d)
+    }
+}
+
 // ---- watch ------------------------------------------------------------------------------
 
 /// Options of `plateau watch`.
@@ -351,7 +360,7 @@ pub struct SourceArgs {
     #[arg(long = "remote-dir", value_name = "DIR", requires = "jobs")]
     pub remote_dir: Vec<PathBuf>,
     /// With `--jobs`: how often the scheduler is asked for your jobs (default 5s).
-    #[arg(long, value_name = "DURATION", requires = "jobs", value_parser = parse_interval)]
+    #[arg(long, value_name = "DURATION", requires = "jobs", value_parser = parse_jobs_every)]
     pub jobs_every: Option<Duration>,
 }
 

@@ -632,7 +632,11 @@ every = "2s"
     fn bad_runs_and_jobs_are_refused_with_the_key() {
         let merge = |text: &str| {
             let file = FileConfig::parse(text, Path::new("p.toml"))?;
-            Settings::merge(&InputArgs::default(), Some(&file), Some(Path::new("p.toml")))
+            Settings::merge(
+                &InputArgs::default(),
+                Some(&file),
+                Some(Path::new("p.toml")),
+            )
         };
         for (text, key) in [
             ("[[run]]\ncommand = []\n", "run"),

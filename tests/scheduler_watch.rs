@@ -415,7 +415,10 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
     let node = tempfile::tempdir().unwrap();
     let visible = here.path().join("heat");
     fs::create_dir(&visible).unwrap();
-    append(&visible.join("heat.log"), "# step temperature\n0 300\n10 301\n");
+    append(
+        &visible.join("heat.log"),
+        "# step temperature\n0 300\n10 301\n",
+    );
     let remote = PathBuf::from("/plateau-test-node-only/feed");
     let on_node = node.path().join("plateau-test-node-only/feed");
     fs::create_dir_all(&on_node).unwrap();
@@ -460,9 +463,13 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
         }
     };
     let deadline = Instant::now() + PATIENCE;
-    while rows_of(&live, "31").map(|r| r.0) != Some(2) || rows_of(&live, "32").map(|r| r.0) != Some(1)
+    while rows_of(&live, "31").map(|r| r.0) != Some(2)
+        || rows_of(&live, "32").map(|r| r.0) != Some(1)
     {
-        assert!(Instant::now() < deadline, "runs: {live:?}, notes: {notes:?}");
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
         pump(&mut live, &mut notes, &mut feed);
     }
     assert_eq!(feed.summary(), "jobs: 2 running, 1 waiting");
@@ -479,8 +486,14 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
             name: "heat".into()
         })
     );
-    assert_eq!(heat.spec().label, visible.join("heat.log").display().to_string());
-    assert_eq!(heat.spec().source, RunSource::Path(visible.join("heat.log")));
+    assert_eq!(
+        heat.spec().label,
+        visible.join("heat.log").display().to_string()
+    );
+    assert_eq!(
+        heat.spec().source,
+        RunSource::Path(visible.join("heat.log"))
+    );
     let texts: Vec<String> = notes.iter().map(ToString::to_string).collect();
     assert!(
         texts.contains(&format!(
@@ -494,14 +507,21 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
     // More rows, then every job ends: the runs read the rest and finish.
     append(&visible.join("heat.log"), "20 302\n");
     append(&on_node.join("prod.log"), "10 311\n");
-    while rows_of(&live, "31").map(|r| r.0) != Some(3) || rows_of(&live, "32").map(|r| r.0) != Some(2)
+    while rows_of(&live, "31").map(|r| r.0) != Some(3)
+        || rows_of(&live, "32").map(|r| r.0) != Some(2)
     {
-        assert!(Instant::now() < deadline, "runs: {live:?}, notes: {notes:?}");
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
         pump(&mut live, &mut notes, &mut feed);
     }
     double.set(Vec::new());
     while !(feed.nothing_left() && live.runs().iter().all(|r| r.ended())) {
-        assert!(Instant::now() < deadline, "runs: {live:?}, notes: {notes:?}");
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
         pump(&mut live, &mut notes, &mut feed);
     }
     assert_eq!(rows_of(&live, "31"), Some((3, true)));
@@ -556,7 +576,11 @@ fn job_feed_without_an_answer_waits() {
     }
     assert!(matches!(&notes[0], JobNote::Problem(p) if p.contains("Unable to contact")));
     assert!(!feed.nothing_left());
-    assert!(feed.summary().contains("Unable to contact"), "{}", feed.summary());
+    assert!(
+        feed.summary().contains("Unable to contact"),
+        "{}",
+        feed.summary()
+    );
     // The scheduler answers again, with no job: now nothing is left.
     double.set(Vec::new());
     while !feed.nothing_left() {

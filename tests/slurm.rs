@@ -423,7 +423,11 @@ fn check_jobs_follow_sees_three_jobs_through_to_their_end() {
         if !steps.is_empty() {
             break steps;
         }
-        assert!(Instant::now() < deadline, "no reading step of job {}", ids[2]);
+        assert!(
+            Instant::now() < deadline,
+            "no reading step of job {}",
+            ids[2]
+        );
         std::thread::sleep(Duration::from_millis(200));
     };
     std::thread::sleep(Duration::from_secs(1));
@@ -446,7 +450,10 @@ fn check_jobs_follow_sees_three_jobs_through_to_their_end() {
         }
         if Instant::now() > deadline {
             let _ = child.kill();
-            panic!("check --jobs --follow did not end: {:?}", err.lock().unwrap());
+            panic!(
+                "check --jobs --follow did not end: {:?}",
+                err.lock().unwrap()
+            );
         }
         std::thread::sleep(Duration::from_millis(200));
     };
@@ -461,7 +468,10 @@ fn check_jobs_follow_sees_three_jobs_through_to_their_end() {
         let written = fs::read_to_string(&log).unwrap();
         assert_eq!(rows(&written).len(), rows_written[i]);
         let ended = format!("plateau: job {} ({}) ended (completed)", ids[i], names[i]);
-        assert!(err.iter().any(|l| l.starts_with(&ended)), "{ended}: {err:?}");
+        assert!(
+            err.iter().any(|l| l.starts_with(&ended)),
+            "{ended}: {err:?}"
+        );
         if i < 2 {
             let direct = format!(
                 "plateau: job {} ({}): following {}",
@@ -518,7 +528,14 @@ fn watch_jobs_shows_three_jobs_in_the_overview() {
         })
         .unwrap();
     let mut cmd = CommandBuilder::new(env!("CARGO_BIN_EXE_plateau"));
-    cmd.args(["watch", "--jobs", "--log-glob", "run.log", "--jobs-every", "1s"]);
+    cmd.args([
+        "watch",
+        "--jobs",
+        "--log-glob",
+        "run.log",
+        "--jobs-every",
+        "1s",
+    ]);
     cmd.arg("--remote-dir");
     cmd.arg(dirs[2].path());
     cmd.env("TERM", "xterm-256color");

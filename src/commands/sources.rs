@@ -147,7 +147,9 @@ pub fn discovery(
         .unwrap_or(DEFAULT_JOBS_EVERY);
     // A folder that is not visible is listed (a step each time) at most as often as the
     // jobs are asked for, and at least every 15 s.
-    options.remote_listing_every = every.max(Duration::from_secs(1)).min(Duration::from_secs(15));
+    options.remote_listing_every = every
+        .max(Duration::from_secs(1))
+        .min(Duration::from_secs(15));
     Some((options, every))
 }
 
@@ -335,10 +337,9 @@ impl JobFeed {
                                 through,
                             });
                         }
-                        Err(e) => notes.push(JobNote::Problem(format!(
-                            "{}: {e}",
-                            job_words(&found.job)
-                        ))),
+                        Err(e) => {
+                            notes.push(JobNote::Problem(format!("{}: {e}", job_words(&found.job))))
+                        }
                     }
                 }
                 FeedItem::Event(JobEvent::Ended(job)) => {
