@@ -212,7 +212,7 @@ impl fmt::Display for JobNote {
 }
 
 enum FeedItem {
-    Event(JobEvent),
+    Event(Box<JobEvent>),
     /// A round is over: jobs not ended in the scheduler's answer (`None`: no answer).
     Round(Option<usize>),
 }
@@ -260,7 +260,7 @@ impl JobFeed {
             .spawn(move || {
                 'rounds: loop {
                     for event in watcher.poll(SystemTime::now()) {
-                        if tx.send(FeedItem::Event(event)).is_err() {
+                        if tx.send(FeedItem::Event(Box::new(event))).is_err() {
                             break 'rounds;
                         }
                     }
@@ -295,19 +295,23 @@ impl JobFeed {
                 Ok(item) => item,
                 Err(TryRecvError::Empty | TryRecvError::Disconnected) => break,
             };
-            match item {
+            let event = match item {
                 FeedItem::Round(active) => {
                     if active.is_some() {
                         self.problem = None;
                     }
                     self.active = active;
+                    continue;
                 }
-                FeedItem::Event(JobEvent::Started(job)) => {
+                FeedItem::Event(event) => *event,
+            };
+            match event {
+                JobEvent::Started(job) => {
                     self.running
                         .insert(job.id.0.clone(), (job.clone(), Vec::new()));
                     notes.push(JobNote::Started(job));
                 }
-                FeedItem::Event(JobEvent::LogFound(found)) => {
+                JobEvent::LogFound(found) => {
                     let through = match &found.reading {
                         Reading::Direct => None,
                         Reading::Scheduler { command } => Some(command.display()),
@@ -342,7 +346,7 @@ impl JobFeed {
                         }
                     }
                 }
-                FeedItem::Event(JobEvent::Ended(job)) => {
+                JobEvent::Ended(job) => {
                     let runs = self
                         .running
                         .remove(&job.id.0)
@@ -351,7 +355,7 @@ impl JobFeed {
                     self.ended += 1;
                     notes.push(JobNote::Ended { job, runs });
                 }
-                FeedItem::Event(JobEvent::Problem(text)) => {
+                JobEvent::Problem(text) => {
                     self.problem = Some(text.clone());
                     notes.push(JobNote::Problem(text));
                 }
