@@ -205,12 +205,15 @@ impl FailOn {
 /// Options of `plateau check`.
 #[derive(Debug, Clone, Args)]
 pub struct CheckArgs {
-    /// Log files (`-` for standard input).
-    #[arg(required = true)]
+    /// Log files (`-` for standard input). With `--follow`, runs may come from
+    /// `--source-command`, `--jobs` or `[[run]]` in plateau.toml instead.
     pub files: Vec<PathBuf>,
     /// How the logs are described.
     #[command(flatten)]
     pub input: InputArgs,
+    /// Runs read from commands and batch jobs (with `--follow`).
+    #[command(flatten)]
+    pub sources: SourceArgs,
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
@@ -288,18 +291,31 @@ fn parse_interval(text: &str) -> Result<Duration, String> {
     }
 }
 
+fn parse_jobs_every(text: &str) -> Result<Duration, String> {
+    let d = crate::units::parse_duration(text).map_err(|e| e.to_string())?;
+    if d.is_zero() {
+        Err("the period between questions to the scheduler must be positive".to_string())
+    } else {
+        Ok(d)
+    }
+}
+
 // ---- watch ------------------------------------------------------------------------------
 
 /// Options of `plateau watch`.
 #[derive(Debug, Clone, Args)]
 pub struct WatchArgs {
     /// Log files, glob patterns in quotes (`'runs/*/md.log'`: files that appear later are
-    /// added) or `-` for standard input.
-    #[arg(required = true, value_name = "FILE|GLOB|-")]
+    /// added) or `-` for standard input. Runs may also come from `--source-command`,
+    /// `--jobs` or `[[run]]` in plateau.toml.
+    #[arg(value_name = "FILE|GLOB|-")]
     pub files: Vec<PathBuf>,
     /// How the logs are described.
     #[command(flatten)]
     pub input: InputArgs,
+    /// Runs read from commands and batch jobs.
+    #[command(flatten)]
+    pub sources: SourceArgs,
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
@@ -342,6 +358,37 @@ fn scenario_values() -> impl clap::builder::TypedValueParser<Value = Scenario> {
         .map(|s| clap::builder::PossibleValue::new(s.name()).help(s.description()))
         .collect();
     clap::builder::PossibleValuesParser::new(values).try_map(|name: String| parse_scenario(&name))
+}
+
+// ---- runs from commands and batch jobs --------------------------------------------------
+
+/// Runs whose rows come from a command's output or from the user's batch jobs; shared by
+/// `watch` and `check --follow`.
+#[derive(Debug, Clone, Default, Args)]
+pub struct SourceArgs {
+    /// Follow a command's standard output as a run, e.g.
+    /// `--source-command 'ssh node7 tail -c +{start-byte} -F /scratch/md.log'`. One
+    /// argument, split into words like a simple shell (quotes and backslashes only; nothing
+    /// expanded; no shell unless you write `sh -c`). Restarted with back-off when it exits;
+    /// `{start-byte}` in it resumes where reading stopped. Repeatable.
+    #[arg(long = "source-command", value_name = "'CMD ARGS'")]
+    pub source_command: Vec<String>,
+    /// Follow the logs of your batch jobs (Slurm): jobs are added as they start and
+    /// finished when they end.
+    #[arg(long)]
+    pub jobs: bool,
+    /// With `--jobs`: a job's logs, as a glob relative to its working directory (or
+    /// absolute); `{job}` and `{name}` stand for its id and name. Default `*.log`.
+    #[arg(long, value_name = "PATTERN", requires = "jobs")]
+    pub log_glob: Option<String>,
+    /// With `--jobs`: logs under this folder are read on the job's node through the
+    /// scheduler (node-local scratch), even if a folder of that name is visible here.
+    /// Repeatable.
+    #[arg(long = "remote-dir", value_name = "DIR", requires = "jobs")]
+    pub remote_dir: Vec<PathBuf>,
+    /// With `--jobs`: how often the scheduler is asked for your jobs (default 5s).
+    #[arg(long, value_name = "DURATION", requires = "jobs", value_parser = parse_jobs_every)]
+    pub jobs_every: Option<Duration>,
 }
 
 // ---- generate ---------------------------------------------------------------------------

@@ -18,9 +18,20 @@
 //! [layouts.chatty]              # any name; pick with --layout chatty
 //! row-tag = "THERMO"
 //! map = ["temperature=Temp", "pressure=3:atm"]
+//!
+//! [[run]]                       # a run read from a command's output (watch, check --follow)
+//! name = "equilibration"        # optional; shown instead of the command
+//! command = ["ssh", "node7", "tail", "-c", "+{start-byte}", "-F", "/scratch/md.log"]
+//!
+//! [jobs]                        # defaults of --jobs
+//! log-glob = "*.log"            # --log-glob
+//! remote = ["/scratch"]         # --remote-dir (relative paths: from this file's folder)
+//! every = "5s"                  # --jobs-every
 //! ```
 //!
-//! A layout holds the same keys as the top level (except `layout` and `layouts`). Unknown
+//! `[[run]]` entries are followed when the command line names no file and no
+//! `--source-command`. A layout holds the same keys as the top level (except `layout`,
+//! `layouts`, `run`, `jobs`). Unknown
 //! keys are rejected with the file name and the key. `--map` entries merge by role: a role
 //! given at a higher level replaces that role's entries from lower levels.
 //!
@@ -89,6 +100,41 @@ pub enum NumberOrText {
     Text(String),
 }
 
+/// A `[[run]]` entry: a run read from a command's standard output.
+#[derive(Debug, Clone, PartialEq, Eq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RunConfig {
+    /// The command as an argument list (program first); no shell.
+    pub command: Vec<String>,
+    /// The name shown for the run (default: the command).
+    pub name: Option<String>,
+}
+
+/// The `[jobs]` table: defaults of `--jobs`.
+#[derive(Debug, Clone, Default, PartialEq, Eq, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub struct JobsConfig {
+    /// `--log-glob`.
+    pub log_glob: Option<String>,
+    /// `--remote-dir` folders.
+    pub remote: Option<Vec<PathBuf>>,
+    /// `--jobs-every`.
+    pub every: Option<String>,
+}
+
+/// Job discovery settings from the file (`[jobs]`), checked; the command line's options
+/// are applied by the commands.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct JobsSettings {
+    /// Glob of a job's logs.
+    pub log_glob: Option<String>,
+    /// Folders read through the scheduler (absolute: relative ones are taken from the
+    /// settings file's folder).
+    pub remote: Vec<PathBuf>,
+    /// How often the scheduler is asked.
+    pub every: Option<std::time::Duration>,
+}
+
 /// Input options as written in the file (top level or a layout).
 #[derive(Debug, Clone, Default, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
@@ -147,6 +193,11 @@ pub struct FileConfig {
     /// `--keep-rows` of `check --follow`: rows kept at full resolution per run (top level
     /// only: a cap on memory, not a property of a log's layout).
     pub keep_rows: Option<usize>,
+    /// `[[run]]`: runs read from commands.
+    #[serde(default)]
+    pub run: Vec<RunConfig>,
+    /// `[jobs]`: defaults of `--jobs`.
+    pub jobs: Option<JobsConfig>,
 }
 
 impl FileConfig {
@@ -209,6 +260,10 @@ pub struct Settings {
     /// `keep-rows` from the settings file (at least [`crate::fold::MIN_KEEP_ROWS`]); the
     /// command line's `--keep-rows` is applied by `check`.
     pub keep_rows: Option<usize>,
+    /// `[[run]]` entries (checked: each has a program).
+    pub runs: Vec<RunConfig>,
+    /// `[jobs]` (checked).
+    pub jobs: JobsSettings,
 }
 
 impl Settings {
@@ -284,6 +339,21 @@ impl Settings {
                 key: "keep-rows".into(),
                 message,
             })?;
+        }
+        if let Some(file) = file {
+            s.runs = check_runs(&file.run).map_err(|message| ConfigError::Value {
+                origin: origin.clone(),
+                key: "run".into(),
+                message,
+            })?;
+            let base = path.and_then(Path::parent).unwrap_or(Path::new(""));
+            if let Some(jobs) = &file.jobs {
+                s.jobs = check_jobs(jobs, base).map_err(|(key, message)| ConfigError::Value {
+                    origin: format!("{origin} [jobs]"),
+                    key: key.into(),
+                    message,
+                })?;
+            }
         }
         let mut maps: Vec<MapRequest> = Vec::new();
         for (origin, level) in &levels {
@@ -389,6 +459,61 @@ pub fn check_keep_rows(n: usize) -> Result<usize, String> {
     }
 }
 
+/// `[[run]]` entries: each needs a command whose program is not empty.
+fn check_runs(runs: &[RunConfig]) -> Result<Vec<RunConfig>, String> {
+    for (i, run) in runs.iter().enumerate() {
+        let n = i + 1;
+        match run.command.first() {
+            None => return Err(format!("entry {n}: `command` is an empty list")),
+            Some(p) if p.trim().is_empty() => {
+                return Err(format!("entry {n}: the program (first word) is empty"))
+            }
+            Some(_) => {}
+        }
+        if run.name.as_deref().is_some_and(|n| n.trim().is_empty()) {
+            return Err(format!("entry {n}: `name` is empty"));
+        }
+    }
+    Ok(runs.to_vec())
+}
+
+/// `[jobs]`: a glob that is not empty, folders made absolute from `base`, a positive
+/// period. Errors name the key.
+fn check_jobs(jobs: &JobsConfig, base: &Path) -> Result<JobsSettings, (&'static str, String)> {
+    if let Some(g) = &jobs.log_glob {
+        if g.trim().is_empty() {
+            return Err(("log-glob", "the log glob is empty".into()));
+        }
+    }
+    let every = match &jobs.every {
+        Some(text) => {
+            let d = crate::units::parse_duration(text).map_err(|e| ("every", e.to_string()))?;
+            if d.is_zero() {
+                return Err(("every", "must be longer than zero".into()));
+            }
+            Some(d)
+        }
+        None => None,
+    };
+    let remote = jobs
+        .remote
+        .iter()
+        .flatten()
+        .map(|p| {
+            if p.as_os_str().is_empty() {
+                Err(("remote", "an empty folder name".to_string()))
+            } else {
+                Ok(base.join(p))
+            }
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok(JobsSettings {
+        log_glob: jobs.log_glob.clone(),
+        remote,
+        every,
+    })
+}
+
 fn timestep(t: &NumberOrText) -> Result<f64, String> {
     let ps = match t {
         NumberOrText::Number(n) => *n,
@@ -466,5 +591,68 @@ row-tag = "DATA"
         };
         let e = Settings::merge(&args, Some(&file), Some(Path::new("p.toml"))).unwrap_err();
         assert!(e.to_string().contains("'b'") && e.to_string().contains("a"));
+    }
+
+    #[test]
+    fn runs_and_jobs_tables() {
+        let text = r#"
+[[run]]
+command = ["srun", "--overlap", "--jobid=12", "tail", "-c", "+{start-byte}", "-F", "/s/md.log"]
+name = "heat"
+
+[[run]]
+command = ["ssh", "node7", "tail -F x.log"]
+
+[jobs]
+log-glob = "{name}/*.log"
+remote = ["/scratch", "local"]
+every = "2s"
+"#;
+        let file = FileConfig::parse(text, Path::new("/proj/plateau.toml")).unwrap();
+        let s = Settings::merge(
+            &InputArgs::default(),
+            Some(&file),
+            Some(Path::new("/proj/plateau.toml")),
+        )
+        .unwrap();
+        assert_eq!(s.runs.len(), 2);
+        assert_eq!(s.runs[0].name.as_deref(), Some("heat"));
+        assert_eq!(s.runs[0].command[4], "-c");
+        // A word with blanks stays one word: a list is never split again.
+        assert_eq!(s.runs[1].command[2], "tail -F x.log");
+        assert_eq!(s.jobs.log_glob.as_deref(), Some("{name}/*.log"));
+        assert_eq!(
+            s.jobs.remote,
+            vec![PathBuf::from("/scratch"), PathBuf::from("/proj/local")]
+        );
+        assert_eq!(s.jobs.every, Some(std::time::Duration::from_secs(2)));
+    }
+
+    #[test]
+    fn bad_runs_and_jobs_are_refused_with_the_key() {
+        let merge = |text: &str| {
+            let file = FileConfig::parse(text, Path::new("p.toml"))?;
+            Settings::merge(
+                &InputArgs::default(),
+                Some(&file),
+                Some(Path::new("p.toml")),
+            )
+        };
+        for (text, key) in [
+            ("[[run]]\ncommand = []\n", "run"),
+            ("[[run]]\ncommand = [\"\"]\n", "run"),
+            ("[[run]]\ncommand = [\"tail\"]\nname = \" \"\n", "run"),
+            ("[[run]]\nname = \"x\"\n", "command"),
+            ("[[run]]\ncommand = \"tail -F x\"\n", "command"),
+            ("[[run]]\ncommand = [\"tail\"]\nshell = true\n", "shell"),
+            ("[jobs]\nlog-glob = \"\"\n", "log-glob"),
+            ("[jobs]\nevery = \"0s\"\n", "every"),
+            ("[jobs]\nevery = \"soon\"\n", "every"),
+            ("[jobs]\nremote = [\"\"]\n", "remote"),
+            ("[jobs]\nnodes = 3\n", "nodes"),
+        ] {
+            let e = merge(text).unwrap_err().to_string();
+            assert!(e.contains("p.toml") && e.contains(key), "{text:?}: {e}");
+        }
     }
 }

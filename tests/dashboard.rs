@@ -51,6 +51,7 @@ fn run(id: usize, label: &str, scenario: Scenario, rows: u64) -> LiveRun {
             source: RunSource::Path(label.into()),
             label: label.to_string(),
             found_by: None,
+            job: None,
         },
         ParseOptions::default(),
         Some(options(Some(10_000.0))),

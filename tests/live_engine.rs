@@ -187,6 +187,7 @@ fn a_source_handed_over_ready_made_is_a_run_like_any_other() {
         source: RunSource::Other("node42: tail -F md.log".into()),
         label: "job 1234 md.log".into(),
         found_by: None,
+        job: None,
     };
     // Such a run cannot be started from its description alone.
     assert!(matches!(

@@ -399,3 +399,195 @@ fn spawned_watcher_delivers_and_stops() {
     assert!(matches!(second, JobEvent::LogFound(_)));
     handle.stop();
 }
+
+/// The commands' layer over discovery (`plateau watch --jobs`, `check --jobs --follow`):
+/// a job whose folder is visible and one read through the scheduler become runs of the
+/// live engine, tagged with their job; the scheduler's answer that nothing is left ends
+/// the watch once both runs have read their logs to the end; every row counted once.
+#[test]
+fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
+    use plateau::analysis::AnalysisOptions;
+    use plateau::commands::sources::{JobFeed, JobNote};
+    use plateau::live::{self, Live, LiveOptions, RunJob, RunSource};
+    use plateau::parse::ParseOptions;
+
+    let here = tempfile::tempdir().unwrap();
+    let node = tempfile::tempdir().unwrap();
+    let visible = here.path().join("heat");
+    fs::create_dir(&visible).unwrap();
+    append(
+        &visible.join("heat.log"),
+        "# step temperature\n0 300\n10 301\n",
+    );
+    let remote = PathBuf::from("/plateau-test-node-only/feed");
+    let on_node = node.path().join("plateau-test-node-only/feed");
+    fs::create_dir_all(&on_node).unwrap();
+    append(&on_node.join("prod.log"), "# step temperature\n0 310\n");
+    let double = Double::new(node.path());
+    let started = SystemTime::now() - Duration::from_secs(5);
+    let mut pending = job("42", "queued", &visible, started);
+    pending.state = JobState::Pending;
+    pending.started = None;
+    double.set(vec![
+        job("31", "heat", &visible, started),
+        job("32", "prod", &remote, started),
+        pending.clone(),
+    ]);
+    let scheduler: Arc<dyn Scheduler> = double.clone();
+    let mut feed = JobFeed::start(
+        scheduler,
+        options(),
+        Duration::from_millis(20),
+        Arc::new(SystemClock),
+    )
+    .unwrap();
+    let live_options = LiveOptions {
+        parse: ParseOptions::default(),
+        analysis: Some(AnalysisOptions::default()),
+        keep_rows: 2000,
+        follow: plateau::follow::FollowOptions::default(),
+        guess_row_tag: false,
+    };
+    let (mut live, rx) = Live::start(live_options, Arc::new(SystemClock)).unwrap();
+    let mut notes: Vec<JobNote> = Vec::new();
+    let rows_of = |live: &Live, job: &str| {
+        live.runs()
+            .iter()
+            .find(|r| r.spec().job.as_ref().is_some_and(|j| j.id == job))
+            .map(|r| (r.rows_seen(), r.ended()))
+    };
+    let pump = |live: &mut Live, notes: &mut Vec<JobNote>, feed: &mut JobFeed| {
+        notes.extend(feed.apply(live));
+        while let Ok((source, event)) = rx.recv_timeout(Duration::from_millis(20)) {
+            live.apply(source, event, live::now_seconds());
+        }
+    };
+    let deadline = Instant::now() + PATIENCE;
+    while rows_of(&live, "31").map(|r| r.0) != Some(2)
+        || rows_of(&live, "32").map(|r| r.0) != Some(1)
+    {
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
+        pump(&mut live, &mut notes, &mut feed);
+    }
+    assert_eq!(feed.summary(), "jobs: 2 running, 1 waiting");
+    assert!(!feed.nothing_left());
+    let heat = live
+        .runs()
+        .iter()
+        .find(|r| r.spec().job.as_ref().is_some_and(|j| j.id == "31"))
+        .unwrap();
+    assert_eq!(
+        heat.spec().job,
+        Some(RunJob {
+            id: "31".into(),
+            name: "heat".into()
+        })
+    );
+    assert_eq!(
+        heat.spec().label,
+        visible.join("heat.log").display().to_string()
+    );
+    assert_eq!(
+        heat.spec().source,
+        RunSource::Path(visible.join("heat.log"))
+    );
+    let texts: Vec<String> = notes.iter().map(ToString::to_string).collect();
+    assert!(
+        texts.contains(&format!(
+            "job 31 (heat) started on node1 in {}",
+            visible.display()
+        )),
+        "{texts:?}"
+    );
+    assert!(texts.iter().any(|t| t.starts_with("job 32 (prod): following /plateau-test-node-only/feed/prod.log on its node, through `tail")), "{texts:?}");
+
+    // More rows, then every job ends: the runs read the rest and finish.
+    append(&visible.join("heat.log"), "20 302\n");
+    append(&on_node.join("prod.log"), "10 311\n");
+    while rows_of(&live, "31").map(|r| r.0) != Some(3)
+        || rows_of(&live, "32").map(|r| r.0) != Some(2)
+    {
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
+        pump(&mut live, &mut notes, &mut feed);
+    }
+    double.set(Vec::new());
+    while !(feed.nothing_left() && live.runs().iter().all(|r| r.ended())) {
+        assert!(
+            Instant::now() < deadline,
+            "runs: {live:?}, notes: {notes:?}"
+        );
+        pump(&mut live, &mut notes, &mut feed);
+    }
+    assert_eq!(rows_of(&live, "31"), Some((3, true)));
+    assert_eq!(rows_of(&live, "32"), Some((2, true)));
+    assert_eq!(live.runs().len(), 2, "one run per log, none twice");
+    let ended: Vec<&str> = notes
+        .iter()
+        .filter_map(|n| match n {
+            JobNote::Ended { job, runs } if runs.len() == 1 => Some(job.id.0.as_str()),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(ended, ["31", "32"]);
+    assert_eq!(feed.summary(), "jobs: 0 running, 2 ended");
+    feed.stop();
+    live.stop();
+}
+
+/// While the scheduler does not answer, the feed never says that nothing is left (a
+/// watch must not end because the scheduler is down), and it says why it sees no jobs.
+#[test]
+fn job_feed_without_an_answer_waits() {
+    use plateau::analysis::AnalysisOptions;
+    use plateau::commands::sources::{JobFeed, JobNote};
+    use plateau::live::{Live, LiveOptions};
+    use plateau::parse::ParseOptions;
+
+    let double = Double::new(Path::new("/nonexistent"));
+    double.fail("slurm_load_jobs error: Unable to contact slurm controller");
+    let scheduler: Arc<dyn Scheduler> = double.clone();
+    let mut feed = JobFeed::start(
+        scheduler,
+        options(),
+        Duration::from_millis(20),
+        Arc::new(SystemClock),
+    )
+    .unwrap();
+    let live_options = LiveOptions {
+        parse: ParseOptions::default(),
+        analysis: Some(AnalysisOptions::default()),
+        keep_rows: 2000,
+        follow: plateau::follow::FollowOptions::default(),
+        guess_row_tag: false,
+    };
+    let (mut live, _rx) = Live::start(live_options, Arc::new(SystemClock)).unwrap();
+    let deadline = Instant::now() + PATIENCE;
+    let mut notes = Vec::new();
+    while notes.is_empty() {
+        assert!(Instant::now() < deadline);
+        notes.extend(feed.apply(&mut live));
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    assert!(matches!(&notes[0], JobNote::Problem(p) if p.contains("Unable to contact")));
+    assert!(!feed.nothing_left());
+    assert!(
+        feed.summary().contains("Unable to contact"),
+        "{}",
+        feed.summary()
+    );
+    // The scheduler answers again, with no job: now nothing is left.
+    double.set(Vec::new());
+    while !feed.nothing_left() {
+        assert!(Instant::now() < deadline);
+        feed.apply(&mut live);
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    assert_eq!(feed.summary(), "jobs: 0 running");
+    feed.stop();
+}

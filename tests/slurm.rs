@@ -322,3 +322,270 @@ fn read_through_a_step_survives_its_cancellation() {
         .iter()
         .any(|(_, e)| matches!(e, FollowEvent::Truncated { .. })));
 }
+
+// ---- the commands as a user runs them ------------------------------------------------------
+
+/// The job ids of the reading steps (`plateau-read`) of job `id`.
+fn reading_steps(id: &str) -> Vec<String> {
+    let steps = run(
+        "squeue",
+        &[
+            "--steps",
+            &format!("--jobs={id}"),
+            "--noheader",
+            "--format=%i|%j",
+        ],
+    );
+    steps
+        .lines()
+        .filter_map(|l| l.strip_suffix("|plateau-read"))
+        .map(str::to_string)
+        .collect()
+}
+
+/// Lines a child writes on one of its pipes, gathered by a thread.
+fn gather(pipe: impl std::io::Read + Send + 'static) -> Arc<std::sync::Mutex<Vec<String>>> {
+    use std::io::BufRead;
+    let lines = Arc::new(std::sync::Mutex::new(Vec::new()));
+    let keep = lines.clone();
+    std::thread::spawn(move || {
+        for line in std::io::BufReader::new(pipe).lines() {
+            let Ok(line) = line else { return };
+            keep.lock().unwrap().push(line);
+        }
+    });
+    lines
+}
+
+fn wait_for_line(lines: &std::sync::Mutex<Vec<String>>, what: &str, pred: impl Fn(&str) -> bool) {
+    let deadline = Instant::now() + PATIENCE;
+    loop {
+        if lines.lock().unwrap().iter().any(|l| pred(l)) {
+            return;
+        }
+        assert!(
+            Instant::now() < deadline,
+            "{what}: not seen in {:?}",
+            lines.lock().unwrap()
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    }
+}
+
+/// `plateau check --jobs --follow`, as a job script or a login-node script runs it: three
+/// submitted jobs are found as they start (one read through `srun --overlap` because its
+/// folder is marked remote), the reading step is cancelled mid-run and started again
+/// without a row counted twice, each job is marked ended when it ends, and the watch ends
+/// by itself once none of the user's jobs is left, with each run finished and every row
+/// counted once.
+#[test]
+#[ignore = "needs a running Slurm: bash scripts/slurm-single-node.sh up"]
+fn check_jobs_follow_sees_three_jobs_through_to_their_end() {
+    let dirs = [job_dir("cj-heat"), job_dir("cj-hold"), job_dir("cj-prod")];
+    let names = ["cj heat", "cj-hold", "cj-prod"];
+    let rows_written = [40, 60, 150];
+    let ids: Vec<String> = (0..3)
+        .map(|i| submit_writer(dirs[i].path(), names[i], rows_written[i], 50, 2))
+        .collect();
+    let alerts = tempfile::tempdir().unwrap();
+    let alert_log = alerts.path().join("alerts.jsonl");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_plateau"))
+        .args(["check", "--jobs", "--follow", "--log-glob", "run.log"])
+        .arg("--remote-dir")
+        .arg(dirs[2].path())
+        .args(["--jobs-every", "1s", "--alert-log"])
+        .arg(&alert_log)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let out = gather(child.stdout.take().unwrap());
+    let err = gather(child.stderr.take().unwrap());
+    for i in 0..3 {
+        let started = format!("plateau: job {} ({}) started on", ids[i], names[i]);
+        wait_for_line(&err, "a job's start", |l| l.starts_with(&started));
+    }
+    let remote_log = dirs[2].path().join("run.log");
+    let through = format!(
+        "plateau: job {} ({}): following {} on its node, through `srun --overlap --jobid={}",
+        ids[2],
+        names[2],
+        remote_log.display(),
+        ids[2]
+    );
+    wait_for_line(&err, "the remote log read through a step", |l| {
+        l.starts_with(&through)
+    });
+    // Cancel the reading step while the job still writes (it writes for 7.5 s).
+    let deadline = Instant::now() + PATIENCE;
+    let steps = loop {
+        let steps = reading_steps(&ids[2]);
+        if !steps.is_empty() {
+            break steps;
+        }
+        assert!(
+            Instant::now() < deadline,
+            "no reading step of job {}",
+            ids[2]
+        );
+        std::thread::sleep(Duration::from_millis(200));
+    };
+    std::thread::sleep(Duration::from_secs(1));
+    run("scancel", &[&steps[0]]);
+    // plateau attaches a new reading step (after its back-off) while the job runs.
+    let deadline = Instant::now() + PATIENCE;
+    while !reading_steps(&ids[2]).iter().any(|s| s != &steps[0]) {
+        assert!(
+            Instant::now() < deadline,
+            "no new reading step after {} was cancelled",
+            steps[0]
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    }
+
+    let deadline = Instant::now() + PATIENCE;
+    let status = loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            break status;
+        }
+        if Instant::now() > deadline {
+            let _ = child.kill();
+            panic!(
+                "check --jobs --follow did not end: {:?}",
+                err.lock().unwrap()
+            );
+        }
+        std::thread::sleep(Duration::from_millis(200));
+    };
+    std::thread::sleep(Duration::from_millis(300)); // the pipes' last lines
+    let err = err.lock().unwrap().clone();
+    assert!(
+        status.code().is_some_and(|c| c == 0 || c == 1),
+        "{status:?}: {err:?}"
+    );
+    for i in 0..3 {
+        let log = dirs[i].path().join("run.log");
+        let written = fs::read_to_string(&log).unwrap();
+        assert_eq!(rows(&written).len(), rows_written[i]);
+        let ended = format!("plateau: job {} ({}) ended (completed)", ids[i], names[i]);
+        assert!(
+            err.iter().any(|l| l.starts_with(&ended)),
+            "{ended}: {err:?}"
+        );
+        if i < 2 {
+            let direct = format!(
+                "plateau: job {} ({}): following {}",
+                ids[i],
+                names[i],
+                log.display()
+            );
+            assert!(err.contains(&direct), "{direct}: {err:?}");
+        }
+        // Every row once, after the step's cancellation too; the run is finished.
+        let summary = format!(
+            "{} (job {} {}): finished ({} rows,",
+            log.display(),
+            ids[i],
+            names[i],
+            rows_written[i]
+        );
+        assert!(
+            err.iter().any(|l| l.starts_with(&summary)),
+            "{summary}: {err:?}"
+        );
+    }
+    // Alerts, if any were raised on these invented rows, carry their job's id.
+    let text = fs::read_to_string(&alert_log).unwrap_or_default();
+    for line in text.lines() {
+        let v: serde_json::Value = serde_json::from_str(line).unwrap();
+        let job = v["job"].as_str().unwrap();
+        assert!(ids.iter().any(|id| id == job), "{line}");
+    }
+    let printed = out.lock().unwrap().clone();
+    assert_eq!(printed.len(), text.lines().count(), "{printed:?}");
+}
+
+/// `plateau watch --jobs` in a pseudo-terminal: three jobs appear in the overview with
+/// their id and name within seconds of starting, one read through the scheduler, each
+/// marked finished when it ends.
+#[test]
+#[ignore = "needs a running Slurm: bash scripts/slurm-single-node.sh up"]
+fn watch_jobs_shows_three_jobs_in_the_overview() {
+    use portable_pty::{native_pty_system, CommandBuilder, PtySize};
+    use std::io::Read;
+
+    let dirs = [job_dir("wj-a"), job_dir("wj-b"), job_dir("wj-c")];
+    let names = ["wj-alpha", "wj-beta", "wj-gamma"];
+    let ids: Vec<String> = (0..3)
+        .map(|i| submit_writer(dirs[i].path(), names[i], 80 + 20 * i, 50, 2))
+        .collect();
+    let pair = native_pty_system()
+        .openpty(PtySize {
+            rows: 40,
+            cols: 120,
+            pixel_width: 0,
+            pixel_height: 0,
+        })
+        .unwrap();
+    let mut cmd = CommandBuilder::new(env!("CARGO_BIN_EXE_plateau"));
+    cmd.args([
+        "watch",
+        "--jobs",
+        "--log-glob",
+        "run.log",
+        "--jobs-every",
+        "1s",
+    ]);
+    cmd.arg("--remote-dir");
+    cmd.arg(dirs[2].path());
+    cmd.env("TERM", "xterm-256color");
+    let mut child = pair.slave.spawn_command(cmd).unwrap();
+    drop(pair.slave);
+    let mut reader = pair.master.try_clone_reader().unwrap();
+    let mut writer = pair.master.take_writer().unwrap();
+    let (tx, output) = std::sync::mpsc::channel::<Vec<u8>>();
+    std::thread::spawn(move || {
+        let mut buf = [0u8; 8192];
+        while let Ok(n) = reader.read(&mut buf) {
+            if n == 0 || tx.send(buf[..n].to_vec()).is_err() {
+                return;
+            }
+        }
+    });
+    let mut screen = vt100::Parser::new(40, 120, 0);
+    let mut wait = |what: &str, done: &dyn Fn(&str) -> bool| {
+        let deadline = Instant::now() + PATIENCE;
+        while !done(&screen.screen().contents()) {
+            let left = deadline.saturating_duration_since(Instant::now());
+            match output.recv_timeout(left) {
+                Ok(bytes) => screen.process(&bytes),
+                Err(_) => panic!("{what}: not seen; screen:\n{}", screen.screen().contents()),
+            }
+        }
+        screen.screen().contents()
+    };
+    let line_of = |text: &str, id: &str, name: &str| {
+        text.lines()
+            .find(|l| l.contains(&format!("{id} {name} run.log")))
+            .map(str::to_string)
+    };
+    let all_there = |text: &str| (0..3).all(|i| line_of(text, &ids[i], names[i]).is_some());
+    let seen = wait("three jobs in the overview", &all_there);
+    assert!(seen.contains("jobs: "), "{seen}");
+    let all_finished = |text: &str| {
+        (0..3).all(|i| line_of(text, &ids[i], names[i]).is_some_and(|l| l.contains("finished")))
+    };
+    let end = wait("each job marked finished", &all_finished);
+    eprintln!("the overview at the end:\n{end}");
+    writer.write_all(b"q").unwrap();
+    writer.flush().unwrap();
+    let deadline = Instant::now() + PATIENCE;
+    loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            assert!(status.success(), "{status:?}");
+            break;
+        }
+        assert!(Instant::now() < deadline, "watch did not quit on q");
+        std::thread::sleep(Duration::from_millis(100));
+    }
+}

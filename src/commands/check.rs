@@ -169,11 +169,23 @@ impl Sinks {
         })
     }
 
-    fn emit(&mut self, out: &mut dyn Write, file: &str, alert: &Alert) -> Result<(), Error> {
-        super::emit(out, &format!("{file}: {}\n", alert.one_line()))?;
+    /// Prints one alert of `file` (`job`: the batch job whose log it is) and hands it to
+    /// the alert log, the bell and the hook.
+    fn emit(
+        &mut self,
+        out: &mut dyn Write,
+        file: &str,
+        job: Option<&str>,
+        alert: &Alert,
+    ) -> Result<(), Error> {
+        let line = match job {
+            Some(id) => format!("{file} (job {id}): {}\n", alert.one_line()),
+            None => format!("{file}: {}\n", alert.one_line()),
+        };
+        super::emit(out, &line)?;
         out.flush().map_err(Error::Output)?;
         if let Some(log) = &mut self.log {
-            if let Err(e) = log.append(alert, file) {
+            if let Err(e) = log.append(alert, file, job) {
                 eprintln!("plateau: cannot append to {}: {e}", log.path().display());
             }
         }
@@ -185,7 +197,7 @@ impl Sinks {
             .as_mut()
             .filter(|_| alert.severity >= self.fail_at)
         {
-            match hook.fire(alert, file, Instant::now()) {
+            match hook.fire(alert, file, job, Instant::now()) {
                 HookOutcome::Started | HookOutcome::RateLimited => {}
                 HookOutcome::Failed(e) => {
                     eprintln!("plateau: --on-alert command could not be started: {e}");
@@ -233,7 +245,7 @@ fn check_file(
     let file = path.display().to_string();
     let mut worst: Option<Severity> = None;
     for a in &analyzer.engine().alerts_by_row() {
-        sinks.emit(out, &file, a)?;
+        sinks.emit(out, &file, None, a)?;
         worst = worst.max(Some(a.severity));
     }
     let failing = analyzer
@@ -264,12 +276,24 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     if args.keep_rows.is_some() && !args.follow {
         return Err(Error::Usage("--keep-rows needs --follow".to_string()));
     }
+    if !args.follow && (args.sources.jobs || !args.sources.source_command.is_empty()) {
+        return Err(Error::Usage(
+            "--jobs and --source-command need --follow (they read runs while they are written)"
+                .to_string(),
+        ));
+    }
     if args.follow {
         return follow::follow_run(args, out);
     }
     // Arguments are checked once before any file is read (bad arguments: exit 2).
     if let Some(u) = &args.alerts.until {
         parse_until(u)?;
+    }
+    if args.files.is_empty() {
+        return Err(Error::Usage(
+            "name at least one log FILE (or use --follow with --jobs or --source-command)"
+                .to_string(),
+        ));
     }
     let mut sinks = Sinks::new(args)?;
     let mut code = EXIT_HEALTHY;

@@ -93,6 +93,7 @@ fn watch_demo(demo: &LiveDemo, per_run: Vec<AnalysisOptions>) -> Result<u8, Erro
             label: label(path),
             source: RunSource::Path(path.clone()),
             found_by: None,
+            job: None,
         };
         live.add_with_analysis(spec, analysis)
             .map_err(|e| Error::Usage(e.to_string()))?;
@@ -106,6 +107,7 @@ fn watch_demo(demo: &LiveDemo, per_run: Vec<AnalysisOptions>) -> Result<u8, Erro
             until: None,
             timestep_ps: None,
         },
+        None,
     )
 }
 

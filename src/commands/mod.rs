@@ -13,6 +13,7 @@ pub mod generate;
 pub mod manpage;
 pub mod replay;
 pub mod report;
+pub mod sources;
 pub mod watch;
 
 use std::io::Write;

@@ -1,7 +1,9 @@
 //! `plateau watch FILE|GLOB|- ...`: the live dashboard (see [`crate::tui`]).
 //!
 //! Reads the settings as every command does (mapping options, `plateau.toml`), starts the
-//! live-run engine on the files, patterns and standard input given, and hands it to the
+//! live-run engine on the files, patterns and standard input given, the commands
+//! (`--source-command`, `[[run]]`) and the user's batch jobs (`--jobs`, through a
+//! [`JobFeed`] the dashboard's engine takes in once a second), and hands it to the
 //! dashboard. Refuses to start when standard output is not a terminal.
 
 use std::path::{Path, PathBuf};
@@ -12,7 +14,10 @@ use crate::config::Settings;
 use crate::error::Error;
 use crate::follow::{FollowOptions, SystemClock};
 use crate::live::{Live, LiveOptions};
-use crate::tui::{self, WatchOptions};
+use crate::scheduler::{Scheduler, Slurm};
+use crate::tui::{self, RunFeeder, WatchOptions};
+
+use super::sources::{self, JobFeed};
 
 pub use crate::cli::WatchArgs;
 
@@ -32,23 +37,45 @@ pub fn run(args: &WatchArgs) -> Result<u8, Error> {
             .map_err(|e| Error::Usage(format!("--keep-rows: {e}")))?,
         None => settings.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
     };
+    let follow = FollowOptions {
+        force_poll: args.poll,
+        poll_interval: args.poll_interval,
+        ..FollowOptions::default()
+    };
+    let commands = sources::command_runs(&args.sources, !args.files.is_empty(), &settings)?;
+    let discovery = sources::discovery(&args.sources, &settings, &cwd, &follow);
+    if args.files.is_empty() && commands.is_empty() && discovery.is_none() {
+        return Err(Error::Usage(
+            "nothing to watch: name a log FILE, GLOB or -, or use --source-command, --jobs or \
+             [[run]] in plateau.toml"
+                .to_string(),
+        ));
+    }
     let options = LiveOptions {
         guess_row_tag: settings.parse.row_tag.is_none(),
         parse: settings.parse.clone(),
         analysis: Some(opts),
         keep_rows,
-        follow: FollowOptions {
-            force_poll: args.poll,
-            poll_interval: args.poll_interval,
-            ..FollowOptions::default()
-        },
+        follow: follow.clone(),
     };
+    let clock = Arc::new(SystemClock);
     let (mut live, rx) =
-        Live::start(options, Arc::new(SystemClock)).map_err(|e| Error::Usage(e.to_string()))?;
+        Live::start(options, clock.clone()).map_err(|e| Error::Usage(e.to_string()))?;
     for arg in &args.files {
         live.add_argument(arg)
             .map_err(|e| Error::Usage(e.to_string()))?;
     }
+    // The commands die with plateau (see follow::CommandSource); nothing to end here.
+    sources::start_commands(&mut live, &commands, &follow, clock.clone())?;
+    let feeder: Option<Box<dyn RunFeeder>> = match discovery {
+        Some((options, every)) => {
+            let scheduler: Arc<dyn Scheduler> = Arc::new(Slurm::new());
+            Some(Box::new(JobsFeeder(JobFeed::start(
+                scheduler, options, every, clock,
+            )?)))
+        }
+        None => None,
+    };
     let report_dir = args
         .report_dir
         .clone()
@@ -61,5 +88,20 @@ pub fn run(args: &WatchArgs) -> Result<u8, Error> {
             until,
             timestep_ps: settings.timestep_ps,
         },
+        feeder,
     )
+}
+
+/// The user's batch jobs as the dashboard's extra runs.
+struct JobsFeeder(JobFeed);
+
+impl RunFeeder for JobsFeeder {
+    fn feed(&mut self, live: &mut Live) -> bool {
+        // What discovery did is shown by the runs themselves and the header's summary.
+        !self.0.apply(live).is_empty()
+    }
+
+    fn summary(&self) -> Option<String> {
+        Some(self.0.summary())
+    }
 }

@@ -40,7 +40,7 @@ pub use engine::{is_pattern, Live, LiveError, LiveOptions, Pattern};
 pub use history::{Bucket, Envelope, History, SeriesView, HISTORY_BUCKETS};
 pub use memory::{bound_memory, bound_memory_with_history, folding_note};
 pub use run::{Feed, Happened, LiveRun, Notice, Presence};
-pub use source::{RunId, RunSource, RunSpec};
+pub use source::{RunId, RunJob, RunSource, RunSpec};
 
 /// Seconds since the Unix epoch (0 for a time before it).
 pub fn seconds(t: SystemTime) -> f64 {

@@ -59,6 +59,23 @@ pub struct RunSpec {
     pub label: String,
     /// The pattern that found it, when it was found by a glob.
     pub found_by: Option<String>,
+    /// The batch job whose log it is, when it was found by job discovery.
+    pub job: Option<RunJob>,
+}
+
+/// The batch job a run belongs to (shown beside the run; passed to alert hooks).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RunJob {
+    /// The job id as the user knows it (`123`, `123_4` for an array element).
+    pub id: String,
+    /// The job's name.
+    pub name: String,
+}
+
+impl fmt::Display for RunJob {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{} {}", self.id, self.name)
+    }
 }
 
 impl RunSpec {
@@ -68,6 +85,7 @@ impl RunSpec {
             label: source.to_string(),
             source,
             found_by: None,
+            job: None,
         }
     }
 }

@@ -160,6 +160,8 @@ pub struct JobWatcher {
     tracked: BTreeMap<JobId, Tracked>,
     claimed: HashMap<PathBuf, JobId>,
     told: BTreeSet<String>,
+    /// Jobs not yet ended in the scheduler's last answer; `None` when it did not answer.
+    active: Option<usize>,
 }
 
 impl std::fmt::Debug for JobWatcher {
@@ -192,12 +194,21 @@ impl JobWatcher {
             tracked: BTreeMap::new(),
             claimed: HashMap::new(),
             told: BTreeSet::new(),
+            active: None,
         })
     }
 
     /// The jobs being followed now.
     pub fn jobs(&self) -> impl Iterator<Item = &Job> {
         self.tracked.values().map(|t| &t.job)
+    }
+
+    /// How many of the user's jobs had not ended (pending, running, suspended, ending or
+    /// in a state plateau does not know) in the scheduler's last answer; `None` before
+    /// the first answer and when the last round could not ask it. Lets a caller stop
+    /// once nothing is left to run.
+    pub fn active(&self) -> Option<usize> {
+        self.active
     }
 
     /// One round: asks the scheduler, reports started and ended jobs, looks for logs.
@@ -207,11 +218,19 @@ impl JobWatcher {
         let listing = match self.scheduler.jobs(now) {
             Ok(l) => l,
             Err(e) => {
+                self.active = None;
                 let name = self.scheduler.name().to_string();
                 self.tell(format!("cannot list the jobs ({name}): {e}"), &mut events);
                 return events;
             }
         };
+        self.active = Some(
+            listing
+                .jobs
+                .iter()
+                .filter(|j| !matches!(j.state, super::JobState::Ended(_)))
+                .count(),
+        );
         for bad in &listing.bad_lines {
             let text = format!(
                 "{}: line {} of the job list skipped: {}",

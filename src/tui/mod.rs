@@ -81,6 +81,16 @@ pub enum Event {
     EngineStopped,
 }
 
+/// Runs that come from elsewhere while the dashboard runs (the logs of batch jobs as they
+/// start): the engine thread hands it the runs once a second, under the lock.
+pub trait RunFeeder: Send {
+    /// Takes in what arrived (new runs in `live`, without waiting); returns whether
+    /// anything changed.
+    fn feed(&mut self, live: &mut Live) -> bool;
+    /// One line for the overview's header (how many jobs run, or why none can be seen).
+    fn summary(&self) -> Option<String>;
+}
+
 /// Settings of the dashboard besides the runs.
 #[derive(Debug, Clone)]
 pub struct WatchOptions {
@@ -114,6 +124,8 @@ pub fn not_a_terminal() -> Error {
 struct Shared {
     live: Mutex<Live>,
     ui_waiting: AtomicBool,
+    /// The feeder's line for the header.
+    feed_summary: Mutex<Option<String>>,
 }
 
 /// The longest the engine steps aside for a waiting UI before taking the lock anyway.
@@ -163,6 +175,7 @@ fn engine_loop(
     wake: Sender<Event>,
     pending: Arc<AtomicBool>,
     options: WatchOptions,
+    mut feeder: Option<Box<dyn RunFeeder>>,
 ) {
     let _notice = StopNotice(wake.clone());
     let mut last_tick = Instant::now();
@@ -228,6 +241,18 @@ fn engine_loop(
             }
             if ticks.is_multiple_of(2) && !l.patterns().is_empty() {
                 changed |= l.discover().is_ok_and(|found| !found.is_empty());
+            }
+            if let Some(f) = feeder.as_mut() {
+                changed |= f.feed(&mut l);
+                let summary = f.summary();
+                let mut shown = live
+                    .feed_summary
+                    .lock()
+                    .unwrap_or_else(|poisoned| poisoned.into_inner());
+                if *shown != summary {
+                    *shown = summary;
+                    changed = true;
+                }
             }
         }
         if changed && !pending.swap(true, Ordering::SeqCst) && wake.send(Event::Data).is_err() {
@@ -353,17 +378,25 @@ fn draw(term: &mut Screen, snapshot: &Snapshot, theme: &Theme) -> io::Result<()>
     term.backend_mut().finish_frame()
 }
 
-/// Runs the dashboard on the runs of `live` until the user quits or a signal ends it.
-/// Returns the exit code: 0 after `q`, 128 + the signal's number after a signal.
-pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, Error> {
+/// Runs the dashboard on the runs of `live` (and those `feeder` adds) until the user quits
+/// or a signal ends it. Returns the exit code: 0 after `q`, 128 + the signal's number
+/// after a signal.
+pub fn run(
+    live: Live,
+    rx: FollowReceiver,
+    options: WatchOptions,
+    feeder: Option<Box<dyn RunFeeder>>,
+) -> Result<u8, Error> {
     if !stdout_is_terminal() {
         return Err(not_a_terminal());
     }
     let runs = live.runs().len();
-    let patterns = !live.patterns().is_empty();
+    // Runs that may come later: start on the overview.
+    let patterns = !live.patterns().is_empty() || feeder.is_some();
     let live = Arc::new(Shared {
         live: Mutex::new(live),
         ui_waiting: AtomicBool::new(false),
+        feed_summary: Mutex::new(None),
     });
     let pending = Arc::new(AtomicBool::new(false));
     let (tx, events) = mpsc::channel();
@@ -373,7 +406,7 @@ pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, 
             (live.clone(), tx.clone(), pending.clone(), options.clone());
         thread::Builder::new()
             .name("plateau-engine".into())
-            .spawn(move || engine_loop(live, rx, wake, pending, options))
+            .spawn(move || engine_loop(live, rx, wake, pending, options, feeder))
             .map_err(Error::Output)?;
     }
     let guard = TerminalGuard::enter().map_err(Error::Output)?;
@@ -419,7 +452,7 @@ fn ui_loop(
         if redraw || due(data_due) || due(clock_due) {
             let size = term.size().map_err(Error::Output)?;
             pending.store(false, Ordering::SeqCst);
-            let snapshot = {
+            let mut snapshot = {
                 let l = live.lock_for_ui();
                 model::build(
                     l.runs(),
@@ -429,6 +462,12 @@ fn ui_loop(
                     live::now_seconds(),
                 )
             };
+            snapshot.feed_summary = live
+                .feed_summary
+                .lock()
+                .unwrap_or_else(|poisoned| poisoned.into_inner())
+                .as_deref()
+                .map(|t| format::escape(t).into_owned());
             app.sync(snapshot.order(), snapshot.quantity_names());
             draw(term, &snapshot, theme).map_err(Error::Output)?;
             last_frame = Instant::now();

@@ -197,6 +197,8 @@ fn group_alerts(lines: Vec<AlertLine>) -> Vec<AlertLine> {
 pub struct RunLine {
     pub id: RunId,
     pub label: String,
+    /// The batch job whose log this is: its id and name, escaped.
+    pub job: Option<String>,
     pub condition: Condition,
     /// Fraction of the file read while loading.
     pub loading: Option<f64>,
@@ -334,6 +336,9 @@ pub struct Snapshot {
     pub runs: Vec<RunLine>,
     /// Patterns that match no file yet.
     pub waiting_patterns: Vec<String>,
+    /// What brings more runs besides patterns (batch jobs: how many run), escaped; set by
+    /// the caller after [`build`].
+    pub feed_summary: Option<String>,
     pub detail: Option<Detail>,
     pub help: bool,
     pub paused: bool,
@@ -914,6 +919,11 @@ fn run_line(run: &LiveRun, now: f64, spark_cells: usize) -> RunLine {
     RunLine {
         id: run.id(),
         label: escape(&run.spec().label).into_owned(),
+        job: run
+            .spec()
+            .job
+            .as_ref()
+            .map(|j| escape(&j.to_string()).into_owned()),
         condition,
         loading: run.feed().loading(),
         spark_name,
@@ -962,7 +972,10 @@ fn detail(run: &LiveRun, app: &App, order: &[RunId], size: Rect, now: f64) -> De
     }
     Detail {
         id: run.id(),
-        label: escape(&run.spec().label).into_owned(),
+        label: match &run.spec().job {
+            Some(job) => escape(&format!("job {job} · {}", run.spec().label)).into_owned(),
+            None => escape(&run.spec().label).into_owned(),
+        },
         condition: condition_of(run),
         loading: run.feed().loading(),
         position: order.iter().position(|&r| r == run.id()).unwrap_or(0),
@@ -1026,6 +1039,7 @@ pub fn build(runs: &[LiveRun], patterns: &[Pattern], app: &App, size: Rect, now:
             .filter(|p| p.matched == 0)
             .map(|p| escape(&p.text).into_owned())
             .collect(),
+        feed_summary: None,
         detail,
         help: app.help,
         paused: app.paused,

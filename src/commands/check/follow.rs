@@ -6,10 +6,18 @@
 //! checked twice a second against the rows' arrival times. Watching ends when
 //! - every file reached `--until` (a simulated time, or a step count),
 //! - the process given by `--pid` has exited (checked through `/proc/PID`, Linux), or
-//! - standard input ended (when reading `-`),
+//! - standard input ended (when reading `-`), or
+//! - with `--jobs`, the scheduler says none of the user's jobs is left to run (none
+//!   pending, running, suspended or ending) and every run has read its log to the end,
 //!
 //! and then the remaining rows are judged as a finished file would be. The exit code is the
 //! same as without `--follow`.
+//!
+//! Runs may also come from commands (`--source-command`, `[[run]]` in plateau.toml) and
+//! from the user's batch jobs (`--jobs`; see [`crate::commands::sources`]): jobs are
+//! added as they start, what discovery does is told on standard error (`plateau: job 12
+//! (heat) started ...`), and their alerts carry the job id (on standard output, in
+//! `--alert-log` and in `PLATEAU_ALERT_JOB`).
 //!
 //! Memory stays bounded on endless runs: past `--keep-rows` rows (`keep-rows` in
 //! plateau.toml, default [`DEFAULT_KEEP_ROWS`]) the oldest rows are folded (see
@@ -28,6 +36,9 @@ use crate::config::Settings;
 use crate::error::Error;
 use crate::follow::{FollowOptions, SystemClock};
 use crate::live::{self, Happened, Live, LiveOptions, LiveRun, RunSource, RunSpec};
+use crate::scheduler::{Scheduler, Slurm};
+
+use super::super::sources::{self, JobFeed};
 
 use super::{analysis_options, parse_until, Sinks, EXIT_ALERTS, EXIT_HEALTHY};
 
@@ -43,8 +54,9 @@ fn emit_new(
 ) -> Result<(), Error> {
     let new: Vec<_> = run.alerts().get(*emitted..).unwrap_or_default().to_vec();
     *emitted += new.len();
+    let job = run.spec().job.as_ref().map(|j| j.id.as_str());
     for a in &new {
-        sinks.emit(out, &run.spec().label, a)?;
+        sinks.emit(out, &run.spec().label, job, a)?;
     }
     Ok(())
 }
@@ -52,7 +64,15 @@ fn emit_new(
 /// Tells the user once that older rows are folded (standard error).
 fn tell_folding(run: &mut LiveRun) {
     if let Some(line) = run.take_folding_note() {
-        eprintln!("{}: {line}", run.spec().label);
+        eprintln!("{}: {line}", run_name(run));
+    }
+}
+
+/// A run as named on standard error: its label, and its job when it has one.
+fn run_name(run: &LiveRun) -> String {
+    match &run.spec().job {
+        Some(job) => format!("{} (job {})", run.spec().label, job),
+        None => run.spec().label.clone(),
     }
 }
 
@@ -67,21 +87,40 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
             .map_err(|e| Error::Usage(format!("--keep-rows: {e}")))?,
         None => settings.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
     };
+    let commands = sources::command_runs(&args.sources, !args.files.is_empty(), &settings)?;
+    let follow = FollowOptions::default();
+    let discovery = sources::discovery(&args.sources, &settings, &cwd, &follow);
+    if args.files.is_empty() && commands.is_empty() && discovery.is_none() {
+        return Err(Error::Usage(
+            "nothing to follow: name a log FILE, or use --source-command, --jobs or [[run]] \
+             in plateau.toml"
+                .to_string(),
+        ));
+    }
     let mut sinks = Sinks::new(args)?;
     let options = LiveOptions {
         parse: settings.parse.clone(),
         analysis: Some(opts),
         keep_rows,
-        follow: FollowOptions::default(),
+        follow: follow.clone(),
         guess_row_tag: false,
     };
+    let clock = Arc::new(SystemClock);
     let (mut live, rx) =
-        Live::start(options, Arc::new(SystemClock)).map_err(|e| Error::Usage(e.to_string()))?;
+        Live::start(options, clock.clone()).map_err(|e| Error::Usage(e.to_string()))?;
     for path in &args.files {
         let source = RunSource::from_argument(path);
         live.add(RunSpec::new(source))
             .map_err(|e| Error::Usage(e.to_string()))?;
     }
+    let controls = sources::start_commands(&mut live, &commands, &follow, clock.clone())?;
+    let mut jobs = match discovery {
+        Some((options, every)) => {
+            let scheduler: Arc<dyn Scheduler> = Arc::new(Slurm::new());
+            Some(JobFeed::start(scheduler, options, every, clock)?)
+        }
+        None => None,
+    };
     let stdin_used = live
         .runs()
         .iter()
@@ -101,6 +140,12 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
             Err(RecvTimeoutError::Timeout) => {}
             Err(RecvTimeoutError::Disconnected) => break,
         }
+        if let Some(feed) = jobs.as_mut() {
+            for note in feed.apply(&mut live) {
+                eprintln!("plateau: {note}");
+            }
+            emitted.resize(live.runs().len(), 0);
+        }
         let now = live::now_seconds();
         live.analyse();
         live.check_stalls(now);
@@ -117,9 +162,23 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         });
         let pid_gone = args.pid.is_some_and(|p| !live::process_alive(p));
         let input_over = stdin_used && live.runs().iter().all(LiveRun::ended);
-        if all_reached || pid_gone || input_over {
+        let jobs_over = jobs.as_ref().is_some_and(JobFeed::nothing_left)
+            && live.runs().iter().all(LiveRun::ended);
+        if jobs_over {
+            eprintln!("plateau: none of your jobs is left to run");
+        }
+        if all_reached || pid_gone || input_over || jobs_over {
             break;
         }
+    }
+    if let Some(feed) = jobs.take() {
+        if !feed.nothing_left() {
+            eprintln!("plateau: {}; no longer followed", feed.summary());
+        }
+        feed.stop();
+    }
+    for control in &controls {
+        control.stop();
     }
     let mut runs = live.stop();
     let mut code = EXIT_HEALTHY;
@@ -135,7 +194,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         if let Some(status) = status {
             eprintln!(
                 "{}: {} ({} rows, {} alerts, {failing} at or above {})",
-                run.spec().label,
+                run_name(run),
                 status,
                 run.rows_seen(),
                 run.alerts().len(),

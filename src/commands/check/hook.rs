@@ -27,10 +27,16 @@ pub const HOOK_MAX_RUNS: usize = 10;
 /// they are counted and reported on standard error (they are still printed and logged).
 pub const HOOK_WINDOW: Duration = Duration::from_secs(60);
 
-/// Splits the user's `--on-alert` text into words: blanks separate words; `'...'` keeps
-/// text literally; `"..."` keeps text with `\"`, `\\`, `\$` and `` \` `` unescaped; a
-/// backslash outside quotes keeps the next character. Nothing is expanded.
+/// Splits the user's `--on-alert` text into words (see [`split_command`]).
 pub fn split_words(text: &str) -> Result<Vec<String>, String> {
+    split_command(text, "--on-alert")
+}
+
+/// Splits a command given as one option value (`option` names it in errors) into words:
+/// blanks separate words; `'...'` keeps text literally; `"..."` keeps text with `\"`,
+/// `\\`, `\$` and `` \` `` unescaped; a backslash outside quotes keeps the next
+/// character. Nothing is expanded (no variables, globs, substitutions or operators).
+pub fn split_command(text: &str, option: &str) -> Result<Vec<String>, String> {
     let mut words = Vec::new();
     let mut word = String::new();
     let mut in_word = false;
@@ -49,7 +55,7 @@ pub fn split_words(text: &str) -> Result<Vec<String>, String> {
                     match chars.next() {
                         Some('\'') => break,
                         Some(x) => word.push(x),
-                        None => return Err("unclosed ' quote in --on-alert".to_string()),
+                        None => return Err(format!("unclosed ' quote in {option}")),
                     }
                 }
             }
@@ -64,10 +70,10 @@ pub fn split_words(text: &str) -> Result<Vec<String>, String> {
                                 word.push('\\');
                                 word.push(x);
                             }
-                            None => return Err("unclosed \" quote in --on-alert".to_string()),
+                            None => return Err(format!("unclosed \" quote in {option}")),
                         },
                         Some(x) => word.push(x),
-                        None => return Err("unclosed \" quote in --on-alert".to_string()),
+                        None => return Err(format!("unclosed \" quote in {option}")),
                     }
                 }
             }
@@ -75,7 +81,7 @@ pub fn split_words(text: &str) -> Result<Vec<String>, String> {
                 in_word = true;
                 match chars.next() {
                     Some(x) => word.push(x),
-                    None => return Err("--on-alert ends with a lone backslash".to_string()),
+                    None => return Err(format!("{option} ends with a lone backslash")),
                 }
             }
             other => {
@@ -88,13 +94,18 @@ pub fn split_words(text: &str) -> Result<Vec<String>, String> {
         words.push(word);
     }
     if words.is_empty() {
-        return Err("--on-alert needs a command".to_string());
+        return Err(format!("{option} needs a command"));
     }
     Ok(words)
 }
 
-/// The environment variables an alert is passed in.
-pub fn alert_environment(alert: &Alert, file: &str) -> Vec<(&'static str, String)> {
+/// The environment variables an alert is passed in; `job` is the id of the batch job
+/// whose log raised it (`PLATEAU_ALERT_JOB`, empty otherwise).
+pub fn alert_environment(
+    alert: &Alert,
+    file: &str,
+    job: Option<&str>,
+) -> Vec<(&'static str, String)> {
     let num = |v: Option<f64>| {
         v.map(|x| {
             crate::report::number::non_finite_text(x)
@@ -123,6 +134,7 @@ pub fn alert_environment(alert: &Alert, file: &str) -> Vec<(&'static str, String
         ("PLATEAU_ALERT_UNIT", alert.unit.clone().unwrap_or_default()),
         ("PLATEAU_ALERT_MESSAGE", alert.message.clone()),
         ("PLATEAU_ALERT_FILE", file.to_string()),
+        ("PLATEAU_ALERT_JOB", job.unwrap_or_default().to_string()),
     ]
 }
 
@@ -165,7 +177,13 @@ impl AlertHook {
 
     /// Starts the command for `alert` unless the rate limit says no. `now` is passed in so
     /// the limit can be tested without a clock.
-    pub fn fire(&mut self, alert: &Alert, file: &str, now: Instant) -> HookOutcome {
+    pub fn fire(
+        &mut self,
+        alert: &Alert,
+        file: &str,
+        job: Option<&str>,
+        now: Instant,
+    ) -> HookOutcome {
         while self
             .recent
             .front()
@@ -183,7 +201,7 @@ impl AlertHook {
         };
         let mut cmd = Command::new(program);
         cmd.args(args).stdin(Stdio::null());
-        for (k, v) in alert_environment(alert, file) {
+        for (k, v) in alert_environment(alert, file, job) {
             cmd.env(k, v);
         }
         match cmd.spawn() {
@@ -229,10 +247,13 @@ impl AlertHook {
     }
 }
 
-/// One line of the `--alert-log` file: the alert and the file it is about.
+/// One line of the `--alert-log` file: the alert, the file it is about and, for a batch
+/// job's log, the job's id.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct AlertLogLine {
     pub file: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub job: Option<String>,
     #[serde(flatten)]
     pub alert: AlertRecord,
 }
@@ -254,10 +275,11 @@ impl AlertLog {
         })
     }
 
-    /// Appends one alert.
-    pub fn append(&mut self, alert: &Alert, source: &str) -> io::Result<()> {
+    /// Appends one alert (`job`: the batch job whose log raised it).
+    pub fn append(&mut self, alert: &Alert, source: &str, job: Option<&str>) -> io::Result<()> {
         let line = AlertLogLine {
             file: source.to_string(),
+            job: job.map(str::to_string),
             alert: AlertRecord::from(alert),
         };
         let mut text = serde_json::to_string(&line).map_err(io::Error::other)?;
@@ -298,17 +320,17 @@ mod tests {
         let t0 = Instant::now();
         for i in 0..HOOK_MAX_RUNS {
             assert!(matches!(
-                hook.fire(&alert, "f", t0 + Duration::from_millis(i as u64)),
+                hook.fire(&alert, "f", None, t0 + Duration::from_millis(i as u64)),
                 HookOutcome::Started | HookOutcome::Failed(_)
             ));
         }
         assert!(matches!(
-            hook.fire(&alert, "f", t0 + Duration::from_secs(1)),
+            hook.fire(&alert, "f", None, t0 + Duration::from_secs(1)),
             HookOutcome::RateLimited
         ));
         assert_eq!(hook.skipped, 1);
         assert!(!matches!(
-            hook.fire(&alert, "f", t0 + HOOK_WINDOW + Duration::from_secs(1)),
+            hook.fire(&alert, "f", None, t0 + HOOK_WINDOW + Duration::from_secs(1)),
             HookOutcome::RateLimited
         ));
         hook.finish(Duration::from_secs(5));
@@ -320,13 +342,17 @@ mod tests {
         a.column = Some("temp".into());
         a.row = Some(3);
         a.value = Some(f64::NAN);
-        let env = alert_environment(&a, "run.log");
+        let env = alert_environment(&a, "run.log", Some("4321_7"));
         let get = |k: &str| env.iter().find(|(n, _)| *n == k).map(|(_, v)| v.clone());
         assert_eq!(get("PLATEAU_ALERT_KIND").as_deref(), Some("nonfinite"));
         assert_eq!(get("PLATEAU_ALERT_VALUE").as_deref(), Some("nan"));
         assert_eq!(get("PLATEAU_ALERT_ROW").as_deref(), Some("3"));
         assert_eq!(get("PLATEAU_ALERT_MESSAGE").as_deref(), Some("x; y"));
         assert_eq!(get("PLATEAU_ALERT_FILE").as_deref(), Some("run.log"));
+        assert_eq!(get("PLATEAU_ALERT_JOB").as_deref(), Some("4321_7"));
+        let env = alert_environment(&a, "run.log", None);
+        let get = |k: &str| env.iter().find(|(n, _)| *n == k).map(|(_, v)| v.clone());
+        assert_eq!(get("PLATEAU_ALERT_JOB").as_deref(), Some(""));
     }
 
     #[test]
@@ -336,8 +362,8 @@ mod tests {
         let mut log = AlertLog::open(&path).unwrap();
         let mut a = Alert::new(AlertKind::Runaway, Severity::Critical, "grows");
         a.value = Some(f64::INFINITY);
-        log.append(&a, "a.log").unwrap();
-        log.append(&a, "b.log").unwrap();
+        log.append(&a, "a.log", None).unwrap();
+        log.append(&a, "b.log", Some("88")).unwrap();
         let text = std::fs::read_to_string(&path).unwrap();
         let lines: Vec<AlertLogLine> = text
             .lines()
@@ -345,6 +371,10 @@ mod tests {
             .collect();
         assert_eq!(lines.len(), 2);
         assert_eq!(lines[1].file, "b.log");
+        assert_eq!(lines[1].job.as_deref(), Some("88"));
+        assert_eq!(lines[0].job, None);
+        // No job: no key at all (lines of earlier versions read the same).
+        assert!(!text.lines().next().unwrap().contains("\"job\""));
         assert_eq!(lines[0].alert.kind, AlertKind::Runaway);
         assert_eq!(lines[0].alert.value, Some(f64::INFINITY));
     }

@@ -137,6 +137,9 @@ impl Widget for &OverviewHeader<'_> {
         if s.paused {
             right.push(Span::styled(" PAUSED ", t.selected()));
         }
+        if let Some(jobs) = &s.feed_summary {
+            right.push(Span::styled(format!(" {jobs} "), t.label()));
+        }
         for p in &s.waiting_patterns {
             right.push(Span::styled(format!(" waiting for {p}"), t.dim()));
         }

@@ -66,6 +66,20 @@ fn alert_text(line: &RunLine, width: usize) -> String {
     }
 }
 
+/// The run's name in a cell `width` wide: the end of its label (the file name matters
+/// most); a batch job's log shows the job's id and name first, then the file's name.
+fn name_text(line: &RunLine, width: usize) -> String {
+    let room = width.saturating_sub(1);
+    let name = match &line.job {
+        Some(job) => {
+            let file = line.label.rsplit('/').next().unwrap_or(&line.label);
+            format::fit(&format!("{job} {file}"), room)
+        }
+        None => format::fit_left(&line.label, room),
+    };
+    format!("{name:<width$}")
+}
+
 impl OverviewTable<'_> {
     fn heading(&self, cols: &OverviewColumns) -> Line<'static> {
         let t = self.theme;
@@ -95,14 +109,7 @@ impl OverviewTable<'_> {
                 ),
                 t.condition(line.condition),
             ),
-            Span::styled(
-                {
-                    let w = usize::from(cols.name);
-                    let name = format::fit_left(&line.label, w.saturating_sub(1));
-                    format!("{name:<w$}")
-                },
-                Style::new(),
-            ),
+            Span::styled(name_text(line, usize::from(cols.name)), Style::new()),
         ];
         if cols.spark > 0 {
             let s = sparkline(&line.spark);
@@ -147,10 +154,12 @@ impl Widget for &OverviewTable<'_> {
         let rows = usize::from(area.height - 1);
         let lines = &self.snapshot.runs;
         if lines.is_empty() {
-            let text = if self.snapshot.waiting_patterns.is_empty() {
-                " no runs"
+            let text = if let Some(jobs) = &self.snapshot.feed_summary {
+                format!(" no job log yet ({jobs}); logs are picked up as jobs start")
+            } else if self.snapshot.waiting_patterns.is_empty() {
+                " no runs".to_string()
             } else {
-                " no file matches yet; new files are picked up as they appear"
+                " no file matches yet; new files are picked up as they appear".to_string()
             };
             Line::styled(text, self.theme.dim())
                 .render(Rect::new(area.x, area.y + 1, area.width, 1), buf);
