@@ -170,7 +170,8 @@ impl Sinks {
     }
 
     fn emit(&mut self, out: &mut dyn Write, file: &str, alert: &Alert) -> Result<(), Error> {
-        super::emit(out, &format!("{file}: {}\n", alert.one_line()))?;
+        let line = format!("{file}: {}", alert.one_line());
+        super::emit(out, &format!("{}\n", crate::text::escape_control(&line)))?;
         out.flush().map_err(Error::Output)?;
         if let Some(log) = &mut self.log {
             if let Err(e) = log.append(alert, file) {
@@ -243,7 +244,8 @@ fn check_file(
         .filter(|a| a.severity >= sinks.fail_at)
         .count();
     eprintln!(
-        "{file}: {} ({} rows, {} alerts, {failing} at or above {})",
+        "{}: {} ({} rows, {} alerts, {failing} at or above {})",
+        crate::text::escape_control(&file),
         analysis.status,
         table.rows(),
         analyzer.engine().alerts().len(),
@@ -282,7 +284,8 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 return Err(e);
             }
             Err(e) => {
-                eprintln!("plateau: error: {e}");
+                let text = e.to_string();
+                eprintln!("plateau: error: {}", crate::text::escape_document(&text));
                 code = combine_exit(code, EXIT_ERROR);
             }
         }

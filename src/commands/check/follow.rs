@@ -6,7 +6,9 @@
 //! checked twice a second against the rows' arrival times. Watching ends when
 //! - every file reached `--until` (a simulated time, or a step count),
 //! - the process given by `--pid` has exited (checked through `/proc/PID`, Linux), or
-//! - standard input ended (when reading `-`),
+//! - standard input ended (when reading `-`), or
+//! - the user pressed Ctrl-C (SIGINT), or SIGTERM or SIGHUP arrived (a second one of
+//!   these ends at once, as usual),
 //!
 //! and then the remaining rows are judged as a finished file would be. The exit code is the
 //! same as without `--follow`.
@@ -19,6 +21,7 @@
 use std::io::Write;
 use std::path::PathBuf;
 use std::sync::mpsc::RecvTimeoutError;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 use std::time::Duration;
 
@@ -52,8 +55,23 @@ fn emit_new(
 /// Tells the user once that older rows are folded (standard error).
 fn tell_folding(run: &mut LiveRun) {
     if let Some(line) = run.take_folding_note() {
-        eprintln!("{}: {line}", run.spec().label);
+        let text = format!("{}: {line}", run.spec().label);
+        eprintln!("{}", crate::text::escape_control(&text));
     }
+}
+
+/// SIGINT, SIGTERM and SIGHUP end the watch with its summary (the flag is set); a second
+/// one ends the process at once (exit code 128 + the signal), as the user expects of a
+/// second Ctrl-C.
+fn end_on_signals() -> std::io::Result<Arc<AtomicBool>> {
+    use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};
+    let flag = Arc::new(AtomicBool::new(false));
+    for sig in [SIGINT, SIGTERM, SIGHUP] {
+        // Order matters: the second signal finds the flag set and exits.
+        signal_hook::flag::register_conditional_shutdown(sig, 128 + sig, Arc::clone(&flag))?;
+        signal_hook::flag::register(sig, Arc::clone(&flag))?;
+    }
+    Ok(flag)
 }
 
 /// Runs `plateau check --follow`.
@@ -88,13 +106,15 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         .any(|r| r.spec().source == RunSource::Stdin);
     let mut emitted = vec![0usize; live.runs().len()];
     let mut errors = false;
+    let interrupted = end_on_signals().map_err(Error::Output)?;
     loop {
         let now = live::now_seconds();
         match rx.recv_timeout(TICK) {
             Ok((source, event)) => {
                 if let Some((_, Happened::Error { path, message })) = live.apply(source, event, now)
                 {
-                    eprintln!("plateau: {}: {message}", path.display());
+                    let text = format!("{}: {message}", path.display());
+                    eprintln!("plateau: {}", crate::text::escape_control(&text));
                     errors = true;
                 }
             }
@@ -117,7 +137,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         });
         let pid_gone = args.pid.is_some_and(|p| !live::process_alive(p));
         let input_over = stdin_used && live.runs().iter().all(LiveRun::ended);
-        if all_reached || pid_gone || input_over {
+        if all_reached || pid_gone || input_over || interrupted.load(Ordering::SeqCst) {
             break;
         }
     }
@@ -135,7 +155,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         if let Some(status) = status {
             eprintln!(
                 "{}: {} ({} rows, {} alerts, {failing} at or above {})",
-                run.spec().label,
+                crate::text::escape_control(&run.spec().label),
                 status,
                 run.rows_seen(),
                 run.alerts().len(),
