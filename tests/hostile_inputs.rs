@@ -356,5 +356,7 @@ fn full_disk_for_the_alert_log_is_reported_and_checking_goes_on() {
         err.contains("/dev/full") && err.contains("No space left"),
         "{err}"
     );
+    assert_eq!(err.matches("cannot append").count(), 1, "told once: {err}");
+    assert!(err.contains("1 alert(s) could not be appended"), "{err}");
     assert!(String::from_utf8_lossy(&out.stdout).contains("nonfinite"));
 }

@@ -142,6 +142,9 @@ pub fn analysis_options(settings: &Settings, args: &AlertArgs) -> Result<Analysi
 struct Sinks {
     hook: Option<AlertHook>,
     log: Option<AlertLog>,
+    /// Alerts that could not be appended to the alert log (the first failure is told at
+    /// once, the count at the end: a full disk does not flood standard error).
+    log_failures: u64,
     bell: bool,
     fail_at: Severity,
 }
@@ -164,6 +167,7 @@ impl Sinks {
         Ok(Sinks {
             hook,
             log,
+            log_failures: 0,
             bell: args.bell,
             fail_at: args.fail_on.severity(),
         })
@@ -175,7 +179,14 @@ impl Sinks {
         out.flush().map_err(Error::Output)?;
         if let Some(log) = &mut self.log {
             if let Err(e) = log.append(alert, file) {
-                eprintln!("plateau: cannot append to {}: {e}", log.path().display());
+                if self.log_failures == 0 {
+                    let text = format!(
+                        "cannot append to {}: {e} (checking goes on; alerts are still printed)",
+                        log.path().display()
+                    );
+                    eprintln!("plateau: {}", crate::text::escape_control(&text));
+                }
+                self.log_failures += 1;
             }
         }
         if self.bell && alert.severity >= self.fail_at {
@@ -200,6 +211,10 @@ impl Sinks {
     }
 
     fn finish(&mut self) {
+        if let (Some(log), n @ 1..) = (&self.log, self.log_failures) {
+            let text = format!("{n} alert(s) could not be appended to {}", log.path().display());
+            eprintln!("plateau: {}", crate::text::escape_control(&text));
+        }
         if let Some(hook) = &mut self.hook {
             for f in hook.finish(Duration::from_secs(10)) {
                 eprintln!("plateau: {f}");
