@@ -45,13 +45,61 @@ impl Rng {
 }
 
 const TOKENS: &[&[u8]] = &[
-    b"nan", b"NaN", b"inf", b"-inf", b"****", b"1D+03", b"1.5E-310", b"1e999", b"-0",
-    b"\r", b"\r\n", b"\n", b"\t", b",", b" ", b"#", b"@", b";", b"%", b"\"", b"\0", b"\xff",
-    b"\xc3\x28", b"\x1b[2J", b"step", b"time", b"Temperature (K)", b"Pressure [bar]",
-    b"Total Energy", b"Volume (A^3)", b"Density (g/cm^3)", b"DATA", b"kJ/mol", b"kcal/mol",
-    b"eV", b"atm", b"fs", b"ns", b"steps", b"=", b"0ps=10K", b",50ps=300K", b"K", b"degC",
-    b"99999999999999999999", b"0", b"1", b"-1", b"1.0", b"[layouts.x]", b"map = [\"step=1\"]",
-    b"keep-rows = ", b"[alerts]", b"delimiter = \"comma\"", b"timestep = \"2fs\"",
+    b"nan",
+    b"NaN",
+    b"inf",
+    b"-inf",
+    b"****",
+    b"1D+03",
+    b"1.5E-310",
+    b"1e999",
+    b"-0",
+    b"\r",
+    b"\r\n",
+    b"\n",
+    b"\t",
+    b",",
+    b" ",
+    b"#",
+    b"@",
+    b";",
+    b"%",
+    b"\"",
+    b"\0",
+    b"\xff",
+    b"\xc3\x28",
+    b"\x1b[2J",
+    b"step",
+    b"time",
+    b"Temperature (K)",
+    b"Pressure [bar]",
+    b"Total Energy",
+    b"Volume (A^3)",
+    b"Density (g/cm^3)",
+    b"DATA",
+    b"kJ/mol",
+    b"kcal/mol",
+    b"eV",
+    b"atm",
+    b"fs",
+    b"ns",
+    b"steps",
+    b"=",
+    b"0ps=10K",
+    b",50ps=300K",
+    b"K",
+    b"degC",
+    b"99999999999999999999",
+    b"0",
+    b"1",
+    b"-1",
+    b"1.0",
+    b"[layouts.x]",
+    b"map = [\"step=1\"]",
+    b"keep-rows = ",
+    b"[alerts]",
+    b"delimiter = \"comma\"",
+    b"timestep = \"2fs\"",
 ];
 
 fn mutate(rng: &mut Rng, input: &mut Vec<u8>, pool: &[Vec<u8>], max_len: usize) {
@@ -238,7 +286,10 @@ fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let target = args.first().map(String::as_str).unwrap_or("all");
     let seconds: u64 = args.get(1).and_then(|s| s.parse().ok()).unwrap_or(60);
-    let seed: u64 = args.get(2).and_then(|s| s.parse().ok()).unwrap_or(20_261_203);
+    let seed: u64 = args
+        .get(2)
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(20_261_203);
     let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
     // Crashes are reported by the summary; keep the default hook's message short.
     std::panic::set_hook(Box::new(|info| {

@@ -127,7 +127,14 @@ mod tests {
 
     #[test]
     fn ordinary_text_is_borrowed_unchanged() {
-        for s in ["Temperature (K)", "Énergie/kJ·mol⁻¹", "温度", "ρ [g/cm³]", "a\\x1b", ""] {
+        for s in [
+            "Temperature (K)",
+            "Énergie/kJ·mol⁻¹",
+            "温度",
+            "ρ [g/cm³]",
+            "a\\x1b",
+            "",
+        ] {
             assert!(matches!(escape_control(s), Cow::Borrowed(_)), "{s}");
             assert!(matches!(escape_document(s), Cow::Borrowed(_)), "{s}");
         }

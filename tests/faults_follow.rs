@@ -63,7 +63,8 @@ fn append_slowly(path: &Path, range: std::ops::Range<u64>, piece: u64, pause: Du
 /// `plateau check --follow` on `file` in `dir`, ending when `pid` exits.
 fn follow(dir: &Path, file: &str, pid: Option<u32>) -> Child {
     let mut cmd = Command::new(env!("CARGO_BIN_EXE_plateau"));
-    cmd.current_dir(dir).args(["check", "--follow", "--stall-after", "1h"]);
+    cmd.current_dir(dir)
+        .args(["check", "--follow", "--stall-after", "1h"]);
     if let Some(pid) = pid {
         cmd.args(["--pid", &pid.to_string()]);
     }

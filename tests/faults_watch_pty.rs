@@ -206,7 +206,9 @@ fn sigtstp_gives_the_terminal_back_and_sigcont_takes_it_again() {
         .open(dir.path().join("md.log"))
         .unwrap();
     let more = generated_log(400);
-    let extra: String = more.lines().skip(300 + more.lines().take_while(|l| l.starts_with('#')).count())
+    let extra: String = more
+        .lines()
+        .skip(300 + more.lines().take_while(|l| l.starts_with('#')).count())
         .map(|l| format!("{l}\n"))
         .collect();
     f.write_all(extra.as_bytes()).unwrap();
@@ -225,7 +227,11 @@ fn terminal_sequences_in_a_log_never_reach_the_terminal() {
     log.push_str("step temp\u{1b}]0;pwned\u{7}(K) zq\u{1b}[2J(kJ/mol)\n");
     for i in 0..300u32 {
         let t = 300.0 + f64::from((i * 7919) % 13) * 0.1;
-        let v = if i == 200 { "nan".to_string() } else { format!("{t}") };
+        let v = if i == 200 {
+            "nan".to_string()
+        } else {
+            format!("{t}")
+        };
         log.push_str(&format!("{i} {v} {}\n", -100.0 - f64::from(i % 7)));
     }
     std::fs::write(dir.path().join("evil.log"), log).unwrap();
@@ -237,9 +243,15 @@ fn terminal_sequences_in_a_log_never_reach_the_terminal() {
     s.writer.write_all(b"q").unwrap();
     let _ = s.wait_exit();
     let raw = String::from_utf8_lossy(&s.raw);
-    assert!(!raw.contains("\u{1b}]0;pwned"), "the title sequence reached the terminal");
+    assert!(
+        !raw.contains("\u{1b}]0;pwned"),
+        "the title sequence reached the terminal"
+    );
     // The dashboard clears the screen itself: the log's clear is the one after its name.
-    assert!(!raw.contains("zq\u{1b}"), "the clear sequence reached the terminal");
+    assert!(
+        !raw.contains("zq\u{1b}"),
+        "the clear sequence reached the terminal"
+    );
     assert!(!raw.contains("pwned\u{7}"), "the bell reached the terminal");
     assert!(raw.contains("zq\\x1b[2J"), "the name is shown escaped");
 }

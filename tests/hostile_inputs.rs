@@ -140,7 +140,9 @@ fn binary_garbage_is_survived_and_named() {
         let text = String::from_utf8(out.stdout).expect("output is UTF-8 whatever the input");
         assert!(text.contains("garbage.bin"), "{text}");
         assert!(
-            !text.chars().any(|c| c != '\n' && ::plateau::text::needs_escape(c)),
+            !text
+                .chars()
+                .any(|c| c != '\n' && ::plateau::text::needs_escape(c)),
             "{command} printed a control character from the garbage"
         );
     }
@@ -219,7 +221,10 @@ fn symlink_loop_is_an_error_naming_the_file_and_others_go_on() {
     no_panic(&out);
     assert_eq!(out.status.code(), Some(2), "exit 2 wins over 1 and 0");
     let err = stderr(&out);
-    assert!(err.contains("loop-a.log") && err.contains("good.log:"), "{err}");
+    assert!(
+        err.contains("loop-a.log") && err.contains("good.log:"),
+        "{err}"
+    );
 }
 
 #[cfg(unix)]
@@ -250,7 +255,10 @@ fn unreadable_file_is_an_error_naming_it() {
     no_panic(&out);
     assert_eq!(out.status.code(), Some(2));
     let err = stderr(&out);
-    assert!(err.contains("secret.log") && err.contains("ermission"), "{err}");
+    assert!(
+        err.contains("secret.log") && err.contains("ermission"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -308,9 +316,7 @@ fn ten_thousand_columns_are_read() {
 fn empty_file_and_only_comments_say_there_are_no_rows() {
     let dir = tempfile::tempdir().unwrap();
     std::fs::write(dir.path().join("empty.log"), b"").unwrap();
-    let comments: String = (0..500)
-        .map(|i| format!("# comment line {i}\n"))
-        .collect();
+    let comments: String = (0..500).map(|i| format!("# comment line {i}\n")).collect();
     std::fs::write(dir.path().join("comments.log"), comments).unwrap();
     for file in ["empty.log", "comments.log"] {
         let report = report_json(dir.path(), file);

@@ -50,7 +50,11 @@ fn a_100_mb_line_is_passed_in_bounded_memory() {
         .timeout(Duration::from_secs(600))
         .output()
         .unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(report["rows"], 1000, "the rows on both sides");
     assert_eq!(report["free_text_lines"], 1, "the long line");

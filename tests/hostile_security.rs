@@ -91,7 +91,10 @@ fn on_alert_never_runs_log_text_through_a_shell() {
             "the hook got the name literally: {seen:?} vs {read:?}"
         );
         for marker in ["pwned", "pwned2", "pwned3", "pwned4"] {
-            assert!(!dir.path().join(marker).exists(), "{name}: {marker} created");
+            assert!(
+                !dir.path().join(marker).exists(),
+                "{name}: {marker} created"
+            );
         }
         assert_eq!(
             std::fs::read(dir.path().join("victim")).unwrap(),
@@ -160,10 +163,7 @@ fn settings_file_cannot_name_an_output_path() {
         );
     }
     // The same keys inside a named layout are refused too.
-    let toml = format!(
-        "[layouts.x]\nalert-log = \"{}\"\n",
-        target.display()
-    );
+    let toml = format!("[layouts.x]\nalert-log = \"{}\"\n", target.display());
     std::fs::write(dir.path().join("plateau.toml"), toml).unwrap();
     let out = plateau(dir.path())
         .args(["report", "run.log"])

@@ -78,10 +78,7 @@ pub fn log_parser(data: &[u8]) {
     };
     // Two cut points anywhere (inside lines, inside UTF-8 sequences, inside CRLF).
     let n = text.len();
-    let (mut x, mut y) = (
-        usize::from(*a) * n / 255,
-        usize::from(*b) * n / 255,
-    );
+    let (mut x, mut y) = (usize::from(*a) * n / 255, usize::from(*b) * n / 255);
     if x > y {
         std::mem::swap(&mut x, &mut y);
     }
@@ -95,7 +92,11 @@ pub fn log_parser(data: &[u8]) {
     };
     // Debug text compares NaN values as equal (f64's == does not).
     let whole_text = format!("{whole:?}");
-    assert_eq!(whole_text, format!("{chunked:?}"), "chunked feeding differs");
+    assert_eq!(
+        whole_text,
+        format!("{chunked:?}"),
+        "chunked feeding differs"
+    );
     let block_size = 1 + usize::from(*a % 64);
     let workers = 1 + usize::from(*b % 2);
     let blocks = plateau::ingest::read_blocks(
@@ -129,7 +130,11 @@ pub fn header_layout(data: &[u8]) {
     }
     if let Some(n) = plateau::parse::layout::wide_header_column_count(line) {
         let names = plateau::parse::layout::wide_header_names(line);
-        assert_eq!(names.len(), n, "wide header of {n} columns gave other names");
+        assert_eq!(
+            names.len(),
+            n,
+            "wide header of {n} columns gave other names"
+        );
     }
 }
 
@@ -138,7 +143,11 @@ pub fn units(data: &[u8]) {
     let text = String::from_utf8_lossy(data);
     if let Ok(unit) = Unit::parse(&text) {
         let name = unit.to_string();
-        assert_eq!(Unit::parse(&name).ok(), Some(unit), "{name} does not read back");
+        assert_eq!(
+            Unit::parse(&name).ok(),
+            Some(unit),
+            "{name} does not read back"
+        );
         for v in [1.0, -273.15, 1e-3, 12_345.678] {
             let back = unit.from_canonical(unit.to_canonical(v));
             assert!(
@@ -168,7 +177,11 @@ pub fn schedule(data: &[u8]) {
     };
     let points = s.points();
     let values: Vec<f64> = points.iter().map(|p| p.1).collect();
-    if values.iter().chain(points.iter().map(|p| &p.0)).any(|v| !v.is_finite()) {
+    if values
+        .iter()
+        .chain(points.iter().map(|p| &p.0))
+        .any(|v| !v.is_finite())
+    {
         return; // non-finite points: nothing to bound (must still not panic)
     }
     let lo = values.iter().copied().fold(f64::INFINITY, f64::min);

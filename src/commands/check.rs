@@ -212,7 +212,10 @@ impl Sinks {
 
     fn finish(&mut self) {
         if let (Some(log), n @ 1..) = (&self.log, self.log_failures) {
-            let text = format!("{n} alert(s) could not be appended to {}", log.path().display());
+            let text = format!(
+                "{n} alert(s) could not be appended to {}",
+                log.path().display()
+            );
             eprintln!("plateau: {}", crate::text::escape_control(&text));
         }
         if let Some(hook) = &mut self.hook {

@@ -294,12 +294,9 @@ impl ColumnsView {
                     (Some(u), _) if c.assumed => format!("{} (assumed)", escape_control(u)),
                     (Some(u), Some(_)) => escape_control(u).into_owned(),
                     (Some(_), None) => "derived from step".to_string(),
-                    (None, _) => c
-                        .header_unit
-                        .clone()
-                        .map_or("-".into(), |u| {
-                            format!("{} (not understood)", escape_control(&u))
-                        }),
+                    (None, _) => c.header_unit.clone().map_or("-".into(), |u| {
+                        format!("{} (not understood)", escape_control(&u))
+                    }),
                 };
                 let mut notes = String::new();
                 if c.non_finite > 0 {

@@ -255,9 +255,8 @@ fn input_loop(tx: Sender<Event>) {
 
 fn signal_loop(tx: Sender<Event>) -> io::Result<()> {
     use signal_hook::consts::{SIGCONT, SIGHUP, SIGINT, SIGQUIT, SIGTERM, SIGTSTP};
-    let mut signals = signal_hook::iterator::Signals::new([
-        SIGTERM, SIGHUP, SIGINT, SIGQUIT, SIGTSTP, SIGCONT,
-    ])?;
+    let mut signals =
+        signal_hook::iterator::Signals::new([SIGTERM, SIGHUP, SIGINT, SIGQUIT, SIGTSTP, SIGCONT])?;
     thread::Builder::new()
         .name("plateau-signals".into())
         .spawn(move || {

@@ -20,8 +20,8 @@
 
 use std::io::Write;
 use std::path::PathBuf;
-use std::sync::mpsc::RecvTimeoutError;
 use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::RecvTimeoutError;
 use std::sync::Arc;
 use std::time::Duration;
 

@@ -348,8 +348,14 @@ mod tests {
             assert!(!v.chars().any(crate::text::needs_escape), "{k}={v:?}");
         }
         let get = |k: &str| env.iter().find(|(n, _)| *n == k).map(|(_, v)| v.clone());
-        assert_eq!(get("PLATEAU_ALERT_MESSAGE").as_deref(), Some("a\\nb\\r\\x1b[2J"));
-        assert_eq!(get("PLATEAU_ALERT_COLUMN").as_deref(), Some("t\\x1b]0;x\\x07"));
+        assert_eq!(
+            get("PLATEAU_ALERT_MESSAGE").as_deref(),
+            Some("a\\nb\\r\\x1b[2J")
+        );
+        assert_eq!(
+            get("PLATEAU_ALERT_COLUMN").as_deref(),
+            Some("t\\x1b]0;x\\x07")
+        );
         assert_eq!(get("PLATEAU_ALERT_FILE").as_deref(), Some("dir\\nrun.log"));
     }
 
