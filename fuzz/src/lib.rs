@@ -209,8 +209,11 @@ pub fn config(data: &[u8]) {
     }
 }
 
+/// A target's body.
+pub type Target = fn(&[u8]);
+
 /// Every target by name (for the replayer).
-pub const TARGETS: [(&str, fn(&[u8])); 6] = [
+pub const TARGETS: [(&str, Target); 6] = [
     ("block_parser", block_parser),
     ("log_parser", log_parser),
     ("header_layout", header_layout),
