@@ -227,3 +227,62 @@ fn lost_file_events_are_caught_up_by_the_heartbeat() {
     assert_eq!(code, Some(0), "{stderr}");
     assert_eq!(rows_in_summary(&stderr, "run.log"), 500, "{stderr}");
 }
+
+/// `check --follow` run as the unprivileged user `nobody` when the tests run as root (root
+/// reads files whatever their permissions), else as ourselves.
+fn follow_unprivileged(dir: &Path, file: &str, pid: u32) -> Child {
+    use std::os::unix::process::CommandExt;
+    let mut cmd = Command::new(env!("CARGO_BIN_EXE_plateau"));
+    cmd.current_dir(dir)
+        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
+        .arg(pid.to_string())
+        .arg(file)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped());
+    // SAFETY: geteuid has no failure; the closure only calls async-signal-safe setgid and
+    // setuid between fork and exec.
+    if unsafe { libc::geteuid() } == 0 {
+        unsafe {
+            cmd.pre_exec(|| {
+                if libc::setgid(65534) != 0 || libc::setuid(65534) != 0 {
+                    return Err(std::io::Error::last_os_error());
+                }
+                Ok(())
+            });
+        }
+    }
+    cmd.spawn().unwrap()
+}
+
+#[test]
+fn read_permission_removed_mid_run_keeps_the_rows_and_names_the_file() {
+    use std::os::unix::fs::PermissionsExt;
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o755)).unwrap();
+    let path = dir.path().join("run.log");
+    std::fs::write(&path, format!("{}{}", header(), rows(0..100))).unwrap();
+    std::fs::set_permissions(&path, std::fs::Permissions::from_mode(0o644)).unwrap();
+    let mut until = sleeper();
+    let child = follow_unprivileged(dir.path(), "run.log", until.id());
+    thread::sleep(Duration::from_millis(1500));
+    // Permission removed: the file already open is still read (permissions are checked
+    // when a file is opened, POSIX open(2)), so appended rows still arrive.
+    std::fs::set_permissions(&path, std::fs::Permissions::from_mode(0o000)).unwrap();
+    append(&path, &rows(100..150));
+    thread::sleep(Duration::from_millis(1500));
+    // Replaced by a file it may not open: an error naming the file; the rows stay.
+    let tmp = dir.path().join("run.log.new");
+    std::fs::write(&tmp, format!("{}{}", header(), rows(0..200))).unwrap();
+    std::fs::set_permissions(&tmp, std::fs::Permissions::from_mode(0o000)).unwrap();
+    std::fs::rename(&tmp, &path).unwrap();
+    thread::sleep(Duration::from_secs(3));
+    until.kill().unwrap();
+    until.wait().unwrap();
+    let (code, _, stderr) = finish(child);
+    assert_eq!(code, Some(2), "an unreadable input: {stderr}");
+    assert!(
+        stderr.contains("run.log") && stderr.contains("ermission denied"),
+        "{stderr}"
+    );
+    assert_eq!(rows_in_summary(&stderr, "run.log"), 150, "{stderr}");
+}

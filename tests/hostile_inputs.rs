@@ -228,37 +228,55 @@ fn symlink_loop_is_an_error_naming_the_file_and_others_go_on() {
 }
 
 #[cfg(unix)]
-fn running_as_root() -> bool {
-    // SAFETY: no arguments, no failure.
-    unsafe { libc::geteuid() == 0 }
-}
-
-#[cfg(unix)]
 #[test]
 fn unreadable_file_is_an_error_naming_it() {
     use std::os::unix::fs::PermissionsExt;
-    if running_as_root() {
-        eprintln!(
-            "SKIPPED unreadable_file_is_an_error_naming_it: running as root, which reads \
-             files whatever their permissions"
-        );
-        return;
-    }
+    use std::os::unix::process::CommandExt;
     let dir = tempfile::tempdir().unwrap();
+    std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o755)).unwrap();
     let path = dir.path().join("secret.log");
     std::fs::write(&path, good_log(200, LogStyle::Whitespace)).unwrap();
     std::fs::set_permissions(&path, std::fs::Permissions::from_mode(0o000)).unwrap();
-    let out = plateau(dir.path())
-        .args(["report", "secret.log"])
-        .output()
-        .unwrap();
-    no_panic(&out);
-    assert_eq!(out.status.code(), Some(2));
-    let err = stderr(&out);
-    assert!(
-        err.contains("secret.log") && err.contains("ermission"),
-        "{err}"
-    );
+    std::fs::write(
+        dir.path().join("good.log"),
+        good_log(400, LogStyle::Whitespace),
+    )
+    .unwrap();
+    std::fs::set_permissions(
+        dir.path().join("good.log"),
+        std::fs::Permissions::from_mode(0o644),
+    )
+    .unwrap();
+    for command in ["report", "check"] {
+        let mut cmd = std::process::Command::new(env!("CARGO_BIN_EXE_plateau"));
+        cmd.current_dir(dir.path()).args([command, "secret.log"]);
+        if command == "check" {
+            cmd.arg("good.log");
+        }
+        // Root reads any file: run as the unprivileged user `nobody` then.
+        // SAFETY: geteuid has no failure; the closure calls only setgid and setuid.
+        if unsafe { libc::geteuid() } == 0 {
+            unsafe {
+                cmd.pre_exec(|| {
+                    if libc::setgid(65534) != 0 || libc::setuid(65534) != 0 {
+                        return Err(std::io::Error::last_os_error());
+                    }
+                    Ok(())
+                });
+            }
+        }
+        let out = cmd.output().unwrap();
+        no_panic(&out);
+        assert_eq!(out.status.code(), Some(2), "{command}");
+        let err = stderr(&out);
+        assert!(
+            err.contains("secret.log") && err.contains("ermission"),
+            "{err}"
+        );
+        if command == "check" {
+            assert!(err.contains("good.log: "), "the other file goes on: {err}");
+        }
+    }
 }
 
 #[test]
