@@ -40,7 +40,17 @@ const IN_FLIGHT: usize = 2 * WORKERS + 2;
 
 /// Reads and parses a whole file (`-` reads standard input to its end).
 pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> {
-    open_input(path, 0)?.read(options)
+    read_path_observed(path, options, &mut |_, _| {})
+}
+
+/// As [`read_path`], calling `observe(bytes read so far, the file's size when known)`
+/// after every read of the input (from the reading threads; a progress line).
+pub fn read_path_observed(
+    path: &Path,
+    options: ParseOptions,
+    observe: &mut (dyn FnMut(u64, Option<u64>) + Send),
+) -> Result<RunTable, Error> {
+    open_input(path, 0)?.read_observed(options, observe)
 }
 
 /// An input opened once, with its first bytes already read: a named pipe or a device can
@@ -99,6 +109,16 @@ impl OpenInput {
 
     /// Reads and parses the whole input: the bytes already read, then the rest to its end.
     pub fn read(self, options: ParseOptions) -> Result<RunTable, Error> {
+        self.read_observed(options, &mut |_, _| {})
+    }
+
+    /// As [`OpenInput::read`], calling `observe(bytes read so far, the size when known)`
+    /// after every read (the bytes read first count when they are given again).
+    pub fn read_observed(
+        self,
+        options: ParseOptions,
+        observe: &mut (dyn FnMut(u64, Option<u64>) + Send),
+    ) -> Result<RunTable, Error> {
         let OpenInput {
             path,
             start,
@@ -106,9 +126,13 @@ impl OpenInput {
             size,
         } = self;
         let result = match file {
-            None => read_with(io::stdin(), options, BLOCK_SIZE),
+            None => read_with(
+                Observed::new(io::stdin(), None, observe),
+                options,
+                BLOCK_SIZE,
+            ),
             Some(file) => read_blocks(
-                io::Cursor::new(start).chain(file),
+                Observed::new(io::Cursor::new(start).chain(file), size, observe),
                 options,
                 BLOCK_SIZE,
                 WORKERS,
@@ -116,6 +140,38 @@ impl OpenInput {
             ),
         };
         result.map_err(|source| Error::Read { path, source })
+    }
+}
+
+/// A reader that tells an observer how many bytes it has given so far.
+struct Observed<'a, R> {
+    inner: R,
+    read: u64,
+    total: Option<u64>,
+    observe: &'a mut (dyn FnMut(u64, Option<u64>) + Send),
+}
+
+impl<'a, R> Observed<'a, R> {
+    fn new(
+        inner: R,
+        total: Option<u64>,
+        observe: &'a mut (dyn FnMut(u64, Option<u64>) + Send),
+    ) -> Self {
+        Observed {
+            inner,
+            read: 0,
+            total,
+            observe,
+        }
+    }
+}
+
+impl<R: Read> Read for Observed<'_, R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        self.read += n as u64;
+        (self.observe)(self.read, self.total);
+        Ok(n)
     }
 }
 
