@@ -221,7 +221,8 @@ pub struct CheckArgs {
     #[arg(long, value_enum, default_value_t = FailOn::Warning)]
     pub fail_on: FailOn,
     /// Keep watching the files and print alerts as they happen; ends at `--until`, when
-    /// the `--pid` process exits, or at the end of standard input.
+    /// the `--pid` process exits, at the end of standard input, or on Ctrl-C (SIGINT),
+    /// SIGTERM or SIGHUP, each time with the summary and the exit code of what was seen.
     #[arg(long)]
     pub follow: bool,
     /// With `--follow`: rows kept at full resolution per run (default 10000, at least

@@ -20,7 +20,7 @@
 use std::collections::BTreeMap;
 use std::fs::File;
 use std::io::{self, Read};
-use std::path::Path;
+use std::path::{Path, PathBuf};
 use std::sync::{mpsc, Mutex};
 
 use crate::error::Error;
@@ -50,13 +50,35 @@ pub fn read_path_observed(
     options: ParseOptions,
     observe: &mut (dyn FnMut(u64, Option<u64>) + Send),
 ) -> Result<RunTable, Error> {
+    open_input(path, 0)?.read_observed(options, observe)
+}
+
+/// An input opened once, with its first bytes already read: a named pipe or a device can
+/// be read only once, so whatever looks at the start of a log (guessing a row tag) looks
+/// at these bytes, and [`OpenInput::read`] reads them again from memory before the rest.
+pub struct OpenInput {
+    path: PathBuf,
+    start: Vec<u8>,
+    /// `None` for standard input.
+    file: Option<File>,
+    /// The size of a regular file (to reserve the columns once).
+    size: Option<u64>,
+}
+
+/// Opens `path` (`-`: standard input) and reads up to `start_bytes` of it (none from
+/// standard input). A folder is refused with a message naming it.
+pub fn open_input(path: &Path, start_bytes: u64) -> Result<OpenInput, Error> {
     let read_err = |source: io::Error| Error::Read {
         path: path.to_path_buf(),
         source,
     };
     if path.as_os_str() == "-" {
-        let stdin = Observed::new(io::stdin(), None, observe);
-        return read_with(stdin, options, BLOCK_SIZE).map_err(read_err);
+        return Ok(OpenInput {
+            path: path.to_path_buf(),
+            start: Vec::new(),
+            file: None,
+            size: None,
+        });
     }
     let file = File::open(path).map_err(read_err)?;
     let meta = file.metadata().map_err(read_err)?;
@@ -66,8 +88,59 @@ pub fn read_path_observed(
             "is a folder, not a log file",
         )));
     }
-    let file = Observed::new(file, Some(meta.len()), observe);
-    read_blocks(file, options, BLOCK_SIZE, WORKERS, Some(meta.len())).map_err(read_err)
+    let mut start = Vec::new();
+    (&file)
+        .take(start_bytes)
+        .read_to_end(&mut start)
+        .map_err(read_err)?;
+    Ok(OpenInput {
+        path: path.to_path_buf(),
+        start,
+        file: Some(file),
+        size: meta.is_file().then_some(meta.len()),
+    })
+}
+
+impl OpenInput {
+    /// The first bytes read by [`open_input`].
+    pub fn start(&self) -> &[u8] {
+        &self.start
+    }
+
+    /// Reads and parses the whole input: the bytes already read, then the rest to its end.
+    pub fn read(self, options: ParseOptions) -> Result<RunTable, Error> {
+        self.read_observed(options, &mut |_, _| {})
+    }
+
+    /// As [`OpenInput::read`], calling `observe(bytes read so far, the size when known)`
+    /// after every read (the bytes read first count when they are given again).
+    pub fn read_observed(
+        self,
+        options: ParseOptions,
+        observe: &mut (dyn FnMut(u64, Option<u64>) + Send),
+    ) -> Result<RunTable, Error> {
+        let OpenInput {
+            path,
+            start,
+            file,
+            size,
+        } = self;
+        let result = match file {
+            None => read_with(
+                Observed::new(io::stdin(), None, observe),
+                options,
+                BLOCK_SIZE,
+            ),
+            Some(file) => read_blocks(
+                Observed::new(io::Cursor::new(start).chain(file), size, observe),
+                options,
+                BLOCK_SIZE,
+                WORKERS,
+                size,
+            ),
+        };
+        result.map_err(|source| Error::Read { path, source })
+    }
 }
 
 /// A reader that tells an observer how many bytes it has given so far.

@@ -24,5 +24,6 @@ pub mod scenario;
 pub mod scheduler;
 pub mod stats;
 pub mod table;
+pub mod text;
 pub mod tui;
 pub mod units;

@@ -22,7 +22,8 @@ fn main() -> ExitCode {
         Ok(code) => ExitCode::from(code),
         Err(e) if e.is_broken_pipe() => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("plateau: error: {e}");
+            let text = e.to_string();
+            eprintln!("plateau: error: {}", plateau::text::escape_document(&text));
             ExitCode::from(2)
         }
     }

@@ -499,6 +499,18 @@ impl RunTable {
         }
     }
 
+    /// Notes a line too long to be read (`MAX_LINE`): counted as free text, and the first
+    /// one named in a warning (a log with one such line usually has many).
+    pub fn overlong(&mut self, line: u64) {
+        const PREFIX: &str = "lines longer than 1 MiB are not read";
+        if !self.warnings.iter().any(|w| w.starts_with(PREFIX)) {
+            self.warn(format!(
+                "{PREFIX} (counted as free text), the first at line {line}: \
+                 is this a log of rows?"
+            ));
+        }
+    }
+
     /// Adds a warning unless already present.
     pub fn warn(&mut self, message: String) {
         if !self.warnings.contains(&message) {

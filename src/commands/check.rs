@@ -142,6 +142,9 @@ pub fn analysis_options(settings: &Settings, args: &AlertArgs) -> Result<Analysi
 struct Sinks {
     hook: Option<AlertHook>,
     log: Option<AlertLog>,
+    /// Alerts that could not be appended to the alert log (the first failure is told at
+    /// once, the count at the end: a full disk does not flood standard error).
+    log_failures: u64,
     bell: bool,
     fail_at: Severity,
 }
@@ -164,6 +167,7 @@ impl Sinks {
         Ok(Sinks {
             hook,
             log,
+            log_failures: 0,
             bell: args.bell,
             fail_at: args.fail_on.severity(),
         })
@@ -179,14 +183,21 @@ impl Sinks {
         alert: &Alert,
     ) -> Result<(), Error> {
         let line = match job {
-            Some(id) => format!("{file} (job {id}): {}\n", alert.one_line()),
-            None => format!("{file}: {}\n", alert.one_line()),
+            Some(id) => format!("{file} (job {id}): {}", alert.one_line()),
+            None => format!("{file}: {}", alert.one_line()),
         };
-        super::emit(out, &line)?;
+        super::emit(out, &format!("{}\n", crate::text::escape_control(&line)))?;
         out.flush().map_err(Error::Output)?;
         if let Some(log) = &mut self.log {
             if let Err(e) = log.append(alert, file, job) {
-                eprintln!("plateau: cannot append to {}: {e}", log.path().display());
+                if self.log_failures == 0 {
+                    let text = format!(
+                        "cannot append to {}: {e} (checking goes on; alerts are still printed)",
+                        log.path().display()
+                    );
+                    eprintln!("plateau: {}", crate::text::escape_control(&text));
+                }
+                self.log_failures += 1;
             }
         }
         if self.bell && alert.severity >= self.fail_at {
@@ -211,6 +222,13 @@ impl Sinks {
     }
 
     fn finish(&mut self) {
+        if let (Some(log), n @ 1..) = (&self.log, self.log_failures) {
+            let text = format!(
+                "{n} alert(s) could not be appended to {}",
+                log.path().display()
+            );
+            eprintln!("plateau: {}", crate::text::escape_control(&text));
+        }
         if let Some(hook) = &mut self.hook {
             for f in hook.finish(Duration::from_secs(10)) {
                 eprintln!("plateau: {f}");
@@ -255,7 +273,8 @@ fn check_file(
         .filter(|a| a.severity >= sinks.fail_at)
         .count();
     eprintln!(
-        "{file}: {} ({} rows, {} alerts, {failing} at or above {})",
+        "{}: {} ({} rows, {} alerts, {failing} at or above {})",
+        crate::text::escape_control(&file),
         analysis.status,
         table.rows(),
         analyzer.engine().alerts().len(),
@@ -306,7 +325,8 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 return Err(e);
             }
             Err(e) => {
-                eprintln!("plateau: error: {e}");
+                let text = e.to_string();
+                eprintln!("plateau: error: {}", crate::text::escape_document(&text));
                 code = combine_exit(code, EXIT_ERROR);
             }
         }

@@ -12,6 +12,7 @@ use crate::error::Error;
 use crate::mapping::{map_line, Role, RoleSource};
 use crate::parse::{Delimiter, DelimiterChoice};
 use crate::table::{PartialLine, Restart, RunTable};
+use crate::text::{escape_control, escape_document, escape_json};
 
 /// Version of the JSON written by `columns --format json`.
 pub const COLUMNS_SCHEMA_VERSION: u32 = 1;
@@ -204,11 +205,11 @@ impl ColumnsView {
     /// The text form.
     pub fn to_text(&self) -> String {
         let mut o = String::new();
-        let _ = writeln!(o, "file        {}", self.file);
+        let _ = writeln!(o, "file        {}", escape_control(&self.file));
         let prefixes = if self.comment_prefixes.is_empty() {
             "(none)".to_string()
         } else {
-            self.comment_prefixes.join(" ")
+            escape_control(&self.comment_prefixes.join(" ")).into_owned()
         };
         let _ = writeln!(o, "comments    {prefixes}");
         if let Some(tag) = &self.row_tag {
@@ -217,7 +218,7 @@ impl ColumnsView {
             } else {
                 ""
             };
-            let _ = writeln!(o, "row tag     {tag}{how}");
+            let _ = writeln!(o, "row tag     {}{how}", escape_control(tag));
         }
         if let Some(f) = &self.config_file {
             match &self.layout {
@@ -273,7 +274,7 @@ impl ColumnsView {
             let name_w = s
                 .columns
                 .iter()
-                .map(|c| c.name.chars().count())
+                .map(|c| escape_control(&c.name).chars().count())
                 .max()
                 .unwrap_or(4)
                 .max(4);
@@ -290,13 +291,12 @@ impl ColumnsView {
                     (None, _) => "-".to_string(),
                 };
                 let source = match (&c.source_unit, c.index) {
-                    (Some(u), _) if c.assumed => format!("{u} (assumed)"),
-                    (Some(u), Some(_)) => u.clone(),
+                    (Some(u), _) if c.assumed => format!("{} (assumed)", escape_control(u)),
+                    (Some(u), Some(_)) => escape_control(u).into_owned(),
                     (Some(_), None) => "derived from step".to_string(),
-                    (None, _) => c
-                        .header_unit
-                        .clone()
-                        .map_or("-".into(), |u| format!("{u} (not understood)")),
+                    (None, _) => c.header_unit.clone().map_or("-".into(), |u| {
+                        format!("{} (not understood)", escape_control(&u))
+                    }),
                 };
                 let mut notes = String::new();
                 if c.non_finite > 0 {
@@ -308,8 +308,8 @@ impl ColumnsView {
                 let _ = writeln!(
                     o,
                     "  {idx:>3}  {:<name_w$}  {role:<12}  {:<8}  {source}{notes}",
-                    c.name,
-                    c.unit.as_deref().unwrap_or("-"),
+                    escape_control(&c.name),
+                    escape_control(c.unit.as_deref().unwrap_or("-")),
                 );
             }
             if s.header_repeats > 0 {
@@ -328,7 +328,7 @@ impl ColumnsView {
                     "  no roles found: name them with --map ROLE=COLUMN (e.g. --map step=1 --map temperature=3)"
                 );
             } else {
-                let _ = writeln!(o, "  map: {}", s.map);
+                let _ = writeln!(o, "  map: {}", escape_control(&s.map));
             }
         }
         let _ = writeln!(o);
@@ -342,7 +342,13 @@ impl ColumnsView {
         if self.skipped_lines > 0 {
             let _ = writeln!(o, "skipped lines: {}", self.skipped_lines);
             for s in self.skipped.iter().take(10) {
-                let _ = writeln!(o, "  {}:{}: {}", self.file, s.line, s.reason);
+                let _ = writeln!(
+                    o,
+                    "  {}:{}: {}",
+                    escape_control(&self.file),
+                    s.line,
+                    escape_control(&s.reason)
+                );
             }
             if self.skipped_lines > 10 {
                 let _ = writeln!(
@@ -360,7 +366,7 @@ impl ColumnsView {
             );
         }
         for w in &self.warnings {
-            let _ = writeln!(o, "warning: {w}");
+            let _ = writeln!(o, "warning: {}", escape_control(w));
         }
         o
     }
@@ -371,10 +377,11 @@ pub fn run(args: &ColumnsArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let (settings, table) = super::load(&args.file, &args.input)?;
     let view = ColumnsView::new(&args.file.display().to_string(), &settings, &table);
     let text = match args.format {
-        OutputFormat::Text => view.to_text(),
+        OutputFormat::Text => escape_document(&view.to_text()).into_owned(),
         OutputFormat::Json => {
-            let mut s = serde_json::to_string_pretty(&view)
+            let s = serde_json::to_string_pretty(&view)
                 .map_err(|e| Error::Output(std::io::Error::other(e)))?;
+            let mut s = escape_json(&s).into_owned();
             s.push('\n');
             s
         }

@@ -45,12 +45,22 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
 pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Error> {
     let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
     let mut settings = Settings::resolve(input, &cwd)?;
-    guess_row_tag(file, &mut settings);
-    let mut meter = crate::progress::Meter::stderr(&file.display().to_string());
-    let table =
-        crate::ingest::read_path_observed(file, settings.parse.clone(), &mut |read, total| {
-            meter.observe(read, total);
-        });
+    // Opened once: the row tag is guessed from the bytes the reader then reads again, so
+    // a named pipe works too.
+    let guess = settings.parse.row_tag.is_none();
+    let start = if guess { crate::live::SNIFF_BYTES } else { 0 };
+    let opened = crate::ingest::open_input(file, start)?;
+    if guess {
+        if let Some(tag) = crate::parse::sniff::sniff_row_tag(opened.start()) {
+            settings.parse.row_tag = Some(tag);
+            settings.row_tag_guessed = true;
+        }
+    }
+    let label = file.display().to_string();
+    let mut meter = crate::progress::Meter::stderr(&crate::text::escape_control(&label));
+    let table = opened.read_observed(settings.parse.clone(), &mut |read, total| {
+        meter.observe(read, total);
+    });
     meter.finish();
     let table = table?;
     Ok((settings, table))

@@ -103,9 +103,10 @@ pub fn run(args: &ReportArgs, out: &mut dyn Write) -> Result<u8, Error> {
         ReportFormat::Text => render_text(&report),
         ReportFormat::Markdown => render_markdown(&report),
         ReportFormat::Json => {
-            let mut s = report
+            let s = report
                 .to_json()
                 .map_err(|e| Error::Output(std::io::Error::other(e)))?;
+            let mut s = crate::text::escape_json(&s).into_owned();
             s.push('\n');
             s
         }

@@ -55,15 +55,16 @@ pub fn now_seconds() -> f64 {
 }
 
 /// Bytes looked at when guessing a row tag.
-const SNIFF_BYTES: u64 = 256 * 1024;
+pub const SNIFF_BYTES: u64 = 256 * 1024;
 
 /// Looks at the start of `file` for data rows marked by a leading word
-/// ([`crate::parse::sniff::sniff_row_tag`]) and returns that word. Standard input and
-/// unreadable files give `None` (reading them fails later, with the path, or cannot be
-/// rewound).
+/// ([`crate::parse::sniff::sniff_row_tag`]) and returns that word. Standard input,
+/// anything that is not a regular file (a named pipe can be read only once: reading its
+/// start here would take those bytes from the real reader) and unreadable files give
+/// `None` (reading them fails later, with the path).
 pub fn sniff_row_tag(file: &Path) -> Option<String> {
     use std::io::Read;
-    if file == Path::new("-") {
+    if file == Path::new("-") || !std::fs::metadata(file).ok()?.is_file() {
         return None;
     }
     let handle = std::fs::File::open(file).ok()?;

@@ -236,6 +236,7 @@ impl LogParser {
                     if self.pending_overlong {
                         self.pending_overlong = false;
                         self.pending.clear();
+                        self.table.overlong(self.lines_done + 1);
                         self.table.text_lines += 1;
                         self.table.lines += 1;
                         self.lines_done += 1;
@@ -370,7 +371,12 @@ impl LogParser {
                     };
                     self.table.skip(base + line + 1, reason);
                 }
-                Item::Text { .. } | Item::Overlong { .. } => {
+                Item::Overlong { line } => {
+                    self.table.overlong(base + line + 1);
+                    self.table.text_lines += 1;
+                    self.adjacent = false;
+                }
+                Item::Text { .. } => {
                     self.table.text_lines += 1;
                     self.adjacent = false;
                 }

@@ -5,6 +5,7 @@ use std::fmt::Write as _;
 use crate::alert::format_number;
 
 use super::model::{ColumnReport, EquilibrationState, Report};
+use crate::text::{escape_control, escape_document};
 
 /// `mean ± error` rounded to the error's two significant digits.
 pub fn value_with_error(mean: f64, error: Option<f64>) -> String {
@@ -112,12 +113,14 @@ fn column_rows(r: &Report) -> Vec<[String; 7]> {
                     "-".to_string(),
                 ),
             };
+            let unit = escape_control(&c.unit);
             let unit = if c.unit_assumed {
-                format!("{} (assumed)", c.unit)
+                format!("{unit} (assumed)")
             } else {
-                c.unit.clone()
+                unit.into_owned()
             };
-            [c.name.clone(), unit, onset_text(c), mean, std, g, neff]
+            let name = escape_control(&c.name).into_owned();
+            [name, unit, onset_text(c), mean, std, g, neff]
         })
         .collect()
 }
@@ -233,10 +236,15 @@ fn header_lines(r: &Report) -> Vec<String> {
     lines
 }
 
-/// Plain text for a terminal.
+/// Plain text for a terminal. Text from the log (path, names, units, messages) has its
+/// control characters escaped ([`crate::text`]).
 pub fn render_text(r: &Report) -> String {
+    escape_document(&render_text_raw(r)).into_owned()
+}
+
+fn render_text_raw(r: &Report) -> String {
     let mut out = String::new();
-    let _ = writeln!(out, "{}", r.source.path);
+    let _ = writeln!(out, "{}", escape_control(&r.source.path));
     for l in header_lines(r) {
         let _ = writeln!(out, "{l}");
     }
@@ -288,16 +296,21 @@ pub fn render_text(r: &Report) -> String {
 }
 
 fn md_escape(s: &str) -> String {
-    s.replace('|', "\\|")
+    escape_control(s).replace('|', "\\|")
 }
 
-/// Markdown for a lab notebook.
+/// Markdown for a lab notebook. Text from the log has its control characters escaped
+/// ([`crate::text`]).
 pub fn render_markdown(r: &Report) -> String {
+    escape_document(&render_markdown_raw(r)).into_owned()
+}
+
+fn render_markdown_raw(r: &Report) -> String {
     let mut out = String::new();
     let _ = writeln!(
         out,
         "# plateau report: `{}`\n",
-        r.source.path.replace('`', "'")
+        escape_control(&r.source.path).replace('`', "'")
     );
     for l in header_lines(r) {
         let _ = writeln!(out, "- {}", md_escape(&l));

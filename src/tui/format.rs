@@ -1,39 +1,10 @@
 //! Text for the screen: log text made safe to print, and numbers, durations and times in
 //! the few characters a dashboard column has.
 
-use std::borrow::Cow;
-
-/// Whether `c` must not reach the terminal as is: control characters (C0, DEL, C1) and
-/// the invisible format characters that reorder or hide text (bidirectional overrides,
-/// zero-width characters, byte-order mark).
-fn needs_escape(c: char) -> bool {
-    c.is_control()
-        || matches!(c,
-            '\u{200B}'..='\u{200F}' | '\u{202A}'..='\u{202E}' | '\u{2060}'..='\u{2069}' | '\u{FEFF}')
-}
-
 /// Text from a log (column names, units, messages, file names) with every control or
-/// invisible formatting character written as a visible escape (`\x1b`, `\u{202e}`), so
-/// that a log cannot move the cursor, change colours or reorder the screen.
-pub fn escape(text: &str) -> Cow<'_, str> {
-    if !text.chars().any(needs_escape) {
-        return Cow::Borrowed(text);
-    }
-    let mut out = String::with_capacity(text.len() + 8);
-    for c in text.chars() {
-        if needs_escape(c) {
-            let code = c as u32;
-            if code < 0x100 {
-                out.push_str(&format!("\\x{code:02x}"));
-            } else {
-                out.push_str(&format!("\\u{{{code:x}}}"));
-            }
-        } else {
-            out.push(c);
-        }
-    }
-    Cow::Owned(out)
-}
+/// invisible formatting character written as a visible escape: the one rule of
+/// [`crate::text::escape_control`], shared with every other output.
+pub use crate::text::escape_control as escape;
 
 /// A number in at most about 8 characters: 4 to 5 significant digits, exponent form for
 /// very large or very small magnitudes.
@@ -230,12 +201,13 @@ pub fn fit_left(text: &str, width: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::borrow::Cow;
 
     #[test]
     fn control_and_invisible_characters_are_escaped() {
         assert_eq!(escape("temp (K)"), "temp (K)");
         assert_eq!(escape("a\x1b[31mb"), "a\\x1b[31mb");
-        assert_eq!(escape("x\ty\r\n"), "x\\x09y\\x0d\\x0a");
+        assert_eq!(escape("x\ty\r\n"), "x\\ty\\r\\n");
         assert_eq!(escape("\u{9b}2J"), "\\x9b2J");
         assert_eq!(escape("abc\u{202e}fed"), "abc\\u{202e}fed");
         assert_eq!(escape("\x7f"), "\\x7f");

@@ -7,7 +7,8 @@
 //!   checks stalled output and glob patterns. When something changed it wakes the UI with
 //!   one [`Event::Data`] (a flag keeps a burst to one wake-up until the UI has drawn).
 //! - The **input thread** blocks on the terminal's input and forwards keys and resizes; the
-//!   **signal thread** forwards SIGTERM, SIGHUP, SIGINT and SIGQUIT.
+//!   **signal thread** forwards SIGTERM, SIGHUP, SIGINT and SIGQUIT (end), SIGTSTP (stop
+//!   with the terminal given back) and SIGCONT (redraw).
 //! - The **UI thread** (the caller) blocks on one channel. A key changes the [`App`] state
 //!   ([`App::on_key`]) and redraws at once; data redraws at most every
 //!   [`MIN_DATA_FRAME`]; the only clock is the moment a shown "time since the last row"
@@ -279,8 +280,9 @@ fn input_loop(tx: Sender<Event>) {
 }
 
 fn signal_loop(tx: Sender<Event>) -> io::Result<()> {
-    use signal_hook::consts::{SIGHUP, SIGINT, SIGQUIT, SIGTERM};
-    let mut signals = signal_hook::iterator::Signals::new([SIGTERM, SIGHUP, SIGINT, SIGQUIT])?;
+    use signal_hook::consts::{SIGCONT, SIGHUP, SIGINT, SIGQUIT, SIGTERM, SIGTSTP};
+    let mut signals =
+        signal_hook::iterator::Signals::new([SIGTERM, SIGHUP, SIGINT, SIGQUIT, SIGTSTP, SIGCONT])?;
     thread::Builder::new()
         .name("plateau-signals".into())
         .spawn(move || {
@@ -524,6 +526,20 @@ fn ui_loop(
                 } else {
                     data_due = Some(data_due.unwrap_or(last_frame + MIN_DATA_FRAME));
                 }
+            }
+            // A stop sent from outside (kill -TSTP): the terminal is given back first, as
+            // for Ctrl-Z, and set again once continued.
+            Event::Signal(libc::SIGTSTP) => {
+                guard.suspend().map_err(Error::Output)?;
+                term.clear().map_err(Error::Output)?;
+                term.backend_mut().finish_frame().map_err(Error::Output)?;
+                redraw = true;
+            }
+            // Continued (after any stop, ours or SIGSTOP's): draw the whole screen again.
+            Event::Signal(libc::SIGCONT) => {
+                term.clear().map_err(Error::Output)?;
+                term.backend_mut().finish_frame().map_err(Error::Output)?;
+                redraw = true;
             }
             Event::Signal(sig) => return Ok(128u8.saturating_add(sig as u8)),
             Event::InputGone => return Ok(0),

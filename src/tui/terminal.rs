@@ -83,10 +83,11 @@ impl TerminalGuard {
     /// Leaves the modes for a stop (Ctrl-Z) and sets them again once continued.
     pub fn suspend(&self) -> io::Result<()> {
         restore();
-        // SAFETY: raising a signal in our own process; SIGTSTP's default action stops it
-        // until SIGCONT.
+        // SAFETY: raising a signal in our own process. SIGSTOP, not SIGTSTP: SIGTSTP is
+        // caught (to come here when it is sent from outside), and the kernel drops its
+        // default stop in an orphaned process group; SIGSTOP always stops until SIGCONT.
         unsafe {
-            libc::raise(libc::SIGTSTP);
+            libc::raise(libc::SIGSTOP);
         }
         reenter()
     }

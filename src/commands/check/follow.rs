@@ -9,6 +9,8 @@
 //! - standard input ended (when reading `-`), or
 //! - with `--jobs`, the scheduler says none of the user's jobs is left to run (none
 //!   pending, running, suspended or ending) and every run has read its log to the end,
+//! - the user pressed Ctrl-C (SIGINT), or SIGTERM or SIGHUP arrived (a second one of
+//!   these ends at once, as usual),
 //!
 //! and then the remaining rows are judged as a finished file would be. The exit code is the
 //! same as without `--follow`.
@@ -26,6 +28,7 @@
 
 use std::io::Write;
 use std::path::PathBuf;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc::RecvTimeoutError;
 use std::sync::Arc;
 use std::time::Duration;
@@ -64,7 +67,8 @@ fn emit_new(
 /// Tells the user once that older rows are folded (standard error).
 fn tell_folding(run: &mut LiveRun) {
     if let Some(line) = run.take_folding_note() {
-        eprintln!("{}: {line}", run_name(run));
+        let text = format!("{}: {line}", run_name(run));
+        eprintln!("{}", crate::text::escape_control(&text));
     }
 }
 
@@ -74,6 +78,20 @@ fn run_name(run: &LiveRun) -> String {
         Some(job) => format!("{} (job {})", run.spec().label, job),
         None => run.spec().label.clone(),
     }
+}
+
+/// SIGINT, SIGTERM and SIGHUP end the watch with its summary (the flag is set); a second
+/// one ends the process at once (exit code 128 + the signal), as the user expects of a
+/// second Ctrl-C.
+fn end_on_signals() -> std::io::Result<Arc<AtomicBool>> {
+    use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};
+    let flag = Arc::new(AtomicBool::new(false));
+    for sig in [SIGINT, SIGTERM, SIGHUP] {
+        // Order matters: the second signal finds the flag set and exits.
+        signal_hook::flag::register_conditional_shutdown(sig, 128 + sig, Arc::clone(&flag))?;
+        signal_hook::flag::register(sig, Arc::clone(&flag))?;
+    }
+    Ok(flag)
 }
 
 /// Runs `plateau check --follow`.
@@ -127,13 +145,15 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         .any(|r| r.spec().source == RunSource::Stdin);
     let mut emitted = vec![0usize; live.runs().len()];
     let mut errors = false;
+    let interrupted = end_on_signals().map_err(Error::Output)?;
     loop {
         let now = live::now_seconds();
         match rx.recv_timeout(TICK) {
             Ok((source, event)) => {
                 if let Some((_, Happened::Error { path, message })) = live.apply(source, event, now)
                 {
-                    eprintln!("plateau: {}: {message}", path.display());
+                    let text = format!("{}: {message}", path.display());
+                    eprintln!("plateau: {}", crate::text::escape_control(&text));
                     errors = true;
                 }
             }
@@ -167,7 +187,8 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         if jobs_over {
             eprintln!("plateau: none of your jobs is left to run");
         }
-        if all_reached || pid_gone || input_over || jobs_over {
+        if all_reached || pid_gone || input_over || jobs_over || interrupted.load(Ordering::SeqCst)
+        {
             break;
         }
     }
@@ -194,7 +215,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         if let Some(status) = status {
             eprintln!(
                 "{}: {} ({} rows, {} alerts, {failing} at or above {})",
-                run_name(run),
+                crate::text::escape_control(&run_name(run)),
                 status,
                 run.rows_seen(),
                 run.alerts().len(),

@@ -99,13 +99,22 @@ pub fn split_command(text: &str, option: &str) -> Result<Vec<String>, String> {
     Ok(words)
 }
 
-/// The environment variables an alert is passed in; `job` is the id of the batch job
-/// whose log raised it (`PLATEAU_ALERT_JOB`, empty otherwise).
+/// The environment variables an alert is passed in: each value one line, with control
+/// characters from the log escaped as everywhere else ([`crate::text::escape_control`]),
+/// so that a hook writing them to a one-line format or a terminal stays safe. `job` is the
+/// id of the batch job whose log raised it (`PLATEAU_ALERT_JOB`, empty otherwise).
 pub fn alert_environment(
     alert: &Alert,
     file: &str,
     job: Option<&str>,
 ) -> Vec<(&'static str, String)> {
+    raw_environment(alert, file, job)
+        .into_iter()
+        .map(|(k, v)| (k, crate::text::escape_control(&v).into_owned()))
+        .collect()
+}
+
+fn raw_environment(alert: &Alert, file: &str, job: Option<&str>) -> Vec<(&'static str, String)> {
     let num = |v: Option<f64>| {
         v.map(|x| {
             crate::report::number::non_finite_text(x)
@@ -353,6 +362,27 @@ mod tests {
         let env = alert_environment(&a, "run.log", None);
         let get = |k: &str| env.iter().find(|(n, _)| *n == k).map(|(_, v)| v.clone());
         assert_eq!(get("PLATEAU_ALERT_JOB").as_deref(), Some(""));
+    }
+
+    #[test]
+    fn environment_values_are_one_line_and_inert() {
+        let mut a = Alert::new(AlertKind::Spike, Severity::Warning, "a\nb\r\u{1b}[2J");
+        a.column = Some("t\u{1b}]0;x\u{7}".into());
+        a.unit = Some("K\n".into());
+        let env = alert_environment(&a, "dir\nrun.log", None);
+        for (k, v) in &env {
+            assert!(!v.chars().any(crate::text::needs_escape), "{k}={v:?}");
+        }
+        let get = |k: &str| env.iter().find(|(n, _)| *n == k).map(|(_, v)| v.clone());
+        assert_eq!(
+            get("PLATEAU_ALERT_MESSAGE").as_deref(),
+            Some("a\\nb\\r\\x1b[2J")
+        );
+        assert_eq!(
+            get("PLATEAU_ALERT_COLUMN").as_deref(),
+            Some("t\\x1b]0;x\\x07")
+        );
+        assert_eq!(get("PLATEAU_ALERT_FILE").as_deref(), Some("dir\\nrun.log"));
     }
 
     #[test]
