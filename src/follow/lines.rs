@@ -109,7 +109,7 @@ impl LineSplitter {
                 end => {
                     let (head, tail) = chunk.split_at(end.min(chunk.len()));
                     let lines = endings::count_lines(head);
-                    self.skip_lf = head.last() == Some(&b'\r');
+                    self.skip_lf = tail.is_empty() && head.last() == Some(&b'\r');
                     let mut bytes = std::mem::take(&mut self.partial);
                     bytes.extend_from_slice(head);
                     out.push(Piece::Lines {

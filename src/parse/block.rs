@@ -224,7 +224,7 @@ fn classify(
     for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
-                if !candidate(rest, line, true, options, out) && !meta(trim(rest), line, out) {
+                if !candidate(rest, line, true, options, out) && !meta(trim(rest), line, options, out) {
                     out.items.push(Item::Comment { line });
                 }
                 return;
@@ -232,7 +232,7 @@ fn classify(
         }
     }
     if let Some(records) = &options.records {
-        if !record_row(t, line, records, out) && !candidate(t, line, false, options, out) && !meta(t, line, out) {
+        if !record_row(t, line, records, out) && !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
             out.items.push(Item::Text { line });
         }
         return;
@@ -261,7 +261,7 @@ fn classify(
             (tagged, rest)
         };
         if !tagged {
-            if !candidate(t, line, false, options, out) && !meta(t, line, out) {
+            if !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
                 out.items.push(Item::Text { line });
             }
             return;
@@ -289,7 +289,7 @@ fn classify(
     match data(t, line, options, out) {
         DataOutcome::Done => {}
         DataOutcome::NotData => {
-            if !candidate(t, line, false, options, out) && !meta(t, line, out) {
+            if !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
                 out.items.push(Item::Text { line });
             }
         }
@@ -301,8 +301,7 @@ fn classify(
 pub(crate) fn record_fields(t: &[u8], kind: RecordKind, mut f: impl FnMut(&[u8], f64)) {
     match kind {
         RecordKind::Json => {
-            let Ok(map) = serde_json::from_slice::<serde_json::Map<String, serde_json::Value>>(t)
-            else {
+            let Ok(Ordered(map)) = serde_json::from_slice::<Ordered>(t) else {
                 return;
             };
             for (k, v) in &map {
@@ -359,6 +358,29 @@ pub(crate) fn record_fields(t: &[u8], kind: RecordKind, mut f: impl FnMut(&[u8],
     }
 }
 
+/// A JSON object's entries in the order written.
+struct Ordered(Vec<(String, serde_json::Value)>);
+
+impl<'de> serde::Deserialize<'de> for Ordered {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Ordered, D::Error> {
+        struct Entries;
+        impl<'de> serde::de::Visitor<'de> for Entries {
+            type Value = Ordered;
+            fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str("a JSON object")
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(self, mut m: A) -> Result<Ordered, A::Error> {
+                let mut out = Vec::new();
+                while let Some(entry) = m.next_entry::<String, serde_json::Value>()? {
+                    out.push(entry);
+                }
+                Ok(Ordered(out))
+            }
+        }
+        d.deserialize_map(Entries)
+    }
+}
+
 fn json_number(v: &serde_json::Value) -> Option<f64> {
     match v {
         serde_json::Value::Number(n) => n.as_f64(),
@@ -401,8 +423,9 @@ fn record_row(t: &[u8], line: u64, records: &Records, out: &mut BlockResult) -> 
 }
 
 /// Records `t` as a preamble line if it reads as `key = value` or `key: value`.
-fn meta(t: &[u8], line: u64, out: &mut BlockResult) -> bool {
-    let Some((key, value)) = key_value(t) else {
+fn meta(t: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) -> bool {
+    let sep = options.delimiter.for_data(t).separator();
+    let Some((key, value)) = key_value(t, sep) else {
         return false;
     };
     let start = out.text.len();
@@ -599,13 +622,9 @@ fn candidate(
     if columns.is_none() && wide.is_none() {
         return false;
     }
-    // `key = value` and `title: water box` are preamble lines, not headers.
-    if key_value(text).is_some()
-        && (memchr::memchr(b'=', text).is_some()
-            || !header_names(text, delim)
-                .iter()
-                .any(|n| crate::mapping::guess_role(&n.name).is_some()))
-    {
+    // `key = value` and `title: water box` are preamble lines, not headers (a header
+    // behind a label was taken above).
+    if key_value(text, delim.separator()).is_some() {
         return false;
     }
     push_candidate(

@@ -693,8 +693,10 @@ pub fn after_label(t: &[u8]) -> Option<&[u8]> {
 
 /// A preamble line `key = value` or `key: value`: the key and the value, trimmed. The key
 /// is one to four words starting with a letter; the value is not empty.
-pub fn key_value(t: &[u8]) -> Option<(&[u8], &[u8])> {
-    let at = t.iter().position(|&b| b == b'=' || b == b':')?;
+/// A character that is the delimiter (`sep`) marks no key.
+pub fn key_value(t: &[u8], sep: Option<char>) -> Option<(&[u8], &[u8])> {
+    let marks = |b: u8| (b == b'=' || b == b':') && sep != Some(char::from(b));
+    let at = t.iter().position(|&b| marks(b))?;
     let key = trim(t.get(..at)?);
     let mut value = t.get(at + 1..)?;
     if t.get(at) == Some(&b':') {

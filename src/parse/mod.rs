@@ -277,7 +277,7 @@ impl LogParser {
                 Some(i) => {
                     let (head, rest) = chunk.split_at(i);
                     chunk = rest;
-                    self.skip_lf = head.last() == Some(&b'\r');
+                    self.skip_lf = rest.is_empty() && head.last() == Some(&b'\r');
                     if self.pending_overlong {
                         self.pending_overlong = false;
                         self.pending.clear();
@@ -299,7 +299,7 @@ impl LogParser {
             0 => self.hold(chunk),
             i => {
                 let (complete, rest) = chunk.split_at(i);
-                self.skip_lf = complete.last() == Some(&b'\r');
+                self.skip_lf = rest.is_empty() && complete.last() == Some(&b'\r');
                 self.parse_and_apply(complete);
                 self.hold(rest);
             }
