@@ -224,7 +224,7 @@ fn classify(
     for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
-                if !candidate(rest, line, true, options, out) && !meta(trim(rest), line, options, out) {
+                if !candidate(rest, line, true, options, out) {
                     out.items.push(Item::Comment { line });
                 }
                 return;

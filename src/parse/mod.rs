@@ -91,6 +91,9 @@ pub use block::{parse_block, parse_block_into, BlockResult};
 use block::{BlockSkip, Item, MAX_LINE};
 pub use layout::{Delimiter, DelimiterChoice, HeaderName};
 
+/// Fewer rows than this in a finished segment tell nothing about counters.
+const MIN_COUNTER_ROWS: usize = 5;
+
 /// Comment prefixes used unless `--comment` is given.
 pub const DEFAULT_COMMENT_PREFIXES: [&str; 6] = ["#", "!", ";", "@", "%", "//"];
 
@@ -326,12 +329,12 @@ impl LogParser {
     }
 
     /// Ends the input: a held-back partial line is ignored and recorded; segments too short
-    /// to have had their counters looked for (fewer than [`mapping::COUNTER_ROWS`] rows) are
-    /// looked at now.
+    /// to have had their counters looked for (fewer than [`mapping::COUNTER_ROWS`] rows, at
+    /// least five) are looked at now.
     pub fn finish(&mut self) {
         for (i, seg) in self.table.segments.iter_mut().enumerate() {
             if let Some(done) = self.counters_done.get_mut(i) {
-                if !*done && seg.rows() >= 3 {
+                if !*done && seg.rows() >= MIN_COUNTER_ROWS {
                     *done = true;
                     find_counters(seg);
                 }
