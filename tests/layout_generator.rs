@@ -254,7 +254,7 @@ fn layout_strategy() -> impl Strategy<Value = Layout> {
                 step.style = UnitStyle::None;
                 cols.push(step);
                 if let Some(mut t) = time {
-                    if DATA_ONLY.contains(&t.name.as_str()) {
+                    if DATA_ONLY.contains(&t.name.to_lowercase().as_str()) {
                         t.unit = None;
                         t.style = UnitStyle::None;
                     }
@@ -532,7 +532,7 @@ fn write(l: &Layout) -> Written {
                     format!("{:.4}", (r as f64 * dt) / scale)
                 }
                 role => {
-                    let base = match role {
+                    let base: f64 = match role {
                         Role::Temperature => 300.0,
                         Role::Pressure => 1.0,
                         Role::Volume => 27.0,

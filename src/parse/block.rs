@@ -212,6 +212,8 @@ fn classify(
         raw = raw.strip_prefix(BOM).unwrap_or(raw);
     }
     let t = trim(raw);
+    // Without spaces but with its tabs, for a tab-separated units line.
+    let keep = trim_spaces(raw);
     let Some(&first) = t.first() else {
         out.items.push(Item::Blank { line });
         return;
@@ -224,7 +226,8 @@ fn classify(
     for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
-                if !candidate(rest, line, true, options, out) {
+                let kept = keep.strip_prefix(prefix.as_bytes()).map(trim_spaces);
+                if !candidate(rest, kept, line, true, options, out) {
                     out.items.push(Item::Comment { line });
                 }
                 return;
@@ -232,7 +235,7 @@ fn classify(
         }
     }
     if let Some(records) = &options.records {
-        if !record_row(t, line, records, out) && !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
+        if !record_row(t, line, records, out) && !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
             out.items.push(Item::Text { line });
         }
         return;
@@ -261,11 +264,18 @@ fn classify(
             (tagged, rest)
         };
         if !tagged {
-            if !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
                 out.items.push(Item::Text { line });
             }
             return;
         }
+        // The same with its tabs (a tab-separated units line behind the tag): one tab after
+        // the tag separates it from the first cell.
+        let kept = keep
+            .get(t.len() - rest.len()..)
+            .filter(|_| keep.len() >= t.len() && keep.starts_with(t.get(..t.len() - rest.len()).unwrap_or_default()))
+            .map(|r| r.strip_prefix(b":").unwrap_or(r))
+            .map(|r| if glued { r } else { r.strip_prefix(b"\t").unwrap_or(r) });
         let rest = trim(rest);
         let rest = rest.strip_prefix(b":").unwrap_or(rest);
         let rest = rest.strip_prefix(b",").unwrap_or(rest);
@@ -276,7 +286,7 @@ fn classify(
         match data(rest, line, options, out) {
             DataOutcome::Done => {}
             DataOutcome::NotData => {
-                if !candidate(rest, line, false, options, out) {
+                if !candidate(rest, kept, line, false, options, out) {
                     out.items.push(Item::Skipped {
                         line,
                         why: BlockSkip::TaggedNotData,
@@ -289,7 +299,7 @@ fn classify(
     match data(t, line, options, out) {
         DataOutcome::Done => {}
         DataOutcome::NotData => {
-            if !candidate(t, line, false, options, out) && !meta(t, line, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
                 out.items.push(Item::Text { line });
             }
         }
@@ -333,11 +343,15 @@ pub(crate) fn record_fields(t: &[u8], kind: RecordKind, mut f: impl FnMut(&[u8],
                     i += 1;
                 }
                 let name = t.get(start..i).unwrap_or_default();
+                if name.is_empty() {
+                    i += 1; // a lone `=`
+                    continue;
+                }
                 let mut j = i;
                 while t.get(j).is_some_and(|&b| is_space(b)) {
                     j += 1;
                 }
-                if t.get(j) != Some(&b'=') || name.is_empty() {
+                if t.get(j) != Some(&b'=') {
                     continue; // a word that is not a pair (a tag, free text)
                 }
                 j += 1;
@@ -420,6 +434,13 @@ fn record_row(t: &[u8], line: u64, records: &Records, out: &mut BlockResult) -> 
         overflows: 0,
     });
     true
+}
+
+/// `s` without spaces (only) at both ends.
+fn trim_spaces(s: &[u8]) -> &[u8] {
+    let a = s.iter().position(|&b| b != b' ').unwrap_or(s.len());
+    let b = s.iter().rposition(|&b| b != b' ').map_or(a, |b| b + 1);
+    s.get(a..b).unwrap_or_default()
 }
 
 /// Records `t` as a preamble line if it reads as `key = value` or `key: value`.
@@ -590,18 +611,23 @@ fn take(out: &mut BlockResult, parsed: Field, index: u32) -> bool {
 /// line.
 fn candidate(
     text: &[u8],
+    keep: Option<&[u8]>,
     line: u64,
     commented: bool,
     options: &ParseOptions,
     out: &mut BlockResult,
 ) -> bool {
     let text = super::layout::trim(text);
-    let delim = options.delimiter.for_header(text);
-    if let Some(cells) = units_line(text, delim) {
-        push_candidate(text, line, (cells.len(), 0), delim, (commented, true), out);
+    // A units line keeps its tabs at both ends (empty cells of a tab-separated table).
+    let spaced = keep
+        .filter(|k| options.delimiter.for_header(k) == Delimiter::Tab)
+        .unwrap_or(text);
+    let delim = options.delimiter.for_header(spaced);
+    if let Some(cells) = units_line(spaced, delim) {
+        push_candidate(spaced, line, (cells.len(), 0), delim, (commented, true), out);
         return true;
     }
-    if let Some(rest) = after_label(text) {
+    if let Some(rest) = after_label(text).filter(|_| delim.separator() != Some(':')) {
         let d = options.delimiter.for_header(rest);
         if let Some(columns) = header_column_count(rest, d) {
             let named = header_names(rest, d)

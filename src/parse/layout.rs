@@ -609,14 +609,15 @@ pub fn is_rule_line(t: &[u8]) -> bool {
     marks > 0
 }
 
-/// Splits a units line into cells: on the separator (empty cells kept) or on whitespace
-/// outside brackets (`[kJ mol-1]` is one cell).
-fn unit_cells(line: &str, delim: Delimiter) -> Vec<String> {
+/// Splits a units line into cells: on the separator (empty cells kept; with `outer`, one
+/// separator at each end is decoration) or on whitespace outside brackets (`[kJ mol-1]` is
+/// one cell).
+fn unit_cells(line: &str, delim: Delimiter, (lead, trail): (bool, bool)) -> Vec<String> {
     match delim.separator() {
         Some(c) => {
-            let t = line.trim();
-            let t = t.strip_prefix(c).unwrap_or(t);
-            let t = t.strip_suffix(c).unwrap_or(t);
+            let t = line.trim_matches(|x: char| x == ' ' || (x.is_whitespace() && x != c));
+            let t = if lead { t.strip_prefix(c).unwrap_or(t) } else { t };
+            let t = if trail { t.strip_suffix(c).unwrap_or(t) } else { t };
             t.split(c).map(|p| p.trim().to_string()).collect()
         }
         None => {
@@ -648,10 +649,25 @@ fn unit_cells(line: &str, delim: Delimiter) -> Vec<String> {
 /// If `line` is a units line (the line under a header that gives each column's unit:
 /// `[K] [bar]`, `(K) (bar)`, bare `K bar`, an empty cell or `-` for a dimensionless
 /// column), the unit of each cell (`None`: no unit). Every cell must be bracketed, a unit
-/// plateau knows, or empty, and at least one must be bracketed or known.
+/// plateau knows, or empty, and at least one must be bracketed or known. With a separator,
+/// one at each end is read as decoration (`| [K] | [bar] |`); see [`units_fit`] for the
+/// other readings.
 pub fn units_line(line: &[u8], delim: Delimiter) -> Option<Vec<Option<String>>> {
+    units_cells(line, delim, (true, true))
+}
+
+/// A units line read so that it has `fields` cells: a separator at an end is decoration or
+/// the edge of an empty cell (`;[K];` may have three cells), whichever gives the count.
+pub fn units_fit(line: &[u8], delim: Delimiter, fields: usize) -> Option<Vec<Option<String>>> {
+    [(true, true), (false, false), (false, true), (true, false)]
+        .into_iter()
+        .filter_map(|ends| units_cells(line, delim, ends))
+        .find(|cells| cells.len() == fields)
+}
+
+fn units_cells(line: &[u8], delim: Delimiter, ends: (bool, bool)) -> Option<Vec<Option<String>>> {
     let text = decode_text(line);
-    let cells = unit_cells(&text, delim);
+    let cells = unit_cells(&text, delim, ends);
     let mut strong = 0usize;
     let mut out = Vec::with_capacity(cells.len());
     for cell in &cells {

@@ -533,7 +533,7 @@ impl LogParser {
             .iter()
             .enumerate()
             .skip(ci + 1)
-            .find(|(_, c)| c.units && c.columns == fields)
+            .find(|(_, c)| c.units && layout::units_fit(&c.text, c.delim, fields).is_some())
             .map(|(i, _)| i);
         let last = self.candidates.len().saturating_sub(1);
         let newest = (ci == last || ui == Some(last)) && self.adjacent;
@@ -545,7 +545,7 @@ impl LogParser {
         };
         let (line, delim, commented) = (cand.line, cand.delim, cand.commented);
         let units = ui.and_then(|i| self.candidates.get(i)).and_then(|u| {
-            layout::units_line(&u.text, u.delim).map(|cells| (cells, u.commented))
+            layout::units_fit(&u.text, u.delim, fields).map(|cells| (cells, u.commented))
         });
         if let Some((cells, _)) = &units {
             for (name, unit) in names.iter_mut().zip(cells) {

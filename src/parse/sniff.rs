@@ -120,11 +120,11 @@ fn tag_word(t: &[u8]) -> Option<&[u8]> {
         return None;
     }
     let rest = t.get(end..)?;
-    let rest = rest.strip_prefix(b":").unwrap_or(rest);
     // The word must end where the numbers' separators begin (`DATA 1 2`, `DATA;1;2`).
     if rest.first().is_some_and(u8::is_ascii_alphanumeric) {
         return None;
     }
+    let rest = rest.strip_prefix(b":").unwrap_or(rest);
     (numeric_runs(rest)? >= 2).then_some(word)
 }
 
