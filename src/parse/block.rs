@@ -277,11 +277,15 @@ fn classify(
             .map(|r| r.strip_prefix(b":").unwrap_or(r))
             .map(|r| if glued { r } else { r.strip_prefix(b"\t").unwrap_or(r) });
         let rest = trim(rest);
-        let rest = rest.strip_prefix(b":").unwrap_or(rest);
+        let rest = if sep_first == Some(b':') {
+            rest
+        } else {
+            rest.strip_prefix(b":").unwrap_or(rest)
+        };
         let rest = rest.strip_prefix(b",").unwrap_or(rest);
         let rest = match &sep {
-            Some(s) => rest.strip_prefix(s.bytes()).unwrap_or(rest),
-            None => rest,
+            Some(s) if !glued => rest.strip_prefix(s.bytes()).unwrap_or(rest),
+            _ => rest,
         };
         match data(rest, line, options, out) {
             DataOutcome::Done => {}
