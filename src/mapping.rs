@@ -387,7 +387,10 @@ pub fn name_role(name: &str) -> Option<(Role, Option<Unit>)> {
         if !matches!(c, '_' | '/' | '-' | ' ' | '.') {
             continue;
         }
-        let base = name.get(..pos).unwrap_or("").trim_end_matches(['_', '/', '-', ' ', '.']);
+        let base = name
+            .get(..pos)
+            .unwrap_or("")
+            .trim_end_matches(['_', '/', '-', ' ', '.']);
         let suffix = name.get(pos + c.len_utf8()..).unwrap_or("");
         if base.is_empty() || suffix.is_empty() {
             continue;
@@ -540,7 +543,8 @@ pub fn resolve(
         .collect();
     let named: Vec<Role> = guessed.iter().flatten().map(|g| g.0).collect();
     for (i, h) in names.iter().enumerate() {
-        if roles.get(i).copied().flatten().is_some() || guessed.get(i).copied().flatten().is_some() {
+        if roles.get(i).copied().flatten().is_some() || guessed.get(i).copied().flatten().is_some()
+        {
             continue;
         }
         let Some(Ok(unit)) = h.unit.as_deref().map(Unit::parse) else {

@@ -292,7 +292,11 @@ impl ColumnsView {
                 let _ = writeln!(o, "  {}: {} = {}", m.line, m.key, m.value);
             }
             if self.metadata_lines > 10 {
-                let _ = writeln!(o, "  ... (first {} listed in --format json)", self.metadata.len());
+                let _ = writeln!(
+                    o,
+                    "  ... (first {} listed in --format json)",
+                    self.metadata.len()
+                );
             }
         }
         let _ = writeln!(o, "segments    {}", self.segments.len());
@@ -432,7 +436,11 @@ fn ambiguous(seg: &Segment) -> Vec<String> {
             continue;
         };
         if c.spec.source_unit.map(|u| u.dimension()) == Some(Dimension::Energy) {
-            let unit = c.spec.source_unit.map(|u| format!(":{u}")).unwrap_or_default();
+            let unit = c
+                .spec
+                .source_unit
+                .map(|u| format!(":{u}"))
+                .unwrap_or_default();
             out.push(format!(
                 "column {} '{}' is an energy but its name does not say which: add --map \
                  potential={}{unit} (or kinetic, total, conserved)",
@@ -487,7 +495,11 @@ fn hints(settings: &Settings, table: &RunTable) -> Vec<String> {
         .count();
     if rows == 0 || not_numbers * 2 > rows {
         if let Some((d, n)) = guess
-            .and_then(|g| g.scores.iter().find(|(d, n)| *n > 0 && !matches!(d, Delimiter::Whitespace)))
+            .and_then(|g| {
+                g.scores
+                    .iter()
+                    .find(|(d, n)| *n > 0 && !matches!(d, Delimiter::Whitespace))
+            })
             .filter(|_| settings.parse.delimiter == DelimiterChoice::Auto)
         {
             out.push(format!(

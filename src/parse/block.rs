@@ -10,8 +10,8 @@
 
 use super::layout::{
     after_label, header_column_count, header_names, is_rule_line, is_space, key_value,
-    may_start_rule, trim, units_line, wide_header_column_count, Delimiter, DelimiterChoice,
-    Fields, Sep, BOM,
+    may_start_rule, trim, units_line, wide_header_column_count, Delimiter, DelimiterChoice, Fields,
+    Sep, BOM,
 };
 use super::number::{parse_field, parse_plain, Field};
 use super::{ParseOptions, RecordKind, Records};
@@ -222,7 +222,10 @@ fn classify(
         out.items.push(Item::Rule { line });
         return;
     }
-    let maybe_comment = comment_firsts.get(usize::from(first)).copied().unwrap_or(false);
+    let maybe_comment = comment_firsts
+        .get(usize::from(first))
+        .copied()
+        .unwrap_or(false);
     for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
@@ -235,7 +238,10 @@ fn classify(
         }
     }
     if let Some(records) = &options.records {
-        if !record_row(t, line, records, out) && !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
+        if !record_row(t, line, records, out)
+            && !candidate(t, Some(keep), line, false, options, out)
+            && !meta(t, line, options, out)
+        {
             out.items.push(Item::Text { line });
         }
         return;
@@ -264,7 +270,8 @@ fn classify(
             (tagged, rest)
         };
         if !tagged {
-            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out)
+            {
                 out.items.push(Item::Text { line });
             }
             return;
@@ -273,9 +280,18 @@ fn classify(
         // the tag separates it from the first cell.
         let kept = keep
             .get(t.len() - rest.len()..)
-            .filter(|_| keep.len() >= t.len() && keep.starts_with(t.get(..t.len() - rest.len()).unwrap_or_default()))
+            .filter(|_| {
+                keep.len() >= t.len()
+                    && keep.starts_with(t.get(..t.len() - rest.len()).unwrap_or_default())
+            })
             .map(|r| r.strip_prefix(b":").unwrap_or(r))
-            .map(|r| if glued { r } else { r.strip_prefix(b"\t").unwrap_or(r) });
+            .map(|r| {
+                if glued {
+                    r
+                } else {
+                    r.strip_prefix(b"\t").unwrap_or(r)
+                }
+            });
         let rest = trim(rest);
         let rest = if sep_first == Some(b':') {
             rest
@@ -303,7 +319,8 @@ fn classify(
     match data(t, line, options, out) {
         DataOutcome::Done => {}
         DataOutcome::NotData => {
-            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out)
+            {
                 out.items.push(Item::Text { line });
             }
         }
@@ -387,7 +404,10 @@ impl<'de> serde::Deserialize<'de> for Ordered {
             fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
                 f.write_str("a JSON object")
             }
-            fn visit_map<A: serde::de::MapAccess<'de>>(self, mut m: A) -> Result<Ordered, A::Error> {
+            fn visit_map<A: serde::de::MapAccess<'de>>(
+                self,
+                mut m: A,
+            ) -> Result<Ordered, A::Error> {
                 let mut out = Vec::new();
                 while let Some(entry) = m.next_entry::<String, serde_json::Value>()? {
                     out.push(entry);
@@ -628,7 +648,14 @@ fn candidate(
         .unwrap_or(text);
     let delim = options.delimiter.for_header(spaced);
     if let Some(cells) = units_line(spaced, delim) {
-        push_candidate(spaced, line, (cells.len(), 0), delim, (commented, true), out);
+        push_candidate(
+            spaced,
+            line,
+            (cells.len(), 0),
+            delim,
+            (commented, true),
+            out,
+        );
         return true;
     }
     if let Some(rest) = after_label(text).filter(|_| delim.separator() != Some(':')) {

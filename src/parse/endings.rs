@@ -98,7 +98,10 @@ mod tests {
 
     #[test]
     fn every_ending_ends_one_line() {
-        assert_eq!(lines(b"a\nb\r\nc\rd\r\r\ne\n"), ["a", "b", "c", "d", "", "e"]);
+        assert_eq!(
+            lines(b"a\nb\r\nc\rd\r\r\ne\n"),
+            ["a", "b", "c", "d", "", "e"]
+        );
         assert_eq!(count_lines(b"a\nb\r\nc\rd\r\r\ne\n"), 6);
         assert_eq!(complete_len(b"a\rb"), 2);
         assert_eq!(complete_len(b"a\rb\r"), 4);

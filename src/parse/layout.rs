@@ -371,7 +371,11 @@ impl HeaderName {
         if let Some(open) = open {
             if let Some(pos) = t.rfind(open) {
                 // `E_pot/(kJ/mol)`, `Temp_(K)`: the joining mark goes with the unit.
-                let name = t.get(..pos).unwrap_or("").trim().trim_end_matches(['/', '_']);
+                let name = t
+                    .get(..pos)
+                    .unwrap_or("")
+                    .trim()
+                    .trim_end_matches(['/', '_']);
                 let name = name.trim();
                 let unit = t.get(pos + 1..t.len() - 1).unwrap_or("").trim();
                 if !name.is_empty() && !unit.is_empty() {
@@ -616,8 +620,16 @@ fn unit_cells(line: &str, delim: Delimiter, (lead, trail): (bool, bool)) -> Vec<
     match delim.separator() {
         Some(c) => {
             let t = line.trim_matches(|x: char| x == ' ' || (x.is_whitespace() && x != c));
-            let t = if lead { t.strip_prefix(c).unwrap_or(t) } else { t };
-            let t = if trail { t.strip_suffix(c).unwrap_or(t) } else { t };
+            let t = if lead {
+                t.strip_prefix(c).unwrap_or(t)
+            } else {
+                t
+            };
+            let t = if trail {
+                t.strip_suffix(c).unwrap_or(t)
+            } else {
+                t
+            };
             t.split(c).map(|p| p.trim().to_string()).collect()
         }
         None => {
@@ -717,7 +729,9 @@ pub fn key_value(t: &[u8], sep: Option<char>) -> Option<(&[u8], &[u8])> {
     let mut value = t.get(at + 1..)?;
     if t.get(at) == Some(&b':') {
         // `12:30:00` is a time, not a key and value.
-        if key.last().is_some_and(u8::is_ascii_digit) && value.first().is_some_and(u8::is_ascii_digit) {
+        if key.last().is_some_and(u8::is_ascii_digit)
+            && value.first().is_some_and(u8::is_ascii_digit)
+        {
             return None;
         }
         if value.first() == Some(&b'=') {
@@ -725,12 +739,17 @@ pub fn key_value(t: &[u8], sep: Option<char>) -> Option<(&[u8], &[u8])> {
         }
     }
     let value = trim(value);
-    let words = key.split(|&b| is_space(b)).filter(|w| !w.is_empty()).count();
+    let words = key
+        .split(|&b| is_space(b))
+        .filter(|w| !w.is_empty())
+        .count();
     let ok = key.first().is_some_and(u8::is_ascii_alphabetic)
         && key.len() <= 48
         && (1..=4).contains(&words)
         && key.iter().all(|&b| {
-            b.is_ascii_alphanumeric() || is_space(b) || matches!(b, b'_' | b'-' | b'.' | b'(' | b')' | b'[' | b']' | b'/')
+            b.is_ascii_alphanumeric()
+                || is_space(b)
+                || matches!(b, b'_' | b'-' | b'.' | b'(' | b')' | b'[' | b']' | b'/')
         })
         && !value.is_empty();
     ok.then_some((key, value))

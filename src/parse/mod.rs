@@ -786,7 +786,10 @@ fn find_counters(seg: &mut Segment) {
             .columns
             .iter()
             .map(|c| {
-                let role = c.spec.role.or(c.spec.field.is_none().then_some(mapping::Role::Time));
+                let role = c
+                    .spec
+                    .role
+                    .or(c.spec.field.is_none().then_some(mapping::Role::Time));
                 (role, c.values.get(..rows).unwrap_or_default())
             })
             .collect();
@@ -808,8 +811,14 @@ fn find_counters(seg: &mut Segment) {
         .and_then(|o| seg.columns.get(o))
         .is_some_and(|c| c.spec.role == Some(mapping::Role::Step));
     if !named_step {
-        let step = found.iter().find(|(_, r)| *r == mapping::Role::Step).map(|(i, _)| *i);
-        let time = found.iter().find(|(_, r)| *r == mapping::Role::Time).map(|(i, _)| *i);
+        let step = found
+            .iter()
+            .find(|(_, r)| *r == mapping::Role::Step)
+            .map(|(i, _)| *i);
+        let time = found
+            .iter()
+            .find(|(_, r)| *r == mapping::Role::Time)
+            .map(|(i, _)| *i);
         if let Some(o) = step.or(seg.order_column.is_none().then_some(time).flatten()) {
             seg.order_column = Some(o);
         }
@@ -987,8 +996,13 @@ fn source_value(col: &Column, values: &[f64], derived: Option<(usize, f64)>) -> 
 
 /// Parses a whole input held in memory after reading its layout from its start (the first
 /// 256 KiB, as the commands do for a file: [`sniff::sniff_layout`]); the guess is returned.
-pub fn parse_bytes_guessing(bytes: &[u8], mut options: ParseOptions) -> (RunTable, sniff::LayoutGuess) {
-    let start = bytes.get(..bytes.len().min(sniff::SNIFF_BYTES)).unwrap_or_default();
+pub fn parse_bytes_guessing(
+    bytes: &[u8],
+    mut options: ParseOptions,
+) -> (RunTable, sniff::LayoutGuess) {
+    let start = bytes
+        .get(..bytes.len().min(sniff::SNIFF_BYTES))
+        .unwrap_or_default();
     let guess = sniff::sniff_layout(start, &options);
     guess.apply(&mut options);
     (parse_bytes(bytes, options), guess)

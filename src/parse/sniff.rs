@@ -6,10 +6,10 @@
 //! outnumber the plain numeric rows, that word is the row tag. The user's `--row-tag`
 //! always wins; `plateau columns` shows a guessed tag as guessed.
 
+use super::block::record_fields;
 use super::endings;
 use super::layout::{is_rule_line, is_space, trim, Delimiter, DelimiterChoice, Fields, BOM};
 use super::number::is_numeric;
-use super::block::record_fields;
 use super::{ParseOptions, RecordKind, Records};
 
 /// How many tagged rows make a tag (fewer could be a coincidence of free text).
@@ -133,7 +133,11 @@ fn tag_word(t: &[u8]) -> Option<&[u8]> {
 fn glued_prefix(t: &[u8]) -> Option<&[u8]> {
     let end = t
         .iter()
-        .position(|b| b.is_ascii_alphanumeric() || is_space(*b) || matches!(b, b'.' | b'+' | b'-' | b'"' | b'\''))
+        .position(|b| {
+            b.is_ascii_alphanumeric()
+                || is_space(*b)
+                || matches!(b, b'.' | b'+' | b'-' | b'"' | b'\'')
+        })
         .unwrap_or(t.len());
     let p = t.get(..end).filter(|p| !p.is_empty() && p.len() <= 4)?;
     let rest = t.get(end..)?;
@@ -148,7 +152,10 @@ fn glued_prefix(t: &[u8]) -> Option<&[u8]> {
 fn separators(t: &[u8], out: &mut Vec<char>) {
     let text = String::from_utf8_lossy(t);
     for c in text.chars() {
-        if c.is_alphanumeric() || c.is_whitespace() || matches!(c, '.' | '+' | '-' | '"' | '\'' | '\u{FFFD}') {
+        if c.is_alphanumeric()
+            || c.is_whitespace()
+            || matches!(c, '.' | '+' | '-' | '"' | '\'' | '\u{FFFD}')
+        {
             continue;
         }
         if !out.contains(&c) {
@@ -196,7 +203,9 @@ fn score(payloads: &[&[u8]], d: Delimiter) -> (usize, usize) {
 /// dropping a separator at the start and at the end of a line; whitespace and the comma win
 /// ties.
 pub fn sniff_layout(start: &[u8], options: &ParseOptions) -> LayoutGuess {
-    let complete = start.get(..endings::complete_len(start)).unwrap_or_default();
+    let complete = start
+        .get(..endings::complete_len(start))
+        .unwrap_or_default();
     let mut lines: Vec<&[u8]> = Vec::new();
     endings::for_each_line(complete, |l| {
         if lines.len() < SNIFF_LINES {
@@ -258,7 +267,10 @@ pub fn sniff_layout(start: &[u8], options: &ParseOptions) -> LayoutGuess {
         let p = match &tag {
             Some(tag) => match t.strip_prefix(tag.as_bytes()) {
                 Some(rest) => {
-                    let glued = tag.bytes().last().is_some_and(|b| !b.is_ascii_alphanumeric());
+                    let glued = tag
+                        .bytes()
+                        .last()
+                        .is_some_and(|b| !b.is_ascii_alphanumeric());
                     if !glued && rest.first().is_some_and(|b| b.is_ascii_alphanumeric()) {
                         continue;
                     }
@@ -303,14 +315,14 @@ pub fn sniff_layout(start: &[u8], options: &ParseOptions) -> LayoutGuess {
         scores.push((d, lines, fields));
     }
     // Stable sort: whitespace and comma stay first among equals.
-    scores.sort_by(|a, b| b.1.cmp(&a.1));
+    scores.sort_by_key(|s| std::cmp::Reverse(s.1));
     if let Some(&(d, n, fields)) = scores.first() {
         if n > 0 {
             guess.fields = fields;
             if !matches!(d, Delimiter::Whitespace | Delimiter::Comma) {
                 guess.delimiter = Some(d);
                 let sep = d.name();
-                if options.comment_prefixes.iter().any(|p| *p == sep) {
+                if options.comment_prefixes.contains(&sep) {
                     guess.drop_comment = Some(sep);
                 }
             }
