@@ -470,7 +470,8 @@ impl Analyzer {
             }
         }
         analysis.progress = self.progress(table, &analysis, arrivals);
-        analysis.status = self.status(&analysis, ended);
+        let no_rows = table.rows() == 0 && self.rows_forgotten() == 0;
+        analysis.status = self.status(&analysis, ended, no_rows);
         analysis
     }
 
@@ -504,7 +505,7 @@ impl Analyzer {
         );
     }
 
-    fn status(&self, a: &RunAnalysis, ended: bool) -> RunStatus {
+    fn status(&self, a: &RunAnalysis, ended: bool, no_rows: bool) -> RunStatus {
         let active = self.engine.active();
         let unstable = active.iter().any(|x| {
             matches!(x.kind, AlertKind::Nonfinite | AlertKind::Runaway)
@@ -524,6 +525,7 @@ impl Analyzer {
             unstable,
             stalled,
             finished: ended,
+            no_rows,
             drifting,
             equilibrated,
             still_changing,

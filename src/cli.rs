@@ -39,6 +39,8 @@ pub enum Command {
     Export(ExportArgs),
     /// A live dashboard of one run or many: trends, equilibration, alerts, ETA.
     Watch(WatchArgs),
+    /// The dashboard on invented runs written live into a temporary folder: a first look.
+    Demo(DemoArgs),
     /// Write the log of an invented MD scenario (for examples, rehearsals and benchmarks).
     Generate(GenerateArgs),
     /// Write a finished log into a new file at a pace, to rehearse watching a live run.
@@ -316,6 +318,31 @@ pub struct WatchArgs {
     /// Folder the `w` key writes run reports into (default: the current folder).
     #[arg(long, value_name = "DIR")]
     pub report_dir: Option<PathBuf>,
+}
+
+// ---- demo -------------------------------------------------------------------------------
+
+/// Arguments of `plateau demo`.
+#[derive(Debug, Clone, Args)]
+#[command(
+    after_help = "The runs are invented and written into a temporary folder that is removed when \
+the dashboard ends (q, an error or a signal). Without --scenario: healthy, settling, heating, \
+drifting, blowing up and stalling runs at once."
+)]
+pub struct DemoArgs {
+    /// Show one scenario alone instead of the standard mix.
+    #[arg(long, value_name = "NAME", value_parser = scenario_values())]
+    pub scenario: Option<Scenario>,
+}
+
+/// The scenario names with what each shows, for help, completions and errors.
+fn scenario_values() -> impl clap::builder::TypedValueParser<Value = Scenario> {
+    use clap::builder::TypedValueParser as _;
+    let values: Vec<clap::builder::PossibleValue> = Scenario::ALL
+        .iter()
+        .map(|s| clap::builder::PossibleValue::new(s.name()).help(s.description()))
+        .collect();
+    clap::builder::PossibleValuesParser::new(values).try_map(|name: String| parse_scenario(&name))
 }
 
 // ---- generate ---------------------------------------------------------------------------

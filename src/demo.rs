@@ -27,6 +27,8 @@ use std::time::{Duration, Instant};
 
 use crate::scenario::{Emitted, LogEmitter, LogStyle, Scenario, ScenarioSpec};
 
+use examples::RunFacts;
+
 /// Hours a run that neither stalls nor blows up keeps writing before it finishes.
 const LIVE_HOURS: f64 = 4.0;
 
@@ -85,6 +87,12 @@ impl DemoRun {
         }
     }
 
+    /// What a user would tell plateau about this run (its size and targets), so that the
+    /// dashboard judges it as it would a real one.
+    pub fn facts(&self) -> RunFacts {
+        RunFacts::of(&self.spec)
+    }
+
     /// Slots (rows, and the ending after the last row) written by `elapsed` seconds after
     /// the start: the backlog at once, then one every `1/rows_per_second` seconds.
     pub fn rows_due(&self, elapsed: f64) -> u64 {
@@ -131,6 +139,14 @@ impl DemoPlan {
     /// Healthy, settling, heating, drifting, blowing up and stalling runs at once.
     pub fn standard() -> DemoPlan {
         DemoPlan::of(&STANDARD_SCENARIOS)
+    }
+
+    /// What `plateau demo` shows: the standard plan, or one run of `scenario` alone.
+    pub fn select(scenario: Option<Scenario>) -> DemoPlan {
+        match scenario {
+            Some(s) => DemoPlan::of(&[s]),
+            None => DemoPlan::standard(),
+        }
     }
 
     /// One run of each of `scenarios`.
@@ -330,6 +346,46 @@ mod tests {
         assert_eq!(stalled.spec.rows, 409);
         assert_eq!(stalled.rows_due(3.4), 410);
         assert_eq!(stalled.rows_due(1e6), 410);
+    }
+
+    #[test]
+    fn selection_is_the_standard_plan_or_one_scenario() {
+        let standard = DemoPlan::select(None);
+        assert_eq!(standard, DemoPlan::standard());
+        // Every kind of verdict is there: healthy, settling, drifting, blowing up, stalled.
+        let shows: Vec<&str> = standard.runs.iter().map(|r| r.shows).collect();
+        for kind in ["healthy", "settling", "drifting", "blowing up", "stalled"] {
+            assert!(
+                shows.iter().any(|s| s.starts_with(kind)),
+                "{kind}: {shows:?}"
+            );
+        }
+        for scenario in Scenario::ALL {
+            let plan = DemoPlan::select(Some(scenario));
+            assert_eq!(plan.runs.len(), 1);
+            assert_eq!(plan.runs[0].spec.scenario, scenario);
+            assert_eq!(plan.runs[0], DemoRun::for_scenario(scenario));
+        }
+    }
+
+    #[test]
+    fn facts_follow_the_ensemble() {
+        // Constant energy: no thermostat or barostat target.
+        let nve = DemoRun::for_scenario(Scenario::NveDrift).facts();
+        assert_eq!((nve.target_temperature, nve.target_pressure), (None, None));
+        // Heating: the thermostat's schedule, no barostat.
+        let heating = DemoRun::for_scenario(Scenario::Heating).facts();
+        assert_eq!(
+            heating.target_temperature.as_deref(),
+            Some("0ps=10K,100ps=300K")
+        );
+        assert_eq!(heating.target_pressure, None);
+        // Constant pressure: both targets; the size is the scenario's system.
+        let run = DemoRun::for_scenario(Scenario::Production);
+        let npt = run.facts();
+        assert_eq!(npt.target_temperature.as_deref(), Some("300K"));
+        assert!(npt.target_pressure.is_some());
+        assert_eq!(npt.atoms, run.spec.atoms);
     }
 
     #[test]

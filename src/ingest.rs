@@ -40,12 +40,23 @@ const IN_FLIGHT: usize = 2 * WORKERS + 2;
 
 /// Reads and parses a whole file (`-` reads standard input to its end).
 pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> {
+    read_path_observed(path, options, &mut |_, _| {})
+}
+
+/// As [`read_path`], calling `observe(bytes read so far, the file's size when known)`
+/// after every read of the input (from the reading threads; a progress line).
+pub fn read_path_observed(
+    path: &Path,
+    options: ParseOptions,
+    observe: &mut (dyn FnMut(u64, Option<u64>) + Send),
+) -> Result<RunTable, Error> {
     let read_err = |source: io::Error| Error::Read {
         path: path.to_path_buf(),
         source,
     };
     if path.as_os_str() == "-" {
-        return read_with(io::stdin(), options, BLOCK_SIZE).map_err(read_err);
+        let stdin = Observed::new(io::stdin(), None, observe);
+        return read_with(stdin, options, BLOCK_SIZE).map_err(read_err);
     }
     let file = File::open(path).map_err(read_err)?;
     let meta = file.metadata().map_err(read_err)?;
@@ -55,7 +66,40 @@ pub fn read_path(path: &Path, options: ParseOptions) -> Result<RunTable, Error> 
             "is a folder, not a log file",
         )));
     }
+    let file = Observed::new(file, Some(meta.len()), observe);
     read_blocks(file, options, BLOCK_SIZE, WORKERS, Some(meta.len())).map_err(read_err)
+}
+
+/// A reader that tells an observer how many bytes it has given so far.
+struct Observed<'a, R> {
+    inner: R,
+    read: u64,
+    total: Option<u64>,
+    observe: &'a mut (dyn FnMut(u64, Option<u64>) + Send),
+}
+
+impl<'a, R> Observed<'a, R> {
+    fn new(
+        inner: R,
+        total: Option<u64>,
+        observe: &'a mut (dyn FnMut(u64, Option<u64>) + Send),
+    ) -> Self {
+        Observed {
+            inner,
+            read: 0,
+            total,
+            observe,
+        }
+    }
+}
+
+impl<R: Read> Read for Observed<'_, R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        self.read += n as u64;
+        (self.observe)(self.read, self.total);
+        Ok(n)
+    }
 }
 
 /// Reads `reader` to its end in blocks of `block_size` bytes and parses it on two threads.

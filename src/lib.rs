@@ -18,6 +18,7 @@ pub mod ingest;
 pub mod live;
 pub mod mapping;
 pub mod parse;
+pub mod progress;
 pub mod report;
 pub mod scenario;
 pub mod scheduler;

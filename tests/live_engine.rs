@@ -10,7 +10,7 @@ use std::path::Path;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use plateau::alert::Thresholds;
+use plateau::alert::{RunStatus, Thresholds};
 use plateau::analysis::AnalysisOptions;
 use plateau::follow::{FollowOptions, FollowReceiver, SystemClock};
 use plateau::live::{self, Live, LiveOptions, LiveRun, Presence, RunId, RunSource, RunSpec};
@@ -167,6 +167,8 @@ fn a_run_fed_by_hand_needs_no_thread() {
         .active_alerts()
         .iter()
         .any(|a| a.kind == plateau::alert::AlertKind::Stalled));
+    // The status says so at once, without waiting for a row that may never come.
+    assert_eq!(run.analysis().unwrap().status, RunStatus::Stalled);
     let report = run.report().unwrap();
     assert_eq!(report.rows, 300);
 }
@@ -197,5 +199,60 @@ fn a_source_handed_over_ready_made_is_a_run_like_any_other() {
     assert_eq!(run.rows_seen(), 40);
     assert_eq!(run.feed().presence, Presence::Ended);
     assert_eq!(run.spec().label, "job 1234 md.log");
+    live.stop();
+}
+
+#[test]
+fn a_run_with_only_its_preamble_is_waiting_not_settling() {
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
+        ParseOptions::default(),
+        options().analysis,
+        2000,
+    );
+    let text = log(30);
+    let header: Vec<u8> = String::from_utf8(text.clone())
+        .unwrap()
+        .lines()
+        .take_while(|l| l.starts_with('#'))
+        .map(|l| format!("{l}\n"))
+        .collect::<String>()
+        .into_bytes();
+    assert!(!header.is_empty());
+    run.push_lines(&header, 100.0);
+    run.analyse();
+    assert_eq!(run.rows_seen(), 0);
+    assert_eq!(run.analysis().unwrap().status, RunStatus::Waiting);
+    // The first rows end the wait.
+    run.push_lines(&text[header.len()..], 101.0);
+    run.analyse();
+    assert_eq!(run.rows_seen(), 30);
+    assert_ne!(run.analysis().unwrap().status, RunStatus::Waiting);
+}
+
+#[test]
+fn runs_added_with_their_own_analysis_options_keep_them() {
+    let dir = tempfile::tempdir().unwrap();
+    let (a, b) = (dir.path().join("a.log"), dir.path().join("b.log"));
+    fs::write(&a, log(50)).unwrap();
+    fs::write(&b, log(50)).unwrap();
+    let (mut live, rx) = Live::start(options(), Arc::new(SystemClock)).unwrap();
+    let own = AnalysisOptions {
+        atoms: Some(3000),
+        ..AnalysisOptions::default()
+    };
+    let ida = live
+        .add_with_analysis(RunSpec::new(RunSource::Path(a)), own)
+        .unwrap();
+    let idb = live.add(RunSpec::new(RunSource::Path(b))).unwrap();
+    pump(&mut live, &rx, |l| {
+        [ida, idb]
+            .iter()
+            .all(|&id| l.run(id).unwrap().rows_seen() == 50)
+    });
+    let atoms = |id| live.run(id).unwrap().analysis_options().unwrap().atoms;
+    assert_eq!(atoms(ida), Some(3000));
+    assert_eq!(atoms(idb), None, "the shared options");
     live.stop();
 }

@@ -4,7 +4,7 @@
 use std::io::Write;
 
 use plateau::error::Error;
-use plateau::ingest::{read_blocks, read_path, read_with};
+use plateau::ingest::{read_blocks, read_path, read_path_observed, read_with};
 use plateau::parse::{parse_bytes, ParseOptions};
 
 /// An invented 4-column log of about 3 MB with a restart, chatter and a bad row in it.
@@ -49,6 +49,28 @@ fn file_read_on_two_threads_equals_sequential() {
     assert_eq!(s.rows(), 29_000 + 500 + 29_999);
     assert_eq!(read.skipped_count, 1);
     assert!(read.partial_line.is_some());
+}
+
+#[test]
+fn the_observer_sees_every_byte_read_in_order_and_the_same_table() {
+    let bytes = generate();
+    let mut f = tempfile::NamedTempFile::new().unwrap();
+    f.write_all(&bytes).unwrap();
+    f.flush().unwrap();
+    let mut seen: Vec<(u64, Option<u64>)> = Vec::new();
+    let read = read_path_observed(f.path(), ParseOptions::default(), &mut |n, total| {
+        seen.push((n, total));
+    })
+    .unwrap();
+    let plain = read_path(f.path(), ParseOptions::default()).unwrap();
+    assert_eq!(format!("{plain:?}"), format!("{read:?}"));
+    let size = bytes.len() as u64;
+    // Counts grow (the reading threads take turns under one lock), end at the file's size,
+    // and every call knows the size; a 3 MB file takes several reads of 1 MiB blocks.
+    assert!(seen.len() >= 3, "{seen:?}");
+    assert!(seen.windows(2).all(|w| w[0].0 <= w[1].0), "{seen:?}");
+    assert_eq!(seen.last().map(|s| s.0), Some(size));
+    assert!(seen.iter().all(|s| s.1 == Some(size)));
 }
 
 #[test]

@@ -7,13 +7,14 @@
 //!    was reached, the process given by `--pid` exited or standard input ended. A file read
 //!    whole by `report` or `check` is not "finished" by this rule (nothing says the writer
 //!    is done); its status is one of the statistical ones below.
-//! 3. `stalled` — following a live file that is not known to be over, and no row arrived
+//! 3. `waiting` — no data row yet (the file is there, its first row is not).
+//! 4. `stalled` — following a live file that is not known to be over, and no row arrived
 //!    for the stall limit (an active `stalled` alert).
-//! 4. `drifting` — an active `drift` alert (warning or critical) on the conserved energy.
-//! 5. `settling` — the run is not equilibrated yet (its equilibration is `not-yet` or
+//! 5. `drifting` — an active `drift` alert (warning or critical) on the conserved energy.
+//! 6. `settling` — the run is not equilibrated yet (its equilibration is `not-yet` or
 //!    `too-short`), or the trend test on a quantity that matters still finds a trend after
 //!    the onset.
-//! 6. `steady` — everything else: equilibrated, no drift, nothing unstable.
+//! 7. `steady` — everything else: equilibrated, no drift, nothing unstable.
 
 use std::fmt;
 
@@ -23,6 +24,7 @@ use serde::{Deserialize, Serialize};
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum RunStatus {
+    Waiting,
     Settling,
     Steady,
     Drifting,
@@ -35,6 +37,7 @@ impl RunStatus {
     /// The kebab-case name.
     pub fn name(self) -> &'static str {
         match self {
+            RunStatus::Waiting => "waiting",
             RunStatus::Settling => "settling",
             RunStatus::Steady => "steady",
             RunStatus::Drifting => "drifting",
@@ -50,6 +53,8 @@ impl RunStatus {
             RunStatus::Unstable
         } else if inputs.finished {
             RunStatus::Finished
+        } else if inputs.no_rows {
+            RunStatus::Waiting
         } else if inputs.stalled {
             RunStatus::Stalled
         } else if inputs.drifting {
@@ -77,6 +82,8 @@ pub struct StatusInputs {
     pub stalled: bool,
     /// The run is known to be over (`--until` reached, `--pid` exited, end of input).
     pub finished: bool,
+    /// No data row was read yet.
+    pub no_rows: bool,
     /// An active `drift` alert.
     pub drifting: bool,
     /// The run's equilibration has an onset.
@@ -95,6 +102,7 @@ mod tests {
             unstable: true,
             stalled: true,
             finished: true,
+            no_rows: true,
             drifting: true,
             equilibrated: false,
             still_changing: true,
@@ -107,6 +115,11 @@ mod tests {
         assert_eq!(RunStatus::decide(&s), RunStatus::Finished);
         let s = StatusInputs {
             finished: false,
+            ..s
+        };
+        assert_eq!(RunStatus::decide(&s), RunStatus::Waiting);
+        let s = StatusInputs {
+            no_rows: false,
             ..s
         };
         assert_eq!(RunStatus::decide(&s), RunStatus::Stalled);

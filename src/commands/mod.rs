@@ -7,6 +7,7 @@
 pub mod check;
 pub mod columns;
 pub mod completions;
+pub mod demo;
 pub mod export;
 pub mod generate;
 pub mod manpage;
@@ -30,6 +31,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
         Command::Check(args) => check::run(&args, out),
         Command::Export(args) => export::run(&args, out),
         Command::Watch(args) => watch::run(&args),
+        Command::Demo(args) => demo::run(&args),
         Command::Generate(args) => generate::run(&args).map(|()| 0).map_err(Error::Output),
         Command::Replay(args) => replay::run(&args, out),
         Command::Completions(args) => completions::run(&args, out),
@@ -43,7 +45,13 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
     let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
     let mut settings = Settings::resolve(input, &cwd)?;
     guess_row_tag(file, &mut settings);
-    let table = crate::ingest::read_path(file, settings.parse.clone())?;
+    let mut meter = crate::progress::Meter::stderr(&file.display().to_string());
+    let table =
+        crate::ingest::read_path_observed(file, settings.parse.clone(), &mut |read, total| {
+            meter.observe(read, total);
+        });
+    meter.finish();
+    let table = table?;
     Ok((settings, table))
 }
 

@@ -64,6 +64,51 @@ pub const EXAMPLE_LOGS: [ExampleLog; 9] = [
     },
 ];
 
+/// What a user knows about a scenario's run and tells plateau: the system's size (for the
+/// degrees of freedom) and the targets of its thermostat and barostat.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RunFacts {
+    pub atoms: u64,
+    /// Constrained bonds, when there are any.
+    pub constraints: Option<u64>,
+    /// `--target-temperature` (a value or a schedule); none at constant energy.
+    pub target_temperature: Option<String>,
+    /// `--target-pressure`; only at constant pressure.
+    pub target_pressure: Option<String>,
+}
+
+impl RunFacts {
+    /// The facts of the run `spec` generates.
+    pub fn of(spec: &ScenarioSpec) -> RunFacts {
+        let story = spec.scenario.story();
+        RunFacts {
+            atoms: spec.atoms,
+            constraints: Some(spec.constraints()).filter(|&c| c > 0),
+            target_temperature: (story.ensemble != Ensemble::Nve)
+                .then(|| spec.scenario.target_temperature()),
+            target_pressure: (story.ensemble == Ensemble::Npt)
+                .then(|| format!("{}bar", story.pressure)),
+        }
+    }
+
+    /// The facts as command-line options.
+    pub fn options(&self) -> Vec<String> {
+        let mut options = vec!["--atoms".to_string(), self.atoms.to_string()];
+        let named = [
+            ("--constraints", self.constraints.map(|c| c.to_string())),
+            ("--target-temperature", self.target_temperature.clone()),
+            ("--target-pressure", self.target_pressure.clone()),
+        ];
+        for (name, value) in named {
+            if let Some(value) = value {
+                options.push(name.to_string());
+                options.push(value);
+            }
+        }
+        options
+    }
+}
+
 /// The folder of the example logs, relative to the repository's root.
 pub const FOLDER: &str = "demo-logs";
 
@@ -81,22 +126,7 @@ impl ExampleLog {
     /// What a user tells plateau about the run: its size (for the degrees of freedom) and
     /// the targets of its thermostat and barostat.
     pub fn options(&self) -> Vec<String> {
-        let spec = self.spec();
-        let story = self.scenario.story();
-        let mut options = vec!["--atoms".to_string(), spec.atoms.to_string()];
-        if spec.constraints() > 0 {
-            options.push("--constraints".to_string());
-            options.push(spec.constraints().to_string());
-        }
-        if story.ensemble != Ensemble::Nve {
-            options.push("--target-temperature".to_string());
-            options.push(self.scenario.target_temperature());
-        }
-        if story.ensemble == Ensemble::Npt {
-            options.push("--target-pressure".to_string());
-            options.push(format!("{}bar", story.pressure));
-        }
-        options
+        RunFacts::of(&self.spec()).options()
     }
 
     /// The command that shows the story, run from the repository's root.

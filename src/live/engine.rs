@@ -139,6 +139,25 @@ impl Live {
 
     /// Follows one run. A file already followed is not followed twice (its id is returned).
     pub fn add(&mut self, spec: RunSpec) -> Result<RunId, LiveError> {
+        let analysis = self.options.analysis.clone();
+        self.add_analysed(spec, analysis)
+    }
+
+    /// As [`Live::add`], with analysis options of the run's own in place of the shared
+    /// ones (runs of different systems, targets or ensembles followed together).
+    pub fn add_with_analysis(
+        &mut self,
+        spec: RunSpec,
+        analysis: AnalysisOptions,
+    ) -> Result<RunId, LiveError> {
+        self.add_analysed(spec, Some(analysis))
+    }
+
+    fn add_analysed(
+        &mut self,
+        spec: RunSpec,
+        analysis: Option<AnalysisOptions>,
+    ) -> Result<RunId, LiveError> {
         if let RunSource::Path(p) = &spec.source {
             if let Some(run) = self.runs.iter().find(|r| r.spec().source == spec.source) {
                 return Ok(run.id());
@@ -171,7 +190,7 @@ impl Live {
             label: spec.label.clone(),
             source,
         })?;
-        Ok(self.push_run(spec, parse, source))
+        Ok(self.push_run(spec, parse, source, analysis))
     }
 
     /// Follows a run whose source is handed over ready-made (a command's output, a
@@ -190,17 +209,24 @@ impl Live {
                 source,
             })?;
         let parse = self.options.parse.clone();
-        Ok(self.push_run(spec, parse, id))
+        let analysis = self.options.analysis.clone();
+        Ok(self.push_run(spec, parse, id, analysis))
     }
 
-    fn push_run(&mut self, spec: RunSpec, parse: ParseOptions, source: SourceId) -> RunId {
+    fn push_run(
+        &mut self,
+        spec: RunSpec,
+        parse: ParseOptions,
+        source: SourceId,
+        analysis: Option<AnalysisOptions>,
+    ) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
         self.runs.push(LiveRun::new(
             id,
             spec,
             parse,
-            self.options.analysis.clone(),
+            analysis,
             self.options.keep_rows,
         ));
         id

@@ -487,6 +487,14 @@ impl LiveRun {
         }
         let changed = raised != before || a.analyzer.engine().active().len() != active_before;
         if changed {
+            // The status follows the alert now, not at the next row (which may never come).
+            let analysis = a.analyzer.update(
+                self.parser.table(),
+                self.ended,
+                Some(&self.arrivals),
+                self.ended,
+            );
+            a.latest = Some(analysis);
             self.version += 1;
         }
         changed

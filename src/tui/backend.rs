@@ -49,6 +49,8 @@ pub struct LeanBackend<W: Write> {
     frames: bool,
     /// A synchronized update was begun and not ended yet.
     in_frame: bool,
+    /// Glyphs are sent as ASCII stand-ins (a locale without UTF-8).
+    ascii: bool,
 }
 
 impl<W: Write> LeanBackend<W> {
@@ -62,7 +64,14 @@ impl<W: Write> LeanBackend<W> {
             fixed_size: None,
             frames: false,
             in_frame: false,
+            ascii: false,
         }
+    }
+
+    /// Sends every glyph as its ASCII stand-in of the same width ([`super::glyphs::ascii`]).
+    pub fn with_ascii(mut self, ascii: bool) -> LeanBackend<W> {
+        self.ascii = ascii;
+        self
     }
 
     /// Wraps each frame in a synchronized update, sent by [`LeanBackend::finish_frame`].
@@ -237,7 +246,12 @@ impl<W: Write> Backend for LeanBackend<W> {
                 modifier: cell.modifier,
             })?;
             let symbol = cell.symbol();
-            self.out.write_all(symbol.as_bytes())?;
+            if self.ascii {
+                self.out
+                    .write_all(super::glyphs::ascii(symbol).as_bytes())?;
+            } else {
+                self.out.write_all(symbol.as_bytes())?;
+            }
             let width = symbol.width().max(1) as u16;
             self.cursor = Some((x.saturating_add(width), y));
         }
@@ -399,6 +413,22 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn in_ascii_mode_the_screen_holds_only_ascii_in_the_same_places() {
+        let backend = LeanBackend::with_size(Vec::new(), 20, 2).with_ascii(true);
+        let mut term = Terminal::new(backend).unwrap();
+        let bytes = frame(
+            &mut term,
+            &[("│ rows ▁▂█ ✓", Style::new()), ("✗ x ⡠⠊ 12", Style::new())],
+        );
+        assert!(bytes.is_ascii());
+        let mut screen = vt100::Parser::new(2, 20, 0);
+        screen.process(&bytes);
+        let s = screen.screen();
+        assert_eq!(s.contents_between(0, 0, 0, 20).trim_end(), "| rows _.# v");
+        assert_eq!(s.contents_between(1, 0, 1, 20).trim_end(), "x x ** 12");
     }
 
     #[test]

@@ -20,6 +20,7 @@ pub mod app;
 pub mod backend;
 pub mod chart;
 pub mod format;
+pub mod glyphs;
 pub mod keys;
 pub mod layout;
 pub mod model;
@@ -384,7 +385,8 @@ pub fn run(live: Live, rx: FollowReceiver, options: WatchOptions) -> Result<u8, 
             .map_err(Error::Output)?;
     }
     let backend = LeanBackend::new(BufWriter::with_capacity(1 << 16, io::stdout()))
-        .with_synchronized_frames();
+        .with_synchronized_frames()
+        .with_ascii(!glyphs::utf8_locale_from_env());
     let mut term = Terminal::new(backend).map_err(Error::Output)?;
     let theme = Theme::from_env();
     let mut app = App::new(runs, patterns);

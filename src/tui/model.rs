@@ -29,11 +29,11 @@ pub enum Condition {
     Finished,
     /// The file's first read is in progress.
     Loading,
-    /// The file does not exist yet.
+    /// No data row yet: the file does not exist yet, or holds only its preamble.
     Waiting,
     /// The file was deleted.
     Gone,
-    /// No row yet.
+    /// Not analysed yet.
     Starting,
 }
 
@@ -104,6 +104,7 @@ fn condition_of(run: &LiveRun) -> Condition {
         Some(RunStatus::Unstable) => Condition::Unstable,
         Some(RunStatus::Stalled) => Condition::Stalled,
         Some(RunStatus::Drifting) => Condition::Drifting,
+        Some(RunStatus::Waiting) => Condition::Waiting,
         Some(RunStatus::Settling) => Condition::Settling,
         Some(RunStatus::Steady) => Condition::Steady,
         Some(RunStatus::Finished) => Condition::Finished,

@@ -1,0 +1,241 @@
+//! `plateau demo` in a pseudo-terminal, as a new user runs it: the overview shows several
+//! different statuses (the standard demo writes healthy, settling, drifting, blowing-up and
+//! stalling runs), `q` quits, and the temporary folder is gone with the terminal's modes
+//! given back; SIGTERM cleans up as well. Without a terminal it refuses; an unknown
+//! scenario is refused with the list of names. Nothing asserts on timing: waits have a
+//! generous limit (the product's ten seconds is shown by `tests/demo_live.rs`, replaying
+//! the schedule without waiting) and only a failing run reaches it.
+
+#![cfg(unix)]
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
+use std::collections::BTreeSet;
+use std::io::{Read, Write};
+use std::path::Path;
+use std::sync::mpsc::{self, Receiver};
+use std::thread;
+use std::time::{Duration, Instant};
+
+use portable_pty::{native_pty_system, Child, CommandBuilder, MasterPty, PtySize};
+
+const PATIENCE: Duration = Duration::from_secs(90);
+
+/// The status words of the overview (common to every run list of the dashboard).
+const STATUSES: [&str; 6] = [
+    "steady", "settling", "drifting", "unstable", "stalled", "finished",
+];
+
+struct Session {
+    master: Box<dyn MasterPty + Send>,
+    child: Box<dyn Child + Send + Sync>,
+    writer: Box<dyn Write + Send>,
+    output: Receiver<Vec<u8>>,
+    screen: vt100::Parser,
+}
+
+impl Session {
+    /// Starts plateau with `args`; its temporary files go into `tmp`.
+    fn start(args: &[&str], tmp: &Path) -> Session {
+        let (rows, cols) = (30, 100);
+        let pair = native_pty_system()
+            .openpty(PtySize {
+                rows,
+                cols,
+                pixel_width: 0,
+                pixel_height: 0,
+            })
+            .unwrap();
+        let mut cmd = CommandBuilder::new(env!("CARGO_BIN_EXE_plateau"));
+        cmd.args(args);
+        cmd.cwd(tmp);
+        cmd.env("TMPDIR", tmp);
+        cmd.env("TERM", "xterm-256color");
+        cmd.env("LANG", "C.UTF-8");
+        cmd.env_remove("LC_ALL");
+        cmd.env_remove("LC_CTYPE");
+        cmd.env_remove("NO_COLOR");
+        let child = pair.slave.spawn_command(cmd).unwrap();
+        drop(pair.slave);
+        let mut reader = pair.master.try_clone_reader().unwrap();
+        let writer = pair.master.take_writer().unwrap();
+        let (tx, output) = mpsc::channel();
+        thread::spawn(move || {
+            let mut buf = [0u8; 8192];
+            while let Ok(n) = reader.read(&mut buf) {
+                if n == 0 || tx.send(buf[..n].to_vec()).is_err() {
+                    return;
+                }
+            }
+        });
+        Session {
+            master: pair.master,
+            child,
+            writer,
+            output,
+            screen: vt100::Parser::new(rows, cols, 0),
+        }
+    }
+
+    /// Reads output until `done` holds for the screen.
+    fn wait_for(&mut self, what: &str, done: impl Fn(&vt100::Screen) -> bool) {
+        let deadline = Instant::now() + PATIENCE;
+        while !done(self.screen.screen()) {
+            let left = deadline.saturating_duration_since(Instant::now());
+            match self.output.recv_timeout(left) {
+                Ok(bytes) => self.screen.process(&bytes),
+                Err(_) => panic!(
+                    "{what}: not seen; screen:\n{}",
+                    self.screen.screen().contents()
+                ),
+            }
+        }
+    }
+
+    fn contents(&self) -> String {
+        self.screen.screen().contents()
+    }
+
+    fn cooked(&self) -> bool {
+        let fd = self.master.as_raw_fd().unwrap();
+        let mut t: libc::termios = unsafe { std::mem::zeroed() };
+        assert_eq!(unsafe { libc::tcgetattr(fd, &mut t) }, 0);
+        t.c_lflag & libc::ICANON != 0 && t.c_lflag & libc::ECHO != 0
+    }
+
+    /// Waits for the process to end; returns its exit code.
+    fn wait_exit(&mut self) -> u32 {
+        let deadline = Instant::now() + PATIENCE;
+        loop {
+            while let Ok(bytes) = self.output.try_recv() {
+                self.screen.process(&bytes);
+            }
+            if let Some(status) = self.child.try_wait().unwrap() {
+                while let Ok(bytes) = self.output.recv_timeout(Duration::from_millis(300)) {
+                    self.screen.process(&bytes);
+                }
+                return status.exit_code();
+            }
+            assert!(
+                Instant::now() < deadline,
+                "did not exit:\n{}",
+                self.contents()
+            );
+            thread::sleep(Duration::from_millis(20));
+        }
+    }
+
+    fn assert_restored(&self) {
+        let s = self.screen.screen();
+        assert!(!s.alternate_screen(), "alternate screen left");
+        assert!(!s.hide_cursor(), "cursor hidden");
+        assert!(self.cooked(), "raw mode left on");
+    }
+}
+
+/// The status words on screen.
+fn statuses(screen: &vt100::Screen) -> BTreeSet<&'static str> {
+    let text = screen.contents();
+    STATUSES
+        .into_iter()
+        .filter(|word| text.lines().any(|l| l.contains(word)))
+        .collect()
+}
+
+/// The demo folders left in `tmp`.
+fn demo_folders(tmp: &Path) -> Vec<String> {
+    std::fs::read_dir(tmp)
+        .unwrap()
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with("plateau-demo-"))
+        .collect()
+}
+
+#[test]
+fn the_demo_shows_several_statuses_then_q_removes_its_folder_and_restores_the_terminal() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut s = Session::start(&["demo"], tmp.path());
+    s.wait_for("the six demo runs", |sc| {
+        let text = sc.contents();
+        [
+            "production",
+            "density-settling",
+            "heating",
+            "nve-drift",
+            "blow-up",
+            "stalled",
+        ]
+        .iter()
+        .all(|name| text.contains(name))
+    });
+    // While it runs, its logs grow in a folder of their own.
+    assert_eq!(demo_folders(tmp.path()).len(), 1);
+    assert!(!s.cooked(), "raw mode while running");
+    s.wait_for("three different statuses", |sc| statuses(sc).len() >= 3);
+    // The blow-up and the stall are told apart from the healthy runs as they happen.
+    s.wait_for("unstable and stalled", |sc| {
+        let seen = statuses(sc);
+        seen.contains("unstable") && seen.contains("stalled")
+    });
+    s.writer.write_all(b"q").unwrap();
+    assert_eq!(s.wait_exit(), 0, "{}", s.contents());
+    s.assert_restored();
+    assert!(demo_folders(tmp.path()).is_empty(), "folder left behind");
+}
+
+#[test]
+fn sigterm_removes_the_folder_and_restores_the_terminal() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut s = Session::start(&["demo", "--scenario", "nve-drift"], tmp.path());
+    s.wait_for("the run", |sc| sc.contents().contains("nve-drift"));
+    assert_eq!(demo_folders(tmp.path()).len(), 1);
+    let pid = s.child.process_id().unwrap() as libc::pid_t;
+    assert_eq!(unsafe { libc::kill(pid, libc::SIGTERM) }, 0);
+    assert_eq!(s.wait_exit(), 128 + libc::SIGTERM as u32);
+    s.assert_restored();
+    assert!(demo_folders(tmp.path()).is_empty(), "folder left behind");
+}
+
+fn plateau(args: &[&str]) -> std::process::Output {
+    assert_cmd::Command::cargo_bin("plateau")
+        .unwrap()
+        .args(args)
+        .timeout(Duration::from_secs(60))
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn without_a_terminal_it_refuses_and_names_the_ways_without_one() {
+    let out = plateau(&["demo"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("plateau check --follow"), "{err}");
+    assert!(err.contains("plateau replay"), "{err}");
+}
+
+#[test]
+fn scenario_names_are_listed_in_help_and_for_an_unknown_one() {
+    let names = [
+        "equilibration",
+        "density-settling",
+        "heating",
+        "staged-heating",
+        "production",
+        "nve-drift",
+        "blow-up",
+        "stalled",
+        "thermostat-failure",
+    ];
+    let help = plateau(&["demo", "--help"]);
+    assert_eq!(help.status.code(), Some(0));
+    let help = String::from_utf8_lossy(&help.stdout);
+    let unknown = plateau(&["demo", "--scenario", "meltdown"]);
+    assert_eq!(unknown.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&unknown.stderr);
+    assert!(err.contains("meltdown"), "{err}");
+    for name in names {
+        assert!(help.contains(name), "{name} not in help:\n{help}");
+        assert!(err.contains(name), "{name} not in the error:\n{err}");
+    }
+}
