@@ -68,7 +68,8 @@ pub struct InputArgs {
     #[arg(long = "comment", value_name = "PREFIX")]
     pub comment: Vec<String>,
     /// Field separator.
-    #[arg(long, value_name = "SEP", value_parser = ["auto", "whitespace", "comma", "tab"])]
+    /// (auto, whitespace, comma, tab, semicolon, pipe, colon, or any single character).
+    #[arg(long, value_name = "SEP", value_parser = parse_delimiter)]
     pub delimiter: Option<String>,
     /// Integration time step, to derive time from step (e.g. 2fs; bare numbers are ps).
     #[arg(long, value_name = "TIME", value_parser = parse_timestep)]
@@ -498,6 +499,10 @@ pub enum OutputFormat {
     Text,
     /// JSON for programs.
     Json,
+}
+
+fn parse_delimiter(text: &str) -> Result<String, String> {
+    crate::parse::DelimiterChoice::parse(text).map(|_| text.to_string())
 }
 
 fn parse_map(text: &str) -> Result<MapRequest, String> {

@@ -257,6 +257,8 @@ pub struct Settings {
     pub alerts: crate::alert::Thresholds,
     /// The row tag was guessed from the start of the log (no `--row-tag` given).
     pub row_tag_guessed: bool,
+    /// What the start of the log said about its layout (delimiter, row tag), when looked at.
+    pub layout_guess: Option<crate::parse::sniff::LayoutGuess>,
     /// `keep-rows` from the settings file (at least [`crate::fold::MIN_KEEP_ROWS`]); the
     /// command line's `--keep-rows` is applied by `check`.
     pub keep_rows: Option<usize>,
@@ -398,12 +400,8 @@ impl Settings {
             s.parse.comment_prefixes = args.comment.clone();
         }
         if let Some(d) = &args.delimiter {
-            s.parse.delimiter = match d.as_str() {
-                "whitespace" => DelimiterChoice::Whitespace,
-                "comma" => DelimiterChoice::Comma,
-                "tab" => DelimiterChoice::Tab,
-                _ => DelimiterChoice::Auto,
-            };
+            // Checked by the command line's value parser already.
+            s.parse.delimiter = DelimiterChoice::parse(d).unwrap_or_default();
         }
         s.timestep_ps = args.timestep.or(s.timestep_ps);
         s.atoms = args.atoms.or(s.atoms);

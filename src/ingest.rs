@@ -299,7 +299,7 @@ impl<R: Read> Source<R> {
             };
             filled += got;
             let data = buf.get(..filled)?;
-            let complete = memchr::memrchr(b'\n', data).map_or(0, |i| i + 1);
+            let complete = crate::parse::endings::complete_len_strict(data);
             if got == 0 {
                 self.end = Some(End::Input);
             } else if filled - complete >= MAX_LINE {

@@ -212,6 +212,23 @@ pub enum RoleSource {
     Given,
     /// Guessed from the header name.
     Guessed,
+    /// Read from the column's unit (`[K]` is a temperature) when the name did not tell.
+    FromUnit,
+    /// Read from the values: a strictly increasing integer column is a step counter, a
+    /// strictly increasing column with near-constant spacing is time.
+    FromData,
+}
+
+impl RoleSource {
+    /// In words, for `columns`: "given", "name", "unit", "data".
+    pub fn why(self) -> &'static str {
+        match self {
+            RoleSource::Given => "given",
+            RoleSource::Guessed => "name",
+            RoleSource::FromUnit => "unit",
+            RoleSource::FromData => "data",
+        }
+    }
 }
 
 /// One column of a segment: where it comes from, what it is, and how to convert it.
@@ -278,8 +295,121 @@ fn words(name: &str) -> Vec<String> {
     out
 }
 
-/// Guesses a role from a header name (see the module docs).
+/// Names practitioners write for each role, lower-case, letters and digits only (common
+/// practice, no source). Names not listed are read word by word (see [`guess_role`]).
+const VOCABULARY: &[(&str, Role)] = &[
+    ("step", Role::Step),
+    ("steps", Role::Step),
+    ("nstep", Role::Step),
+    ("istep", Role::Step),
+    ("iter", Role::Step),
+    ("iteration", Role::Step),
+    ("niter", Role::Step),
+    ("stepnumber", Role::Step),
+    ("stepno", Role::Step),
+    ("mdstep", Role::Step),
+    ("time", Role::Time),
+    ("simtime", Role::Time),
+    ("simulationtime", Role::Time),
+    ("tsim", Role::Time),
+    ("temp", Role::Temperature),
+    ("temperature", Role::Temperature),
+    ("press", Role::Pressure),
+    ("pressure", Role::Pressure),
+    ("pres", Role::Pressure),
+    ("pot", Role::Potential),
+    ("epot", Role::Potential),
+    ("pote", Role::Potential),
+    ("potential", Role::Potential),
+    ("potentialenergy", Role::Potential),
+    ("potenergy", Role::Potential),
+    ("poteng", Role::Potential),
+    ("epotential", Role::Potential),
+    ("pe", Role::Potential),
+    ("upot", Role::Potential),
+    ("kin", Role::Kinetic),
+    ("ekin", Role::Kinetic),
+    ("kine", Role::Kinetic),
+    ("ke", Role::Kinetic),
+    ("ek", Role::Kinetic),
+    ("kinetic", Role::Kinetic),
+    ("kineticenergy", Role::Kinetic),
+    ("kinenergy", Role::Kinetic),
+    ("kineng", Role::Kinetic),
+    ("ekinetic", Role::Kinetic),
+    ("tot", Role::Total),
+    ("etot", Role::Total),
+    ("tote", Role::Total),
+    ("total", Role::Total),
+    ("totalenergy", Role::Total),
+    ("totenergy", Role::Total),
+    ("toteng", Role::Total),
+    ("etotal", Role::Total),
+    ("energy", Role::Total),
+    ("cons", Role::Conserved),
+    ("econs", Role::Conserved),
+    ("conse", Role::Conserved),
+    ("conserved", Role::Conserved),
+    ("conservedenergy", Role::Conserved),
+    ("econserved", Role::Conserved),
+    ("conseng", Role::Conserved),
+    ("consenergy", Role::Conserved),
+    ("conservedquantity", Role::Conserved),
+    ("vol", Role::Volume),
+    ("volume", Role::Volume),
+    ("boxvolume", Role::Volume),
+    ("boxvol", Role::Volume),
+    ("cellvolume", Role::Volume),
+    ("cellvol", Role::Volume),
+    ("rho", Role::Density),
+    ("dens", Role::Density),
+    ("density", Role::Density),
+    ("massdensity", Role::Density),
+];
+
+/// Guesses a role from a header name (see the module docs), with or without a unit glued
+/// on (`Epot_kJmol`, `T/K`).
 pub fn guess_role(name: &str) -> Option<Role> {
+    name_role(name).map(|(role, _)| role)
+}
+
+/// The role a header name reads as and the unit glued to its end, if any: `Epot_kJmol`,
+/// `E_pot_kJ_per_mol`, `T/K`, `time/ps`, `press_atm`, `E_pot/(kJ/mol)` (the bracketed unit
+/// already taken off by the header reader). A glued unit counts only when it measures what
+/// the role measures.
+pub fn name_role(name: &str) -> Option<(Role, Option<Unit>)> {
+    let name = name.trim().trim_end_matches(['/', '_', '-', ' ']);
+    if let Some(role) = base_role(name) {
+        let unit = role.dimension().and_then(|d| unit_from_name(name, d));
+        return Some((role, unit));
+    }
+    for (pos, c) in name.char_indices() {
+        if !matches!(c, '_' | '/' | '-' | ' ' | '.') {
+            continue;
+        }
+        let base = name
+            .get(..pos)
+            .unwrap_or("")
+            .trim_end_matches(['_', '/', '-', ' ', '.']);
+        let suffix = name.get(pos + c.len_utf8()..).unwrap_or("");
+        if base.is_empty() || suffix.is_empty() {
+            continue;
+        }
+        let Ok(unit) = Unit::parse(suffix) else {
+            continue;
+        };
+        if let Some(role) = base_role(base) {
+            if role.dimension() == Some(unit.dimension()) {
+                return Some((role, Some(unit)));
+            }
+        }
+    }
+    None
+}
+
+/// The role a name without its unit reads as: single letters (case matters: `T` is
+/// temperature, `t` time), then the vocabulary table, then words.
+fn base_role(name: &str) -> Option<Role> {
     let trimmed = name.trim();
     match trimmed {
         "T" => return Some(Role::Temperature),
@@ -287,7 +417,16 @@ pub fn guess_role(name: &str) -> Option<Role> {
         "P" | "p" => return Some(Role::Pressure),
         "E" => return Some(Role::Total),
         "V" => return Some(Role::Volume),
+        "U" => return Some(Role::Potential),
         _ => {}
+    }
+    let compact: String = trimmed
+        .chars()
+        .filter(|c| c.is_alphanumeric())
+        .flat_map(char::to_lowercase)
+        .collect();
+    if let Some(&(_, role)) = VOCABULARY.iter().find(|(k, _)| *k == compact) {
+        return Some(role);
     }
     let w = words(trimmed);
     let has = |list: &[&str]| w.iter().any(|x| list.contains(&x.as_str()));
@@ -339,14 +478,17 @@ pub fn guess_role(name: &str) -> Option<Role> {
     None
 }
 
-/// A unit written as the last word of a name (`time_ps`, `press_atm`), if it fits `dim`.
+/// A unit written at the end of a name (`time_ps`, `press_atm`, `E_pot_kJ_mol`), if it fits
+/// `dim`: the longest such ending after `_`, space, `-` or `/`.
 fn unit_from_name(name: &str, dim: Dimension) -> Option<Unit> {
-    let pos = name.rfind(['_', ' ', '-', '/'])?;
-    let last = name.get(pos + 1..)?;
-    if last.is_empty() {
-        return None;
-    }
-    Unit::parse_for(last, dim).ok()
+    name.char_indices()
+        .filter(|(_, c)| matches!(c, '_' | ' ' | '-' | '/'))
+        .find_map(|(pos, c)| {
+            let rest = name.get(pos + c.len_utf8()..)?;
+            (!rest.is_empty())
+                .then(|| Unit::parse_for(rest, dim).ok())
+                .flatten()
+        })
 }
 
 fn find_column(names: &[HeaderName], column: &ColumnRef) -> Option<usize> {
@@ -390,13 +532,51 @@ pub fn resolve(
         }
     }
     let given: Vec<Role> = requests.iter().map(|r| r.role).collect();
+    // Roles from names, then from units for columns whose name did not tell (a role not
+    // already given or named elsewhere).
+    let mut guessed: Vec<Option<(Role, RoleSource, Option<Unit>)>> = names
+        .iter()
+        .map(|h| match name_role(&h.name) {
+            Some((r, glued)) if !given.contains(&r) => Some((r, RoleSource::Guessed, glued)),
+            _ => None,
+        })
+        .collect();
+    let named: Vec<Role> = guessed.iter().flatten().map(|g| g.0).collect();
+    for (i, h) in names.iter().enumerate() {
+        if roles.get(i).copied().flatten().is_some() || guessed.get(i).copied().flatten().is_some()
+        {
+            continue;
+        }
+        let Some(Ok(unit)) = h.unit.as_deref().map(Unit::parse) else {
+            continue;
+        };
+        let role = match unit.dimension() {
+            Dimension::Temperature => Role::Temperature,
+            Dimension::Pressure => Role::Pressure,
+            Dimension::Volume => Role::Volume,
+            Dimension::Density => Role::Density,
+            Dimension::Time => Role::Time,
+            _ => continue, // energy: which one? (shown as ambiguous by `columns`)
+        };
+        if given.contains(&role) || named.contains(&role) {
+            continue;
+        }
+        let taken = guessed.iter().flatten().any(|g| g.0 == role);
+        if let (false, Some(slot)) = (taken, guessed.get_mut(i)) {
+            *slot = Some((role, RoleSource::FromUnit, None));
+        }
+    }
     let mut columns = Vec::with_capacity(names.len() + 1);
     for (i, h) in names.iter().enumerate() {
+        let mut glued = None;
         let (role, role_source, given_unit) = match roles.get(i).copied().flatten() {
             Some((r, s, u)) => (Some(r), Some(s), u),
-            None => match guess_role(&h.name) {
-                Some(r) if !given.contains(&r) => (Some(r), Some(RoleSource::Guessed), None),
-                _ => (None, None, None),
+            None => match guessed.get(i).copied().flatten() {
+                Some((r, s, g)) => {
+                    glued = g;
+                    (Some(r), Some(s), None)
+                }
+                None => (None, None, None),
             },
         };
         let header_unit = h.unit.as_deref().map(Unit::parse);
@@ -415,7 +595,7 @@ pub fn resolve(
                     ));
                     None
                 }
-                None => match unit_from_name(&h.name, dim) {
+                None => match glued.or_else(|| unit_from_name(&h.name, dim)) {
                     Some(u) => Some(u),
                     None => {
                         assumed = true;
@@ -473,6 +653,45 @@ pub fn resolve(
         derived_time,
         warnings,
     }
+}
+
+/// Rows of a segment looked at to find counters from the data.
+pub const COUNTER_ROWS: usize = 8;
+
+/// Counters read from the values (of the first rows) of columns that have no role: the
+/// first strictly increasing column of whole numbers is the step counter (when no column
+/// is one already); the first other strictly increasing column whose spacing is constant
+/// within 1 % is time (when no column is). Common practice, no source. Returns
+/// (column index, role).
+pub fn counters_from_data(columns: &[(Option<Role>, &[f64])]) -> Vec<(usize, Role)> {
+    let mut has_step = columns.iter().any(|(r, _)| *r == Some(Role::Step));
+    let mut has_time = columns.iter().any(|(r, _)| *r == Some(Role::Time));
+    let mut out = Vec::new();
+    for (i, (role, v)) in columns.iter().enumerate() {
+        if role.is_some() || v.len() < 3 || !v.iter().all(|x| x.is_finite()) {
+            continue;
+        }
+        if !v.windows(2).all(|w| matches!(w, [a, b] if b > a)) {
+            continue;
+        }
+        if !has_step && v.iter().all(|x| x.fract() == 0.0) {
+            out.push((i, Role::Step));
+            has_step = true;
+            continue;
+        }
+        let (Some(&a), Some(&b)) = (v.first(), v.get(1)) else {
+            continue;
+        };
+        let d0 = b - a;
+        let even = v
+            .windows(2)
+            .all(|w| matches!(w, [x, y] if ((y - x) - d0).abs() <= 0.01 * d0.abs()));
+        if !has_time && even {
+            out.push((i, Role::Time));
+            has_time = true;
+        }
+    }
+    out
 }
 
 /// Generic names `col1..colN` for a table without a header.

@@ -443,6 +443,20 @@ pub struct PartialLine {
     pub bytes: u64,
 }
 
+/// Preamble entries kept for display.
+pub const METADATA_KEPT: usize = 100;
+
+/// One `key = value` or `key: value` line of a preamble.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Metadata {
+    /// 1-based line.
+    pub line: u64,
+    /// The key as written.
+    pub key: String,
+    /// The value as written.
+    pub value: String,
+}
+
 /// Every row of one run, with what was skipped and why.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct RunTable {
@@ -458,8 +472,14 @@ pub struct RunTable {
     pub comment_lines: u64,
     /// Empty lines.
     pub blank_lines: u64,
-    /// Header lines (first and repeated).
+    /// Header lines (first and repeated), units lines under them included.
     pub header_lines: u64,
+    /// Decoration lines: rules made of `- = + * _ ~ |` or box-drawing characters.
+    pub decoration_lines: u64,
+    /// `key = value` / `key: value` lines before the first row (a preamble).
+    pub metadata_lines: u64,
+    /// The first [`METADATA_KEPT`] preamble entries.
+    pub metadata: Vec<Metadata>,
     /// Complete lines read.
     pub lines: u64,
     /// A final line without newline, ignored at the end of input.

@@ -171,7 +171,9 @@ fn free_text_and_warnings_between_rows() {
             ),
         ]
     );
-    assert_eq!(t.text_lines, 6);
+    // The warning before the table reads as a `key: value` preamble line.
+    assert_eq!(t.text_lines, 5);
+    assert_eq!(t.metadata_lines, 1);
     assert_eq!(t.blank_lines, 1);
     assert_eq!(t.header_lines, 1);
 }
@@ -209,8 +211,10 @@ fn row_tag_with_tagged_header() {
             ),
         ]
     );
-    // Untagged lines are free text, even "12 13 14".
-    assert_eq!(t.text_lines, 4);
+    // Untagged lines are free text, even "12 13 14"; `key: value` lines before the first
+    // row are a preamble.
+    assert_eq!(t.text_lines, 2);
+    assert_eq!(t.metadata_lines, 2);
 }
 
 #[test]
@@ -485,7 +489,8 @@ fn header_survives_a_long_stretch_of_chatter() {
     assert_eq!(s.header_line, Some(1));
     assert_eq!(names(s), ["step", "temp", "press"]);
     assert_eq!(s.lines, [62, 63]);
-    assert_eq!(t.text_lines, 60);
+    // `info: ...` and `note: ...` before the first row read as a preamble.
+    assert_eq!(t.text_lines + t.metadata_lines, 60);
 }
 
 #[test]

@@ -11,8 +11,9 @@ use crate::config::Settings;
 use crate::error::Error;
 use crate::mapping::{map_line, Role, RoleSource};
 use crate::parse::{Delimiter, DelimiterChoice};
-use crate::table::{PartialLine, Restart, RunTable};
+use crate::table::{Metadata, PartialLine, Restart, RunTable, Segment, SkipReason};
 use crate::text::{escape_control, escape_document, escape_json};
+use crate::units::Dimension;
 
 /// Version of the JSON written by `columns --format json`.
 pub const COLUMNS_SCHEMA_VERSION: u32 = 1;
@@ -60,6 +61,17 @@ pub struct ColumnsView {
     pub blank_lines: u64,
     /// Header lines.
     pub header_lines: u64,
+    /// Decoration (rule) lines.
+    pub decoration_lines: u64,
+    /// `key = value` lines before the table.
+    pub metadata_lines: u64,
+    /// The first hundred of them.
+    pub metadata: Vec<Metadata>,
+    /// The separator the data lines agreed on, when found from the data (not whitespace
+    /// or comma).
+    pub delimiter_found: Option<Delimiter>,
+    /// What the reader could not decide, with the exact option to add.
+    pub hints: Vec<String>,
     /// The ignored last line without newline, if any.
     pub partial_line: Option<PartialLine>,
     /// Mapping warnings.
@@ -91,6 +103,8 @@ pub struct SegmentView {
     pub columns: Vec<ColumnView>,
     /// Ready-to-paste mapping for this segment.
     pub map: String,
+    /// What stayed ambiguous in this segment, with the option that settles it.
+    pub ambiguous: Vec<String>,
 }
 
 /// One column in [`SegmentView`].
@@ -106,6 +120,8 @@ pub struct ColumnView {
     pub role: Option<Role>,
     /// Given or guessed.
     pub role_source: Option<RoleSource>,
+    /// Why the role: `given`, `name`, `unit` or `data`.
+    pub why: Option<&'static str>,
     /// Stored (canonical) unit.
     pub unit: Option<String>,
     /// Unit in the file.
@@ -155,6 +171,7 @@ impl ColumnsView {
                         header_unit: c.spec.header_unit.clone(),
                         role: c.spec.role,
                         role_source: c.spec.role_source,
+                        why: c.spec.role_source.map(RoleSource::why),
                         unit: c.spec.unit.map(|u| u.to_string()),
                         source_unit: c.spec.source_unit.map(|u| u.to_string()),
                         assumed: c.spec.assumed,
@@ -163,6 +180,7 @@ impl ColumnsView {
                     })
                     .collect(),
                 map: map_line(&s.columns.iter().map(|c| c.spec.clone()).collect::<Vec<_>>()),
+                ambiguous: ambiguous(s),
             })
             .collect();
         ColumnsView {
@@ -197,6 +215,15 @@ impl ColumnsView {
             comment_lines: table.comment_lines,
             blank_lines: table.blank_lines,
             header_lines: table.header_lines,
+            decoration_lines: table.decoration_lines,
+            metadata_lines: table.metadata_lines,
+            metadata: table.metadata.clone(),
+            delimiter_found: settings
+                .layout_guess
+                .as_ref()
+                .and_then(|g| g.delimiter)
+                .filter(|d| DelimiterChoice::fixed(*d) == settings.parse.delimiter),
+            hints: hints(settings, table),
             partial_line: table.partial_line,
             warnings: table.warnings.clone(),
         }
@@ -212,6 +239,13 @@ impl ColumnsView {
             escape_control(&self.comment_prefixes.join(" ")).into_owned()
         };
         let _ = writeln!(o, "comments    {prefixes}");
+        if let Some(d) = self.delimiter_found {
+            let _ = writeln!(
+                o,
+                "delimiter   {} (found from the data lines; set another with --delimiter)",
+                d.name()
+            );
+        }
         if let Some(tag) = &self.row_tag {
             let how = if self.row_tag_guessed {
                 " (guessed from the log; set another with --row-tag)"
@@ -250,6 +284,28 @@ impl ColumnsView {
             self.header_lines,
             self.blank_lines
         );
+        if self.decoration_lines > 0 {
+            let _ = writeln!(o, "decoration  {} rule line(s)", self.decoration_lines);
+        }
+        if self.metadata_lines > 0 {
+            let _ = writeln!(o, "preamble    {} key/value line(s)", self.metadata_lines);
+            for m in self.metadata.iter().take(10) {
+                let _ = writeln!(
+                    o,
+                    "  {}: {} = {}",
+                    m.line,
+                    escape_control(&m.key),
+                    escape_control(&m.value)
+                );
+            }
+            if self.metadata_lines > 10 {
+                let _ = writeln!(
+                    o,
+                    "  ... (first {} listed in --format json)",
+                    self.metadata.len()
+                );
+            }
+        }
         let _ = writeln!(o, "segments    {}", self.segments.len());
         for s in &self.segments {
             let header = match s.header_line {
@@ -280,13 +336,13 @@ impl ColumnsView {
                 .max(4);
             let _ = writeln!(
                 o,
-                "  {:>3}  {:<name_w$}  {:<12}  {:<8}  source unit",
-                "#", "name", "role", "unit"
+                "  {:>3}  {:<name_w$}  {:<12}  {:<5}  {:<8}  source unit",
+                "#", "name", "role", "from", "unit"
             );
             for c in &s.columns {
                 let idx = c.index.map_or("-".to_string(), |i| i.to_string());
                 let role = match (c.role, c.role_source) {
-                    (Some(r), Some(RoleSource::Guessed)) => format!("{r}?"),
+                    (Some(r), Some(src)) if src != RoleSource::Given => format!("{r}?"),
                     (Some(r), _) => r.to_string(),
                     (None, _) => "-".to_string(),
                 };
@@ -307,8 +363,9 @@ impl ColumnsView {
                 }
                 let _ = writeln!(
                     o,
-                    "  {idx:>3}  {:<name_w$}  {role:<12}  {:<8}  {source}{notes}",
+                    "  {idx:>3}  {:<name_w$}  {role:<12}  {:<5}  {:<8}  {source}{notes}",
                     escape_control(&c.name),
+                    c.why.unwrap_or("-"),
                     escape_control(c.unit.as_deref().unwrap_or("-")),
                 );
             }
@@ -321,6 +378,9 @@ impl ColumnsView {
                     "  restart at line {}: back to {}, {} row(s) replaced",
                     r.line, r.step, r.rows_replaced
                 );
+            }
+            for a in &s.ambiguous {
+                let _ = writeln!(o, "  ambiguous: {}", escape_control(a));
             }
             if s.map.is_empty() {
                 let _ = writeln!(
@@ -335,9 +395,16 @@ impl ColumnsView {
         if self.segments.iter().any(|s| {
             s.columns
                 .iter()
-                .any(|c| c.role_source == Some(RoleSource::Guessed))
+                .any(|c| c.role_source.is_some_and(|r| r != RoleSource::Given))
         }) {
-            let _ = writeln!(o, "roles marked ? are guessed from the header; fix them with --map ROLE=COLUMN[:UNIT]");
+            let _ = writeln!(
+                o,
+                "roles marked ? are guessed (from: the column's name, its unit, or its values); \
+                 fix them with --map ROLE=COLUMN[:UNIT]"
+            );
+        }
+        for h in &self.hints {
+            let _ = writeln!(o, "hint: {}", escape_control(h));
         }
         if self.skipped_lines > 0 {
             let _ = writeln!(o, "skipped lines: {}", self.skipped_lines);
@@ -370,6 +437,108 @@ impl ColumnsView {
         }
         o
     }
+}
+
+/// What stayed ambiguous in a segment: an energy column whose name does not say which
+/// energy, a role found in more than one column, columns with no role at all.
+fn ambiguous(seg: &Segment) -> Vec<String> {
+    let mut out = Vec::new();
+    for c in &seg.columns {
+        let (Some(field), None) = (c.spec.field, c.spec.role) else {
+            continue;
+        };
+        if c.spec.source_unit.map(|u| u.dimension()) == Some(Dimension::Energy) {
+            let unit = c
+                .spec
+                .source_unit
+                .map(|u| format!(":{u}"))
+                .unwrap_or_default();
+            out.push(format!(
+                "column {} '{}' is an energy but its name does not say which: add --map \
+                 potential={}{unit} (or kinetic, total, conserved)",
+                field + 1,
+                c.spec.name,
+                field + 1
+            ));
+        }
+    }
+    for role in Role::ALL {
+        let cols: Vec<usize> = seg
+            .columns
+            .iter()
+            .filter(|c| c.spec.role == Some(role))
+            .filter_map(|c| c.spec.field.map(|f| f + 1))
+            .collect();
+        if cols.len() > 1 && matches!(role, Role::Step | Role::Time) {
+            let list: Vec<String> = cols.iter().map(usize::to_string).collect();
+            out.push(format!(
+                "{role} read in columns {}: the first orders the rows; to choose, add --map \
+                 {role}=N",
+                list.join(", ")
+            ));
+        }
+    }
+    let unnamed: Vec<String> = seg
+        .columns
+        .iter()
+        .filter(|c| c.spec.role.is_none() && c.spec.source_unit.is_none())
+        .filter_map(|c| c.spec.field.map(|f| format!("{} '{}'", f + 1, c.spec.name)))
+        .collect();
+    if !unnamed.is_empty() && unnamed.len() < seg.columns.len() {
+        out.push(format!(
+            "no role for column(s) {}: shown as they are; if one is a quantity plateau \
+             checks, add --map ROLE=N",
+            unnamed.join(", ")
+        ));
+    }
+    out
+}
+
+/// When the reader found no rows, or skipped many lines: what it saw and the exact option
+/// to add.
+fn hints(settings: &Settings, table: &RunTable) -> Vec<String> {
+    let mut out = Vec::new();
+    let guess = settings.layout_guess.as_ref();
+    let rows = table.rows();
+    let not_numbers = table
+        .skipped
+        .iter()
+        .filter(|s| matches!(s.reason, SkipReason::NotANumber { .. }))
+        .count();
+    if rows == 0 || not_numbers * 2 > rows {
+        if let Some((d, n)) = guess
+            .and_then(|g| {
+                g.scores
+                    .iter()
+                    .find(|(d, n)| *n > 0 && !matches!(d, Delimiter::Whitespace))
+            })
+            .filter(|_| settings.parse.delimiter == DelimiterChoice::Auto)
+        {
+            out.push(format!(
+                "{n} data line(s) split into numbers on '{}': add --delimiter {}",
+                d.name(),
+                d.option_value()
+            ));
+        }
+    }
+    if rows == 0 {
+        if let Some((word, n)) = guess.and_then(|g| g.tag_candidate.clone()) {
+            if settings.parse.row_tag.as_deref() != Some(word.as_str()) {
+                out.push(format!(
+                    "{n} line(s) start with '{word}' followed by numbers: add --row-tag {word}"
+                ));
+            }
+        }
+        if out.is_empty() {
+            out.push(
+                "no line reads as a row of numbers: if the rows start with a word, add \
+                 --row-tag WORD; if their fields are separated by something unusual, add \
+                 --delimiter CHAR"
+                    .to_string(),
+            );
+        }
+    }
+    out
 }
 
 /// Runs `plateau columns`.

@@ -66,16 +66,18 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
     Ok((settings, table))
 }
 
-/// Without `--row-tag`, looks at the start of the file for data rows marked by a leading
-/// word ([`crate::live::sniff_row_tag`]) and uses that word, marked as guessed.
+/// Looks at the start of the file for its layout ([`crate::live::sniff_layout`]): without
+/// `--row-tag`, a leading word that marks the data rows (used, marked as guessed); without
+/// `--delimiter`, the separator the data lines agree on.
 pub fn guess_row_tag(file: &Path, settings: &mut Settings) {
-    if settings.parse.row_tag.is_some() {
+    let Some(guess) = crate::live::sniff_layout(file, &settings.parse) else {
         return;
-    }
-    if let Some(tag) = crate::live::sniff_row_tag(file) {
-        settings.parse.row_tag = Some(tag);
+    };
+    if settings.parse.row_tag.is_none() && guess.row_tag.is_some() {
         settings.row_tag_guessed = true;
     }
+    guess.apply(&mut settings.parse);
+    settings.layout_guess = Some(guess);
 }
 
 /// A JSON value for a float: non-finite as the strings "nan", "inf", "-inf" (Contract).

@@ -1,6 +1,7 @@
 //! Splitting a byte stream into complete lines, holding back the unfinished last one.
 
 use super::Partial;
+use crate::parse::endings;
 
 /// What one chunk of input gave.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -17,7 +18,7 @@ pub enum Piece {
 
 /// Holds the unfinished last line and counts lines (1-based) within one file generation.
 ///
-/// A line is complete at its `\n` (a CRLF line too). Memory is bounded: an unfinished line
+/// A line is complete at its `\n`, `\r\n` or lone `\r` (see [`crate::parse::endings`]). Memory is bounded: an unfinished line
 /// longer than `max_line` is dropped and reported as [`Piece::Overlong`] once its newline
 /// arrives.
 #[derive(Debug, Clone)]
@@ -29,6 +30,8 @@ pub struct LineSplitter {
     /// Bytes taken in since the last newline, including those of an over-long line that
     /// were let go (a resumable source restarts its input at the start of this line).
     unfinished: u64,
+    /// The last line ended with `\r`: a `\n` first in the next chunk belongs to it.
+    skip_lf: bool,
 }
 
 impl LineSplitter {
@@ -40,6 +43,7 @@ impl LineSplitter {
             max_line: max_line.max(1),
             overlong: false,
             unfinished: 0,
+            skip_lf: false,
         }
     }
 
@@ -61,10 +65,21 @@ impl LineSplitter {
     }
 
     /// Takes in `chunk` and appends the complete lines (and skipped over-long lines) to `out`.
-    pub fn push(&mut self, chunk: &[u8], out: &mut Vec<Piece>) {
-        match memchr::memrchr(b'\n', chunk) {
-            Some(last) => self.unfinished = (chunk.len() - last - 1) as u64,
-            None => self.unfinished += chunk.len() as u64,
+    pub fn push(&mut self, mut chunk: &[u8], out: &mut Vec<Piece>) {
+        if chunk.is_empty() {
+            return;
+        }
+        if self.skip_lf {
+            // The `\n` of a `\r\n` whose `\r` ended the last chunk: already counted.
+            self.skip_lf = false;
+            if let Some(rest) = chunk.strip_prefix(b"\n") {
+                chunk = rest;
+                self.unfinished = 0;
+            }
+        }
+        match endings::complete_len(chunk) {
+            0 => self.unfinished += chunk.len() as u64,
+            last => self.unfinished = (chunk.len() - last) as u64,
         }
         self.split(chunk, out);
     }
@@ -72,7 +87,7 @@ impl LineSplitter {
     fn split(&mut self, mut chunk: &[u8], out: &mut Vec<Piece>) {
         while !chunk.is_empty() {
             if self.overlong {
-                match memchr::memchr(b'\n', chunk) {
+                match endings::first_end(chunk) {
                     None => return,
                     Some(i) => {
                         out.push(Piece::Overlong {
@@ -80,19 +95,21 @@ impl LineSplitter {
                         });
                         self.next_line += 1;
                         self.overlong = false;
-                        chunk = chunk.get(i + 1..).unwrap_or_default();
+                        self.skip_lf = i == chunk.len() && chunk.last() == Some(&b'\r');
+                        chunk = chunk.get(i..).unwrap_or_default();
                         continue;
                     }
                 }
             }
-            match memchr::memrchr(b'\n', chunk) {
-                None => {
+            match endings::complete_len(chunk) {
+                0 => {
                     self.keep(chunk);
                     return;
                 }
-                Some(last) => {
-                    let (head, tail) = chunk.split_at((last + 1).min(chunk.len()));
-                    let lines = memchr::memchr_iter(b'\n', head).count() as u64;
+                end => {
+                    let (head, tail) = chunk.split_at(end.min(chunk.len()));
+                    let lines = endings::count_lines(head);
+                    self.skip_lf = tail.is_empty() && head.last() == Some(&b'\r');
                     let mut bytes = std::mem::take(&mut self.partial);
                     bytes.extend_from_slice(head);
                     out.push(Piece::Lines {
@@ -139,6 +156,7 @@ impl LineSplitter {
         self.partial = Vec::new();
         self.overlong = false;
         self.unfinished = 0;
+        self.skip_lf = false;
     }
 }
 
@@ -165,9 +183,11 @@ mod tests {
                 bytes, first_line, ..
             } = p
             {
-                for (k, l) in bytes.split_inclusive(|b| *b == b'\n').enumerate() {
-                    v.push((first_line + k as u64, l.to_vec()));
-                }
+                let mut k = 0u64;
+                endings::for_each_line(bytes, |l| {
+                    v.push((first_line + k, l.to_vec()));
+                    k += 1;
+                });
             }
         }
         v
@@ -178,11 +198,11 @@ mod tests {
         let mut s = LineSplitter::new(100);
         let mut out = Vec::new();
         s.push(b"a 1\nb ", &mut out);
-        assert_eq!(lines_of(&out), vec![(1, b"a 1\n".to_vec())]);
+        assert_eq!(lines_of(&out), vec![(1, b"a 1".to_vec())]);
         assert_eq!(s.pending_bytes(), 2);
         out.clear();
         s.push(b"2\r\n", &mut out);
-        assert_eq!(lines_of(&out), vec![(2, b"b 2\r\n".to_vec())]);
+        assert_eq!(lines_of(&out), vec![(2, b"b 2".to_vec())]);
         assert_eq!(s.partial(), None);
     }
 
@@ -194,7 +214,7 @@ mod tests {
         assert_eq!(s.reset(), Some(Partial { line: 3, bytes: 2 }));
         out.clear();
         s.push(b"q\n", &mut out);
-        assert_eq!(lines_of(&out), vec![(1, b"q\n".to_vec())]);
+        assert_eq!(lines_of(&out), vec![(1, b"q".to_vec())]);
     }
 
     #[test]
@@ -245,7 +265,7 @@ mod tests {
         assert_eq!((s.partial(), s.unfinished_bytes()), (None, 0));
         out.clear();
         s.push(b"zzz\n", &mut out);
-        assert_eq!(lines_of(&out), vec![(3, b"zzz\n".to_vec())]);
+        assert_eq!(lines_of(&out), vec![(3, b"zzz".to_vec())]);
     }
 
     proptest::proptest! {
@@ -268,10 +288,15 @@ mod tests {
             }
             proptest::prop_assert_eq!(lines_of(&a), lines_of(&b));
             proptest::prop_assert_eq!(whole.partial(), pieces.partial());
-            // Everything up to the last newline comes out, nothing after it.
-            let complete = bytes.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
-            let joined: Vec<u8> = lines_of(&b).into_iter().flat_map(|(_, l)| l).collect();
-            proptest::prop_assert_eq!(&joined[..], &bytes[..complete]);
+            // Every line up to the last ending comes out, nothing after it.
+            let complete = endings::complete_len(bytes);
+            let mut want = Vec::new();
+            let mut n = 1u64;
+            endings::for_each_line(&bytes[..complete], |l| {
+                want.push((n, l.to_vec()));
+                n += 1;
+            });
+            proptest::prop_assert_eq!(lines_of(&b), want);
         }
     }
 }

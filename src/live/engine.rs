@@ -12,7 +12,7 @@ use crate::follow::{
 use crate::parse::ParseOptions;
 
 use super::run::{Happened, LiveRun};
-use super::{sniff_row_tag, RunId, RunSource, RunSpec};
+use super::{sniff_layout, RunId, RunSource, RunSpec};
 
 /// How runs are read, analysed and followed.
 #[derive(Debug, Clone)]
@@ -165,9 +165,14 @@ impl Live {
             self.paths.insert(p.clone());
         }
         let mut parse = self.options.parse.clone();
-        if self.options.guess_row_tag && parse.row_tag.is_none() {
-            if let Some(path) = spec.source.path() {
-                parse.row_tag = sniff_row_tag(path);
+        if let Some(path) = spec.source.path() {
+            // The separator the data lines agree on (when `auto`), and the row tag when
+            // asked to guess it.
+            if let Some(mut guess) = sniff_layout(path, &parse) {
+                if !self.options.guess_row_tag {
+                    guess.row_tag = None;
+                }
+                guess.apply(&mut parse);
             }
         }
         let added = match &spec.source {

@@ -63,6 +63,16 @@ pub const SNIFF_BYTES: u64 = 256 * 1024;
 /// start here would take those bytes from the real reader) and unreadable files give
 /// `None` (reading them fails later, with the path).
 pub fn sniff_row_tag(file: &Path) -> Option<String> {
+    sniff_layout(file, &crate::parse::ParseOptions::default())?.row_tag
+}
+
+/// Looks at the start of `file` for its layout ([`crate::parse::sniff::sniff_layout`]):
+/// the separator its data lines agree on and the row tag. `None` for standard input and
+/// unreadable files.
+pub fn sniff_layout(
+    file: &Path,
+    options: &crate::parse::ParseOptions,
+) -> Option<crate::parse::sniff::LayoutGuess> {
     use std::io::Read;
     if file == Path::new("-") || !std::fs::metadata(file).ok()?.is_file() {
         return None;
@@ -70,5 +80,5 @@ pub fn sniff_row_tag(file: &Path) -> Option<String> {
     let handle = std::fs::File::open(file).ok()?;
     let mut start = Vec::new();
     handle.take(SNIFF_BYTES).read_to_end(&mut start).ok()?;
-    crate::parse::sniff::sniff_row_tag(&start)
+    Some(crate::parse::sniff::sniff_layout(&start, options))
 }

@@ -9,11 +9,12 @@
 //! order and decides headers, segments, field counts and restarts.
 
 use super::layout::{
-    header_column_count, is_space, trim, wide_header_column_count, Delimiter, DelimiterChoice,
-    Fields,
+    after_label, header_column_count, header_names, is_rule_line, is_space, key_value,
+    may_start_rule, trim, units_line, wide_header_column_count, Delimiter, DelimiterChoice, Fields,
+    Sep, BOM,
 };
 use super::number::{parse_field, parse_plain, Field};
-use super::ParseOptions;
+use super::{ParseOptions, RecordKind, Records};
 
 /// Longest field text kept for a skip reason.
 const REASON_TEXT: usize = 32;
@@ -51,7 +52,19 @@ pub(crate) enum Item {
         wide_columns: u32,
         delim: Delimiter,
         commented: bool,
+        /// A units line (`[K] [bar]`): `columns` cells, each a unit or empty.
+        units: bool,
     },
+    /// A `key = value` / `key: value` line: key `text[start..start+key]`, value
+    /// `text[start+key..start+len]`.
+    Meta {
+        line: u64,
+        start: usize,
+        key: usize,
+        len: usize,
+    },
+    /// A decoration (rule) line.
+    Rule { line: u64 },
     /// A data-like line that failed.
     Skipped { line: u64, why: BlockSkip },
     /// Free text.
@@ -105,7 +118,8 @@ impl BlockResult {
     }
 }
 
-/// Parses the complete lines of `bytes` (everything up to and including its last `\n`).
+/// Parses the complete lines of `bytes` (everything up to and including its last line
+/// ending: `\n`, `\r\n` or a lone `\r`, see [`super::endings`]).
 /// Returns the number of bytes consumed; bytes after the last newline are not looked at.
 pub fn parse_block(bytes: &[u8], options: &ParseOptions) -> (BlockResult, usize) {
     let mut out = BlockResult::default();
@@ -124,14 +138,11 @@ pub fn parse_block_into(bytes: &[u8], options: &ParseOptions, out: &mut BlockRes
             }
         }
     }
-    let mut start = 0usize;
     let mut line = 0u64;
-    for nl in memchr::memchr_iter(b'\n', bytes) {
-        let text = bytes.get(start..nl).unwrap_or_default();
+    let start = super::endings::for_each_line(bytes, |text| {
         classify(text, line, options, &firsts, out);
         line += 1;
-        start = nl + 1;
-    }
+    });
     out.lines = line;
     out.bytes = start as u64;
     out.transpose();
@@ -193,50 +204,109 @@ fn classify(
         out.items.push(Item::Overlong { line });
         return;
     }
-    let raw = match raw {
+    let mut raw = match raw {
         [head @ .., b'\r'] => head,
         _ => raw,
     };
+    if raw.first() == Some(&0xEF) {
+        raw = raw.strip_prefix(BOM).unwrap_or(raw);
+    }
     let t = trim(raw);
-    if t.is_empty() {
+    // Without spaces but with its tabs, for a tab-separated units line.
+    let keep = trim_spaces(raw);
+    let Some(&first) = t.first() else {
         out.items.push(Item::Blank { line });
         return;
+    };
+    if may_start_rule(first) && is_rule_line(t) {
+        out.items.push(Item::Rule { line });
+        return;
     }
-    let maybe_comment = t
-        .first()
-        .is_some_and(|&b| comment_firsts.get(usize::from(b)).copied().unwrap_or(false));
+    let maybe_comment = comment_firsts
+        .get(usize::from(first))
+        .copied()
+        .unwrap_or(false);
     for prefix in options.comment_prefixes.iter().filter(|_| maybe_comment) {
         if let Some(rest) = t.strip_prefix(prefix.as_bytes()) {
             if !prefix.is_empty() {
-                if !candidate(rest, line, true, options, out) {
+                let kept = keep.strip_prefix(prefix.as_bytes()).map(trim_spaces);
+                if !candidate(rest, kept, line, true, options, out) {
                     out.items.push(Item::Comment { line });
                 }
                 return;
             }
         }
     }
+    if let Some(records) = &options.records {
+        if !record_row(t, line, records, out)
+            && !candidate(t, Some(keep), line, false, options, out)
+            && !meta(t, line, options, out)
+        {
+            out.items.push(Item::Text { line });
+        }
+        return;
+    }
     if let Some(tag) = &options.row_tag {
         let tag = tag.as_bytes();
-        let end = t
-            .iter()
-            .position(|&b| b == b' ' || b == b'\t' || b == b',')
-            .unwrap_or(t.len());
-        let (first, rest) = t.split_at(end);
-        let tagged = first == tag
-            || (first.len() == tag.len() + 1
-                && first.starts_with(tag)
-                && first.last() == Some(&b':'));
+        let sep = Sep::of(options.delimiter.for_data(t));
+        let sep_first = sep.as_ref().and_then(|s| s.bytes().first().copied());
+        let glued = tag.last().is_some_and(|b| !b.is_ascii_alphanumeric());
+        let (tagged, rest) = if glued {
+            // A tag of punctuation may be glued to the numbers (`>12 300.5`).
+            match t.strip_prefix(tag) {
+                Some(rest) => (true, rest),
+                None => (false, t),
+            }
+        } else {
+            let end = t
+                .iter()
+                .position(|&b| b == b' ' || b == b'\t' || b == b',' || Some(b) == sep_first)
+                .unwrap_or(t.len());
+            let (first, rest) = t.split_at(end);
+            let tagged = first == tag
+                || (first.len() == tag.len() + 1
+                    && first.starts_with(tag)
+                    && first.last() == Some(&b':'));
+            (tagged, rest)
+        };
         if !tagged {
-            if !candidate(t, line, false, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out)
+            {
                 out.items.push(Item::Text { line });
             }
             return;
         }
+        // The same with its tabs (a tab-separated units line behind the tag): one tab after
+        // the tag separates it from the first cell.
+        let kept = keep
+            .get(t.len() - rest.len()..)
+            .filter(|_| {
+                keep.len() >= t.len()
+                    && keep.starts_with(t.get(..t.len() - rest.len()).unwrap_or_default())
+            })
+            .map(|r| r.strip_prefix(b":").unwrap_or(r))
+            .map(|r| {
+                if glued {
+                    r
+                } else {
+                    r.strip_prefix(b"\t").unwrap_or(r)
+                }
+            });
+        let rest = trim(rest);
+        let rest = if sep_first == Some(b':') {
+            rest
+        } else {
+            rest.strip_prefix(b":").unwrap_or(rest)
+        };
         let rest = rest.strip_prefix(b",").unwrap_or(rest);
+        let rest = match &sep {
+            Some(s) if !glued => rest.strip_prefix(s.bytes()).unwrap_or(rest),
+            _ => rest,
+        };
         match data(rest, line, options, out) {
             DataOutcome::Done => {}
             DataOutcome::NotData => {
-                if !candidate(rest, line, false, options, out) {
+                if !candidate(rest, kept, line, false, options, out) {
                     out.items.push(Item::Skipped {
                         line,
                         why: BlockSkip::TaggedNotData,
@@ -249,11 +319,170 @@ fn classify(
     match data(t, line, options, out) {
         DataOutcome::Done => {}
         DataOutcome::NotData => {
-            if !candidate(t, line, false, options, out) {
+            if !candidate(t, Some(keep), line, false, options, out) && !meta(t, line, options, out)
+            {
                 out.items.push(Item::Text { line });
             }
         }
     }
+}
+
+/// Calls `f` with each name and numeric value of a row that carries its own names
+/// (`kind`). Values that are not numbers (text, `true`, lists) are left out.
+pub(crate) fn record_fields(t: &[u8], kind: RecordKind, mut f: impl FnMut(&[u8], f64)) {
+    match kind {
+        RecordKind::Json => {
+            let Ok(Ordered(map)) = serde_json::from_slice::<Ordered>(t) else {
+                return;
+            };
+            for (k, v) in &map {
+                match v {
+                    serde_json::Value::Object(inner) => {
+                        for (k2, v2) in inner {
+                            if let Some(x) = json_number(v2) {
+                                f(format!("{k}.{k2}").as_bytes(), x);
+                            }
+                        }
+                    }
+                    other => {
+                        if let Some(x) = json_number(other) {
+                            f(k.as_bytes(), x);
+                        }
+                    }
+                }
+            }
+        }
+        RecordKind::Pairs => {
+            let stop = |b: u8| is_space(b) || matches!(b, b',' | b';' | b'|');
+            let mut i = 0usize;
+            while i < t.len() {
+                while t.get(i).is_some_and(|&b| stop(b)) {
+                    i += 1;
+                }
+                let start = i;
+                while t.get(i).is_some_and(|&b| !stop(b) && b != b'=') {
+                    i += 1;
+                }
+                let name = t.get(start..i).unwrap_or_default();
+                if name.is_empty() {
+                    i += 1; // a lone `=`
+                    continue;
+                }
+                let mut j = i;
+                while t.get(j).is_some_and(|&b| is_space(b)) {
+                    j += 1;
+                }
+                if t.get(j) != Some(&b'=') {
+                    continue; // a word that is not a pair (a tag, free text)
+                }
+                j += 1;
+                while t.get(j).is_some_and(|&b| is_space(b)) {
+                    j += 1;
+                }
+                let vstart = j;
+                while t.get(j).is_some_and(|&b| !stop(b)) {
+                    j += 1;
+                }
+                i = j;
+                let value = super::layout::unquote(t.get(vstart..j).unwrap_or_default());
+                if let Field::Value(x) = parse_field(value) {
+                    f(name, x);
+                }
+            }
+        }
+    }
+}
+
+/// A JSON object's entries in the order written.
+struct Ordered(Vec<(String, serde_json::Value)>);
+
+impl<'de> serde::Deserialize<'de> for Ordered {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Ordered, D::Error> {
+        struct Entries;
+        impl<'de> serde::de::Visitor<'de> for Entries {
+            type Value = Ordered;
+            fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str("a JSON object")
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(
+                self,
+                mut m: A,
+            ) -> Result<Ordered, A::Error> {
+                let mut out = Vec::new();
+                while let Some(entry) = m.next_entry::<String, serde_json::Value>()? {
+                    out.push(entry);
+                }
+                Ok(Ordered(out))
+            }
+        }
+        d.deserialize_map(Entries)
+    }
+}
+
+fn json_number(v: &serde_json::Value) -> Option<f64> {
+    match v {
+        serde_json::Value::Number(n) => n.as_f64(),
+        serde_json::Value::String(s) => match parse_field(s.trim().as_bytes()) {
+            Field::Value(x) => Some(x),
+            _ => None,
+        },
+        _ => None,
+    }
+}
+
+/// Records `t` as a row if it carries values for the record names; false when it holds no
+/// number under any of them (free text, an object of text).
+fn record_row(t: &[u8], line: u64, records: &Records, out: &mut BlockResult) -> bool {
+    let n = records.names.len();
+    let start = out.values.len();
+    out.values.resize(start + n, f64::NAN);
+    let mut found = 0usize;
+    record_fields(t, records.kind, |name, x| {
+        if let Some(k) = records.names.iter().position(|c| c.as_bytes() == name) {
+            if let Some(slot) = out.values.get_mut(start + k) {
+                *slot = x;
+                found += 1;
+            }
+        }
+    });
+    if found == 0 {
+        out.values.truncate(start);
+        return false;
+    }
+    let fields = u32::try_from(n).unwrap_or(u32::MAX);
+    out.note_row(fields, 0);
+    out.items.push(Item::Row {
+        line,
+        fields,
+        delim: Delimiter::Whitespace,
+        overflows: 0,
+    });
+    true
+}
+
+/// `s` without spaces (only) at both ends.
+fn trim_spaces(s: &[u8]) -> &[u8] {
+    let a = s.iter().position(|&b| b != b' ').unwrap_or(s.len());
+    let b = s.iter().rposition(|&b| b != b' ').map_or(a, |b| b + 1);
+    s.get(a..b).unwrap_or_default()
+}
+
+/// Records `t` as a preamble line if it reads as `key = value` or `key: value`.
+fn meta(t: &[u8], line: u64, options: &ParseOptions, out: &mut BlockResult) -> bool {
+    let sep = options.delimiter.for_data(t).separator();
+    let Some((key, value)) = key_value(t, sep) else {
+        return false;
+    };
+    let start = out.text.len();
+    out.text.extend_from_slice(key);
+    out.text.extend_from_slice(value);
+    out.items.push(Item::Meta {
+        line,
+        start,
+        key: key.len(),
+        len: key.len() + value.len(),
+    });
+    true
 }
 
 enum DataOutcome {
@@ -401,16 +630,46 @@ fn take(out: &mut BlockResult, parsed: Field, index: u32) -> bool {
     true
 }
 
-/// Records `text` as a header candidate if it looks like one.
+/// Records `text` as a header candidate if it looks like one: a line of names, the same
+/// behind a label word ending in `:` (when one of its names reads as a role), or a units
+/// line.
 fn candidate(
     text: &[u8],
+    keep: Option<&[u8]>,
     line: u64,
     commented: bool,
     options: &ParseOptions,
     out: &mut BlockResult,
 ) -> bool {
     let text = super::layout::trim(text);
-    let delim = options.delimiter.for_header(text);
+    // A units line keeps its tabs at both ends (empty cells of a tab-separated table).
+    let spaced = keep
+        .filter(|k| options.delimiter.for_header(k) == Delimiter::Tab)
+        .unwrap_or(text);
+    let delim = options.delimiter.for_header(spaced);
+    if let Some(cells) = units_line(spaced, delim) {
+        push_candidate(
+            spaced,
+            line,
+            (cells.len(), 0),
+            delim,
+            (commented, true),
+            out,
+        );
+        return true;
+    }
+    if let Some(rest) = after_label(text).filter(|_| delim.separator() != Some(':')) {
+        let d = options.delimiter.for_header(rest);
+        if let Some(columns) = header_column_count(rest, d) {
+            let named = header_names(rest, d)
+                .iter()
+                .any(|n| crate::mapping::guess_role(&n.name).is_some());
+            if named {
+                push_candidate(rest, line, (columns, 0), d, (commented, false), out);
+                return true;
+            }
+        }
+    }
     let columns = header_column_count(text, delim);
     let wide = if delim == Delimiter::Whitespace {
         wide_header_column_count(text).filter(|&w| Some(w) != columns)
@@ -420,18 +679,42 @@ fn candidate(
     if columns.is_none() && wide.is_none() {
         return false;
     }
+    // `key = value` and `title: water box` are preamble lines, not headers (a header
+    // behind a label was taken above).
+    if key_value(text, delim.separator()).is_some() {
+        return false;
+    }
+    push_candidate(
+        text,
+        line,
+        (columns.unwrap_or(0), wide.unwrap_or(0)),
+        delim,
+        (commented, false),
+        out,
+    );
+    true
+}
+
+fn push_candidate(
+    text: &[u8],
+    line: u64,
+    (columns, wide): (usize, usize),
+    delim: Delimiter,
+    (commented, units): (bool, bool),
+    out: &mut BlockResult,
+) {
     let start = out.text.len();
     out.text.extend_from_slice(text);
     out.items.push(Item::Candidate {
         line,
         start,
         len: text.len(),
-        columns: columns.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
-        wide_columns: wide.map_or(0, |c| u32::try_from(c).unwrap_or(u32::MAX)),
+        columns: u32::try_from(columns).unwrap_or(u32::MAX),
+        wide_columns: u32::try_from(wide).unwrap_or(u32::MAX),
         delim,
         commented,
+        units,
     });
-    true
 }
 
 #[cfg(test)]

@@ -77,6 +77,7 @@
 //! change the segment or restart it goes one row at a time, with the same result.
 
 pub mod block;
+pub mod endings;
 pub mod layout;
 pub mod number;
 pub mod sniff;
@@ -89,6 +90,9 @@ use crate::table::{Column, PartialLine, RunTable, Segment, SkipReason};
 pub use block::{parse_block, parse_block_into, BlockResult};
 use block::{BlockSkip, Item, MAX_LINE};
 pub use layout::{Delimiter, DelimiterChoice, HeaderName};
+
+/// Fewer rows than this in a finished segment tell nothing about counters.
+const MIN_COUNTER_ROWS: usize = 5;
 
 /// Comment prefixes used unless `--comment` is given.
 pub const DEFAULT_COMMENT_PREFIXES: [&str; 6] = ["#", "!", ";", "@", "%", "//"];
@@ -110,6 +114,31 @@ pub struct ParseOptions {
     pub maps: Vec<MapRequest>,
     /// Time step in ps, to derive time from step.
     pub timestep_ps: Option<f64>,
+    /// Rows that carry their own names (`name=value` pairs, one JSON object per line), when
+    /// the start of the log showed them ([`sniff::sniff_layout`]).
+    pub records: Option<Records>,
+}
+
+/// How rows that carry their own names are written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum RecordKind {
+    /// `step=100 temp=300.5 press=1.0` (pairs separated by spaces, commas, semicolons or `|`).
+    Pairs,
+    /// One JSON object per line (`{"step": 100, "temp": 300.5}`); an object inside the
+    /// object gives names `outer.inner`.
+    Json,
+}
+
+/// Rows that carry their own names: the kind and the columns (the names with a numeric
+/// value at the start of the log, in order of first appearance). A name first seen later is
+/// not a column; a row without a name has no value (NaN) there.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Records {
+    /// The kind.
+    pub kind: RecordKind,
+    /// The columns.
+    pub names: Vec<String>,
 }
 
 impl Default for ParseOptions {
@@ -123,6 +152,7 @@ impl Default for ParseOptions {
             row_tag: None,
             maps: Vec::new(),
             timestep_ps: None,
+            records: None,
         }
     }
 }
@@ -139,6 +169,8 @@ struct Candidate {
     wide_columns: usize,
     delim: Delimiter,
     commented: bool,
+    /// A units line (`[K] [bar]`), applied to the names line above it.
+    units: bool,
 }
 
 /// The chunk-fed parser. See the module docs.
@@ -156,6 +188,11 @@ pub struct LogParser {
     spare: Vec<Vec<u8>>,
     /// True when the last non-blank line was the newest candidate.
     adjacent: bool,
+    /// The last complete line ended with `\r`: a `\n` first in the next chunk belongs to it.
+    skip_lf: bool,
+    /// Per segment: counters were looked for in its first rows (see
+    /// [`mapping::counters_from_data`]).
+    counters_done: Vec<bool>,
 }
 
 impl LogParser {
@@ -172,6 +209,8 @@ impl LogParser {
             candidates: VecDeque::new(),
             spare: Vec::new(),
             adjacent: false,
+            skip_lf: false,
+            counters_done: Vec::new(),
         }
     }
 
@@ -224,15 +263,24 @@ impl LogParser {
 
     /// Feeds the next bytes of the input (any chunking).
     pub fn feed(&mut self, mut chunk: &[u8]) {
+        if chunk.is_empty() {
+            return;
+        }
+        if self.skip_lf {
+            // The `\n` of a `\r\n` whose `\r` ended the last chunk.
+            self.skip_lf = false;
+            chunk = chunk.strip_prefix(b"\n").unwrap_or(chunk);
+        }
         if !self.pending.is_empty() || self.pending_overlong {
-            match memchr::memchr(b'\n', chunk) {
+            match endings::first_end(chunk) {
                 None => {
                     self.hold(chunk);
                     return;
                 }
                 Some(i) => {
-                    let (head, rest) = chunk.split_at(i + 1);
+                    let (head, rest) = chunk.split_at(i);
                     chunk = rest;
+                    self.skip_lf = rest.is_empty() && head.last() == Some(&b'\r');
                     if self.pending_overlong {
                         self.pending_overlong = false;
                         self.pending.clear();
@@ -251,10 +299,11 @@ impl LogParser {
                 }
             }
         }
-        match memchr::memrchr(b'\n', chunk) {
-            None => self.hold(chunk),
-            Some(i) => {
-                let (complete, rest) = chunk.split_at(i + 1);
+        match endings::complete_len(chunk) {
+            0 => self.hold(chunk),
+            i => {
+                let (complete, rest) = chunk.split_at(i);
+                self.skip_lf = rest.is_empty() && complete.last() == Some(&b'\r');
                 self.parse_and_apply(complete);
                 self.hold(rest);
             }
@@ -280,8 +329,18 @@ impl LogParser {
         self.scratch = scratch;
     }
 
-    /// Ends the input: a held-back partial line is ignored and recorded.
+    /// Ends the input: a held-back partial line is ignored and recorded; segments too short
+    /// to have had their counters looked for (fewer than [`mapping::COUNTER_ROWS`] rows, at
+    /// least five) are looked at now.
     pub fn finish(&mut self) {
+        for (i, seg) in self.table.segments.iter_mut().enumerate() {
+            if let Some(done) = self.counters_done.get_mut(i) {
+                if !*done && seg.rows() >= MIN_COUNTER_ROWS {
+                    *done = true;
+                    find_counters(seg);
+                }
+            }
+        }
         if !self.pending.is_empty() || self.pending_overlong {
             self.table.partial_line = Some(PartialLine {
                 line: self.lines_done + 1,
@@ -343,6 +402,7 @@ impl LogParser {
                     wide_columns,
                     delim,
                     commented,
+                    units,
                 } => {
                     let text = block.text.get(start..start + len).unwrap_or_default();
                     if commented {
@@ -355,9 +415,34 @@ impl LogParser {
                         text,
                         (columns as usize, wide_columns as usize),
                         delim,
-                        commented,
+                        (commented, units),
                     );
                 }
+                Item::Meta {
+                    line,
+                    start,
+                    key,
+                    len,
+                } => {
+                    self.adjacent = false;
+                    if self.table.segments.is_empty() {
+                        self.table.metadata_lines += 1;
+                        if self.table.metadata.len() < crate::table::METADATA_KEPT {
+                            let text = |a: usize, b: usize| {
+                                layout::decode_text(block.text.get(a..b).unwrap_or_default())
+                                    .into_owned()
+                            };
+                            self.table.metadata.push(crate::table::Metadata {
+                                line: base + line + 1,
+                                key: text(start, start + key),
+                                value: text(start + key, start + len),
+                            });
+                        }
+                    } else {
+                        self.table.text_lines += 1;
+                    }
+                }
+                Item::Rule { .. } => self.table.decoration_lines += 1,
                 Item::Skipped { line, why } => {
                     let reason = || match why {
                         BlockSkip::NotANumber { field, start, len } => SkipReason::NotANumber {
@@ -397,7 +482,7 @@ impl LogParser {
         text: &[u8],
         (columns, wide_columns): (usize, usize),
         delim: Delimiter,
-        commented: bool,
+        (commented, units): (bool, bool),
     ) {
         let mut buf = if self.candidates.len() >= CANDIDATES_KEPT {
             // Decided lazily (and once per candidate): only a full list needs it.
@@ -429,6 +514,7 @@ impl LogParser {
             wide_columns,
             delim,
             commented,
+            units,
             headerish: None,
         });
         self.adjacent = true;
@@ -442,30 +528,50 @@ impl LogParser {
     }
 
     /// The header (if any) that applies to a row of `fields` fields: Some(new segment names).
+    /// A units line after the names line (with as many cells) gives the names their units.
     fn header_for(&mut self, fields: usize) -> Option<(Vec<HeaderName>, u64, Delimiter, bool)> {
         let ci = self
             .candidates
             .iter()
-            .rposition(|c| c.columns == fields || c.wide_columns == fields)?;
-        let newest = ci + 1 == self.candidates.len() && self.adjacent;
+            .rposition(|c| !c.units && (c.columns == fields || c.wide_columns == fields))?;
+        let ui = self
+            .candidates
+            .iter()
+            .enumerate()
+            .skip(ci + 1)
+            .find(|(_, c)| c.units && layout::units_fit(&c.text, c.delim, fields).is_some())
+            .map(|(i, _)| i);
+        let last = self.candidates.len().saturating_sub(1);
+        let newest = (ci == last || ui == Some(last)) && self.adjacent;
         let cand = self.candidates.get(ci)?;
-        let names = if cand.columns == fields {
+        let mut names = if cand.columns == fields {
             layout::header_names(&cand.text, cand.delim)
         } else {
             layout::wide_header_names(&cand.text)
         };
         let (line, delim, commented) = (cand.line, cand.delim, cand.commented);
+        let units = ui.and_then(|i| self.candidates.get(i)).and_then(|u| {
+            layout::units_fit(&u.text, u.delim, fields).map(|cells| (cells, u.commented))
+        });
+        if let Some((cells, _)) = &units {
+            for (name, unit) in names.iter_mut().zip(cells) {
+                if let Some(u) = unit {
+                    name.unit = Some(u.clone());
+                }
+            }
+        }
+        let units_commented = units.map(|(_, c)| c);
         let current = self.current.and_then(|i| self.table.segments.get(i));
         match current {
             Some(seg) if seg.fields == fields => {
                 if seg.names == names {
-                    self.count_header(commented);
+                    self.count_header(commented, units_commented);
                     if let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) {
                         seg.header_repeats += 1;
                     }
                     None
                 } else if newest && looks_like_header(&names) {
-                    self.count_header(commented);
+                    self.count_header(commented, units_commented);
                     Some((names, line, delim, commented))
                 } else {
                     None
@@ -476,20 +582,23 @@ impl LogParser {
             // fields would swallow every later row).
             Some(_) if !looks_like_header(&names) => None,
             _ => {
-                self.count_header(commented);
+                self.count_header(commented, units_commented);
                 Some((names, line, delim, commented))
             }
         }
     }
 
-    /// A candidate became a header: count it as a header instead of text or comment.
-    fn count_header(&mut self, commented: bool) {
-        if commented {
-            self.table.comment_lines = self.table.comment_lines.saturating_sub(1);
-        } else {
-            self.table.text_lines = self.table.text_lines.saturating_sub(1);
+    /// A candidate (and its units line, if any) became a header: count it as a header
+    /// instead of text or comment.
+    fn count_header(&mut self, commented: bool, units_commented: Option<bool>) {
+        for c in std::iter::once(commented).chain(units_commented) {
+            if c {
+                self.table.comment_lines = self.table.comment_lines.saturating_sub(1);
+            } else {
+                self.table.text_lines = self.table.text_lines.saturating_sub(1);
+            }
+            self.table.header_lines += 1;
         }
-        self.table.header_lines += 1;
     }
 
     fn start_segment(
@@ -509,6 +618,7 @@ impl LogParser {
             self.table.warn(w);
         }
         let fields = names.len();
+        self.counters_done.push(false);
         self.table.segments.push(Segment {
             header_line,
             names,
@@ -547,23 +657,44 @@ impl LogParser {
     /// Appends a run of rows to the current segment; see [`Self::row_run`].
     fn on_rows(&mut self, base: u64, run: RowRun<'_>) {
         self.adjacent = false;
-        let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) else {
+        let Some(si) = self.current else {
             return;
         };
+        let Some(seg) = self.table.segments.get_mut(si) else {
+            return;
+        };
+        let mut undecided = self.counters_done.get_mut(si);
         let rows = run.len();
         let mut start = 0usize;
         while start < rows {
-            // Rows up to the next restart go in bulk; the restarting row goes alone.
-            let rest = run.part(start, rows);
+            // Rows up to the next restart go in bulk; the restarting row goes alone. While
+            // the counters are not known, no further than the row that decides them.
+            let limit = match &undecided {
+                Some(done) if !**done => {
+                    (start + mapping::COUNTER_ROWS.saturating_sub(seg.rows()).max(1)).min(rows)
+                }
+                _ => rows,
+            };
+            let rest = run.part(start, limit);
             let end = start + first_restart(seg, &rest);
             push_rows(seg, base, &run.part(start, end));
-            if let (Some(Item::Row { line, .. }), Some(row)) = (
-                run.items.get(end),
-                run.values.get(end * run.n..(end + 1) * run.n),
-            ) {
-                push_row(seg, base + line + 1, row, &[]);
+            if end < limit {
+                if let (Some(Item::Row { line, .. }), Some(row)) = (
+                    run.items.get(end),
+                    run.values.get(end * run.n..(end + 1) * run.n),
+                ) {
+                    push_row(seg, base + line + 1, row, &[]);
+                }
+                start = end + 1;
+            } else {
+                start = end;
             }
-            start = end + 1;
+            if let Some(done) = undecided.as_deref_mut() {
+                if !*done && seg.rows() >= mapping::COUNTER_ROWS {
+                    *done = true;
+                    find_counters(seg);
+                }
+            }
         }
     }
 
@@ -594,6 +725,15 @@ impl LogParser {
                 });
                 return;
             }
+            None if self.options.records.is_some() => {
+                let names = self
+                    .options
+                    .records
+                    .as_ref()
+                    .map(|r| r.names.iter().map(|n| HeaderName::from_token(n)).collect())
+                    .unwrap_or_default();
+                self.start_segment(names, None, delim, false);
+            }
             None => {
                 let data_delim = if delim == Delimiter::Whitespace
                     && self.options.delimiter == DelimiterChoice::Tab
@@ -606,10 +746,19 @@ impl LogParser {
             }
         }
         self.clear_candidates();
-        let Some(seg) = self.current.and_then(|i| self.table.segments.get_mut(i)) else {
+        let Some(si) = self.current else {
+            return;
+        };
+        let Some(seg) = self.table.segments.get_mut(si) else {
             return;
         };
         push_row(seg, line, values, overflows);
+        if let Some(done) = self.counters_done.get_mut(si) {
+            if !*done && seg.rows() >= mapping::COUNTER_ROWS {
+                *done = true;
+                find_counters(seg);
+            }
+        }
     }
 }
 
@@ -631,6 +780,55 @@ fn looks_like_header(names: &[HeaderName]) -> bool {
         .filter(|n| mapping::guess_role(&n.name).is_some())
         .count();
     roles >= 2 || (roles == 1 && names.len() <= 2)
+}
+
+/// Gives the counters found in the first rows of a segment their role
+/// ([`mapping::counters_from_data`]); the step (else time) column found orders the rows for
+/// restarts when no named one does.
+fn find_counters(seg: &mut Segment) {
+    let rows = seg.rows().min(mapping::COUNTER_ROWS);
+    let found = {
+        let view: Vec<(Option<mapping::Role>, &[f64])> = seg
+            .columns
+            .iter()
+            .map(|c| {
+                let role = c
+                    .spec
+                    .role
+                    .or(c.spec.field.is_none().then_some(mapping::Role::Time));
+                (role, c.values.get(..rows).unwrap_or_default())
+            })
+            .collect();
+        mapping::counters_from_data(&view)
+    };
+    for &(i, role) in &found {
+        if let Some(col) = seg.columns.get_mut(i) {
+            col.spec.role = Some(role);
+            col.spec.role_source = Some(mapping::RoleSource::FromData);
+            if role == mapping::Role::Time {
+                col.spec.source_unit = Some(crate::units::Unit::Picosecond);
+                col.spec.unit = Some(crate::units::Unit::Picosecond);
+                col.spec.assumed = true;
+            }
+        }
+    }
+    let named_step = seg
+        .order_column
+        .and_then(|o| seg.columns.get(o))
+        .is_some_and(|c| c.spec.role == Some(mapping::Role::Step));
+    if !named_step {
+        let step = found
+            .iter()
+            .find(|(_, r)| *r == mapping::Role::Step)
+            .map(|(i, _)| *i);
+        let time = found
+            .iter()
+            .find(|(_, r)| *r == mapping::Role::Time)
+            .map(|(i, _)| *i);
+        if let Some(o) = step.or(seg.order_column.is_none().then_some(time).flatten()) {
+            seg.order_column = Some(o);
+        }
+    }
 }
 
 /// Appends one row (source values) to a segment, converting to canonical units and applying
@@ -800,6 +998,20 @@ fn source_value(col: &Column, values: &[f64], derived: Option<(usize, f64)>) -> 
                 * col.spec.scale
         }
     }
+}
+
+/// Parses a whole input held in memory after reading its layout from its start (the first
+/// 256 KiB, as the commands do for a file: [`sniff::sniff_layout`]); the guess is returned.
+pub fn parse_bytes_guessing(
+    bytes: &[u8],
+    mut options: ParseOptions,
+) -> (RunTable, sniff::LayoutGuess) {
+    let start = bytes
+        .get(..bytes.len().min(sniff::SNIFF_BYTES))
+        .unwrap_or_default();
+    let guess = sniff::sniff_layout(start, &options);
+    guess.apply(&mut options);
+    (parse_bytes(bytes, options), guess)
 }
 
 /// Parses a whole input held in memory (convenience for tests and small inputs).
