@@ -35,9 +35,9 @@
 //! rows stay in the statistics.
 
 use crate::alert::{RowLocator, RunStatus};
-use crate::config::Ensemble;
 use crate::fold::{FoldedSeries, DEFAULT_KEEP_ROWS, MIN_KEEP_ROWS};
 use crate::mapping::Role;
+use crate::stats::Ensemble;
 use crate::stats::{self, Equilibration, Estimator, FluctuationCheck, Moments};
 use crate::table::{RunTable, Segment};
 
@@ -575,11 +575,7 @@ impl Analyzer {
                     (part(Role::Total), part(Role::Kinetic), part(Role::Volume));
                 stats::infer_ensemble(total.as_deref(), kinetic.as_deref(), volume.as_deref()).map(
                     |g| EnsembleChoice {
-                        ensemble: match g.ensemble {
-                            stats::Ensemble::Nve => Ensemble::Nve,
-                            stats::Ensemble::Nvt => Ensemble::Nvt,
-                            stats::Ensemble::Npt => Ensemble::Npt,
-                        },
+                        ensemble: g.ensemble,
                         given: false,
                         reason: format!("{} (recent rows)", g.reason),
                     },
