@@ -2,8 +2,8 @@
 //! the run's status and progress.
 
 use super::{
-    empty_analysis, folded, time_values, AnalysisOptions, ColumnCursor, ColumnFlags, Progress,
-    RunAnalysis, ScanPlan,
+    empty_analysis, folded, time_values, AnalysisOptions, ColumnCursor, ColumnFlags, DriftPer,
+    Progress, RunAnalysis, ScanPlan,
 };
 use crate::alert::{
     AlertEngine, AlertKind, DriftEvidence, FluctuationEvidence, RunStatus, Severity, StatusInputs,
@@ -158,7 +158,9 @@ impl Analyzer {
             }
         }
         analysis.progress = self.progress(table, &analysis, arrivals);
-        analysis.status = self.status(&analysis, ended);
+        let (status, reason) = self.status(&analysis, ended);
+        analysis.status = status;
+        analysis.status_reason = reason;
         analysis
     }
 
@@ -192,30 +194,63 @@ impl Analyzer {
         );
     }
 
-    fn status(&self, a: &RunAnalysis, ended: bool) -> RunStatus {
+    /// The run's status and the rule that decided it (rules of [`RunStatus`]): an active
+    /// critical alert of any kind makes the run unstable.
+    fn status(&self, a: &RunAnalysis, ended: bool) -> (RunStatus, String) {
         let active = self.engine.active();
-        let unstable = active.iter().any(|x| {
-            matches!(x.kind, AlertKind::Nonfinite | AlertKind::Runaway)
-                && x.severity == Severity::Critical
-                && x.row.is_some_and(|r| r as usize >= a.first_row)
-        });
-        let stalled = active.iter().any(|x| x.kind == AlertKind::Stalled);
+        let where_ = |x: &crate::alert::Alert| {
+            let col = x
+                .column
+                .as_deref()
+                .map(|c| format!(" on {c}"))
+                .unwrap_or_default();
+            let row = x.row.map(|r| format!(" from row {r}")).unwrap_or_default();
+            format!("{}{col}{row}", x.kind.name())
+        };
+        let critical = active.iter().find(|x| x.severity == Severity::Critical);
+        let stalled = active.iter().find(|x| x.kind == AlertKind::Stalled);
         let drifting = active
             .iter()
-            .any(|x| x.kind == AlertKind::Drift && x.severity >= Severity::Warning);
+            .find(|x| x.kind == AlertKind::Drift && x.severity >= Severity::Warning);
         let equilibrated = matches!(a.equilibration, Some(Equilibration::Onset { .. }));
-        let still_changing = a.columns.iter().any(|c| {
-            a.equilibration_from.contains(&c.name)
-                && c.trend.as_ref().is_some_and(|t| t.still_changing)
-        });
-        RunStatus::decide(&StatusInputs {
-            unstable,
-            stalled,
+        let changing: Vec<&str> = a
+            .columns
+            .iter()
+            .filter(|c| c.trend.as_ref().is_some_and(|t| t.still_changing))
+            .map(|c| c.name.as_str())
+            .collect();
+        let status = RunStatus::decide(&StatusInputs {
+            unstable: critical.is_some(),
+            stalled: stalled.is_some(),
             finished: ended,
-            drifting,
+            drifting: drifting.is_some(),
             equilibrated,
-            still_changing,
-        })
+            still_changing: !changing.is_empty(),
+        });
+        let reason = match status {
+            RunStatus::Unstable => format!(
+                "a critical alert is not cleared: {}",
+                critical.map(|x| where_(x)).unwrap_or_default()
+            ),
+            RunStatus::Finished => "the run is over".to_string(),
+            RunStatus::Stalled => "no new row for the stall limit".to_string(),
+            RunStatus::Drifting => format!(
+                "a drift alert is active: {}",
+                drifting.map(|x| where_(x)).unwrap_or_default()
+            ),
+            RunStatus::Settling if !equilibrated => match a.equilibration {
+                Some(Equilibration::TooShort) => "too few rows to judge equilibration".to_string(),
+                _ => "not equilibrated yet".to_string(),
+            },
+            RunStatus::Settling => format!(
+                "still changing after the run's onset: {}",
+                changing.join(", ")
+            ),
+            RunStatus::Steady => {
+                "equilibrated, no trend, no drift and no critical alert".to_string()
+            }
+        };
+        (status, reason)
     }
 
     fn progress(&self, table: &RunTable, a: &RunAnalysis, arrivals: Option<&[f64]>) -> Progress {
@@ -283,7 +318,11 @@ impl Analyzer {
         let loc = self.folding.locator(seg, si, a.first_row);
         let index = self.evaluation;
         for c in &a.columns {
-            if let Some(d) = &c.drift {
+            if let Some(d) = c
+                .drift
+                .as_ref()
+                .filter(|d| d.conservation && d.per == DriftPer::Ns)
+            {
                 let ev = DriftEvidence {
                     column: &c.name,
                     unit: &c.unit,

@@ -26,14 +26,49 @@ pub struct ProductionStats {
 /// Trend after the onset.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TrendSummary {
+    /// Slope per ns (needs the time column).
     pub slope_per_ns: Option<f64>,
+    /// Slope per row.
+    pub slope_per_row: f64,
+    /// Fitted change across the production window, in the column's unit.
+    pub change: f64,
+    /// Standard error of the production mean the change is compared with.
+    pub sem: Option<f64>,
+    /// Two-sided p-value of the block-means slope test (before Holm's correction).
     pub p_value: f64,
+    /// Significant after Holm's correction across the run's quantities and larger than
+    /// the practical size ([`super::TREND_MIN_CHANGE_SEM`]).
     pub still_changing: bool,
 }
 
-/// Drift fit after the run's onset.
+/// What a drift rate is per: ns (a time column, or `--timestep`), step (a step column
+/// only) or row (neither).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DriftPer {
+    Ns,
+    Step,
+    Row,
+}
+
+impl DriftPer {
+    /// The name (`ns`, `step`, `row`).
+    pub fn name(self) -> &'static str {
+        match self {
+            DriftPer::Ns => "ns",
+            DriftPer::Step => "step",
+            DriftPer::Row => "row",
+        }
+    }
+}
+
+/// Drift fit after the run's onset. The `_per_ns` fields are per [`DriftSummary::per`].
 #[derive(Debug, Clone, PartialEq)]
 pub struct DriftSummary {
+    /// What the rates are per.
+    pub per: DriftPer,
+    /// A conservation test: the conserved column, or the total energy in NVE. Otherwise
+    /// the total energy's drift is shown ("conserved only in NVE") and raises no alert.
+    pub conservation: bool,
     pub from_row: usize,
     pub slope_per_ns: f64,
     pub stderr_per_ns: f64,
@@ -134,6 +169,8 @@ pub struct RunAnalysis {
     pub degrees_of_freedom: Option<f64>,
     pub progress: Progress,
     pub status: RunStatus,
+    /// The rule that decided the status, in words.
+    pub status_reason: String,
     /// Set when older rows were folded into block summaries (bounded memory).
     pub folding: Option<FoldingSummary>,
 }
@@ -149,6 +186,7 @@ pub(super) fn empty_analysis(nseg: usize) -> RunAnalysis {
         degrees_of_freedom: None,
         progress: Progress::default(),
         status: RunStatus::Settling,
+        status_reason: String::new(),
         folding: None,
     }
 }

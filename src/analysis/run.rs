@@ -1,10 +1,12 @@
 //! The run's full statistics: columns, the run's onset, ensemble, drift and fluctuation size.
 
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
+use super::results::DriftPer;
 use super::{
-    blockwise_inefficiency, empty_analysis, finite_part_mean, first_nonfinite, has_statistics,
-    production, runaway_flags, runaway_options, stable_part, time_values, trend, AnalysisOptions,
-    Analyzer, ColumnAnalysis, ColumnFlags, DriftSummary, EnsembleChoice, Progress, RunAnalysis,
+    blockwise_inefficiency, empty_analysis, finite_part_mean, first_nonfinite, judge_trends,
+    observable, production, runaway_flags, runaway_options, stable_part, time_values, trend,
+    AnalysisOptions, Analyzer, ColumnAnalysis, ColumnFlags, DriftSummary, EnsembleChoice, Progress,
+    RunAnalysis,
 };
 use crate::alert::RunStatus;
 use crate::mapping::Role;
@@ -36,7 +38,7 @@ impl Analyzer {
             .columns
             .iter()
             .enumerate()
-            .filter(|(_, c)| has_statistics(c.spec.role))
+            .filter(|(_, c)| observable(c))
             .collect();
         let stable_end = map_in_order(&analysed, parallel, |&(ci, c)| {
             let v = c.values();
@@ -44,8 +46,8 @@ impl Analyzer {
             let first_runaway = match known.and_then(|k| k.get(ci)).and_then(Option::as_ref) {
                 Some(flags) => flags.runaway.first().map(|f| f.0),
                 None => {
-                    let mut cache = None;
-                    runaway_flags(v, 0..end, &ropts, &mut cache, true)
+                    let mut state = Default::default();
+                    runaway_flags(v, 0..end, &ropts, &mut state, true)
                         .first()
                         .map(|f| f.0)
                 }
@@ -60,22 +62,20 @@ impl Analyzer {
             let values = c.values();
             let finite_end = first_nonfinite(values).min(stable_end);
             let x = values.get(..finite_end).unwrap_or(&[]);
-            let (equilibration, mser, production, trend) = if has_statistics(c.spec.role) {
+            let is_observable = observable(c);
+            let (equilibration, mser, production) = if is_observable {
                 let eq = stats::detect_equilibration(x);
                 let mser = stats::mser5(x);
                 let production = match eq {
                     Equilibration::Onset { row, g, n_eff } => production(x, row, g, n_eff),
                     _ => None,
                 };
-                let trend = eq
-                    .row()
-                    .and_then(|row| trend(x.get(row..).unwrap_or(&[]), seg, row));
-                (Some(eq), mser, production, trend)
+                (Some(eq), mser, production)
             } else {
-                (None, None, None, None)
+                (None, None, None)
             };
             // Only the off-target check reads it, and only without a production g.
-            let needs_inefficiency_all = has_statistics(c.spec.role)
+            let needs_inefficiency_all = is_observable
                 && production.as_ref().and_then(|p| p.inefficiency).is_none()
                 && match c.spec.role {
                     Some(Role::Temperature) => opts.target_temperature.is_some(),
@@ -87,7 +87,6 @@ impl Analyzer {
                 equilibration,
                 mser,
                 production,
-                trend,
                 last: values.last().copied(),
                 inefficiency_all: if needs_inefficiency_all {
                     blockwise_inefficiency(x)
@@ -127,6 +126,34 @@ impl Analyzer {
         let run_eq = stats::combine_onsets(&onsets);
         let run_row = run_eq.and_then(|e| e.row());
 
+        // Trends from the run's onset (a column's own "not yet" does not hide them).
+        if let Some(row) = run_row {
+            let trends = map_in_order(&seg.columns, parallel, |c| {
+                if !observable(c) {
+                    return None;
+                }
+                let v = c.values();
+                let end = first_nonfinite(v).min(stable_end);
+                let tail = v.get(row.min(end)..end)?;
+                let own = columns
+                    .iter()
+                    .find(|a| a.name == c.spec.name)
+                    .and_then(|a| a.production.as_ref());
+                let g = own
+                    .and_then(|p| p.inefficiency)
+                    .or_else(|| stats::inefficiency(tail).map(|i| i.g))
+                    .unwrap_or(1.0);
+                let sem = own.and_then(|p| p.sem_block.or(p.sem_from_g)).or_else(|| {
+                    stats::variance_population(tail)
+                        .and_then(|v| stats::sem_from_g(v, g, tail.len()))
+                });
+                trend(tail, seg, g, sem)
+            });
+            for (c, t) in columns.iter_mut().zip(trends) {
+                c.trend = t;
+            }
+        }
+
         // Ensemble.
         let ensemble = match self.opts.ensemble {
             Some(e) => Some(EnsembleChoice {
@@ -140,34 +167,74 @@ impl Analyzer {
                     let end = first_nonfinite(v).min(stable_end);
                     v.get(run_row.unwrap_or(0).min(end)..end)
                 };
-                stats::infer_ensemble(part(Role::Total), part(Role::Kinetic), part(Role::Volume))
-                    .map(|g| EnsembleChoice {
+                // Without a kinetic column the potential energy stands in for it (in NVE
+                // ΔU = −ΔK row to row), or the temperature as N_df·k_B·T/2 when N_df is known
+                // (equipartition).
+                let n_df = self.opts.degrees_of_freedom();
+                let scaled_temperature: Option<Vec<f64>> = match (n_df, part(Role::Temperature)) {
+                    (Some(n), Some(t)) => Some(
+                        t.iter()
+                            .map(|x| 0.5 * n * stats::BOLTZMANN_KJ_PER_MOL_K * x)
+                            .collect(),
+                    ),
+                    _ => None,
+                };
+                let (kinetic, stand_in) = match (part(Role::Kinetic), part(Role::Potential)) {
+                    (Some(k), _) => (Some(k), ""),
+                    (None, Some(u)) => (Some(u), "potential energy in place of the kinetic: "),
+                    (None, None) => (
+                        scaled_temperature.as_deref(),
+                        "N_df·k_B·T/2 in place of the kinetic energy: ",
+                    ),
+                };
+                stats::infer_ensemble(part(Role::Total), kinetic, part(Role::Volume)).map(|g| {
+                    EnsembleChoice {
                         ensemble: g.ensemble,
                         given: false,
-                        reason: g.reason,
-                    })
+                        reason: if g.ensemble == Ensemble::Npt {
+                            g.reason
+                        } else {
+                            format!("{stand_in}{}", g.reason)
+                        },
+                    }
+                })
             }
         };
         let n_df = self.opts.degrees_of_freedom();
 
-        // Drift on the conserved column (or total in NVE), after the run's onset.
-        let drift_role = if seg.column(Role::Conserved).is_some() {
-            Some(Role::Conserved)
-        } else if ensemble
+        // Drift whenever an energy is logged: the conserved column, else the total energy
+        // (a conservation test only in NVE; shown otherwise, labelled, with no alert).
+        let nve = ensemble
             .as_ref()
-            .is_some_and(|e| e.ensemble == Ensemble::Nve)
-        {
-            Some(Role::Total)
+            .is_some_and(|e| e.ensemble == Ensemble::Nve);
+        let (drift_role, conservation) = if seg.column(Role::Conserved).is_some() {
+            (Some(Role::Conserved), true)
+        } else if seg.column(Role::Total).is_some() {
+            (Some(Role::Total), nve)
         } else {
-            None
+            (None, false)
         };
-        let times = time_values(seg);
-        // After the run's onset; from the segment's start while the run has no onset (a
-        // drift strong enough to keep the run from settling is still a drift).
-        let drift_from =
-            run_row.or_else(|| matches!(run_eq, Some(Equilibration::NotYet)).then_some(0));
+        // Per ns with a time column, else per step (step column) or per row.
+        let rows_axis: Vec<f64>;
+        let (axis, per) = match (time_values(seg), seg.column(Role::Step)) {
+            (Some(t), _) => (t, DriftPer::Ns),
+            (None, Some(s)) => (s.values(), DriftPer::Step),
+            (None, None) => {
+                rows_axis = (0..seg.rows()).map(|i| i as f64).collect();
+                (rows_axis.as_slice(), DriftPer::Row)
+            }
+        };
+        // After the run's onset; from the segment's start while the run has none (a drift
+        // strong enough to keep the run from settling is still a drift).
+        let drift_from = run_row.or_else(|| {
+            matches!(
+                run_eq,
+                Some(Equilibration::NotYet) | Some(Equilibration::TooShort)
+            )
+            .then_some(0)
+        });
         let drift_task = || -> Option<(Role, DriftSummary)> {
-            let (role, row, times) = (drift_role?, drift_from?, times?);
+            let (role, row, times) = (drift_role?, drift_from?, axis);
             let temperature_mean = seg
                 .column(Role::Temperature)
                 .and_then(|c| finite_part_mean(stable_part(c.values(), stable_end), row));
@@ -185,6 +252,8 @@ impl Analyzer {
                 temperature_mean,
                 kinetic_mean,
                 c.unit == "kJ/mol",
+                per,
+                conservation,
             )?;
             Some((role, d))
         };
@@ -206,11 +275,16 @@ impl Analyzer {
         // deviations), and run side by side the two copies would raise the peak memory.
         let drift = drift_task();
         let fluctuation = fluctuation_task();
+        let mut conserved_name = None;
         if let Some((role, d)) = drift {
             if let Some(c) = columns.iter_mut().find(|c| c.role == Some(role)) {
+                if d.conservation {
+                    conserved_name = Some(c.name.clone());
+                }
                 c.drift = Some(d);
             }
         }
+        judge_trends(&mut columns, conserved_name.as_deref());
         if let Some(f) = fluctuation {
             if let Some(c) = columns
                 .iter_mut()
@@ -230,6 +304,7 @@ impl Analyzer {
             degrees_of_freedom: n_df,
             progress: Progress::default(),
             status: RunStatus::Settling,
+            status_reason: String::new(),
             folding: None,
         }
     }
@@ -245,14 +320,23 @@ pub(super) fn drift_summary(
     temperature_mean: Option<f64>,
     kinetic_mean: Option<f64>,
     is_energy: bool,
+    per: DriftPer,
+    conservation: bool,
 ) -> Option<DriftSummary> {
     let end = first_nonfinite(values).min(first_nonfinite(times));
     let y = values.get(row..end)?;
     let t = times.get(row..end)?;
     let d = stats::drift(t, y, SlopeSeMethod::SqrtG, DRIFT_CONFIDENCE)?;
-    let slope = stats::per_ns(d.fit.slope);
-    let se = stats::per_ns(d.se);
-    let (kt, how) = if !is_energy {
+    let scale = |v: f64| {
+        if per == DriftPer::Ns {
+            stats::per_ns(v)
+        } else {
+            v
+        }
+    };
+    let slope = scale(d.fit.slope);
+    let se = scale(d.se);
+    let (kt, how) = if !is_energy || per != DriftPer::Ns {
         (None, None)
     } else if let (Some(n), Some(temp)) = (n_df, temperature_mean) {
         (
@@ -270,9 +354,11 @@ pub(super) fn drift_summary(
         slope_per_ns: slope,
         stderr_per_ns: se,
         method: d.method,
-        ci_low_per_ns: stats::per_ns(d.ci_low),
-        ci_high_per_ns: stats::per_ns(d.ci_high),
+        ci_low_per_ns: scale(d.ci_low),
+        ci_high_per_ns: scale(d.ci_high),
         per_atom_per_ns: opts.atoms.and_then(|a| stats::per_atom(slope, a)),
+        per,
+        conservation,
         kt_per_ns_per_dof: kt,
         normalisation: how.filter(|_| kt.is_some()),
         significant: se > 0.0 && (slope / se).abs() > opts.thresholds.drift_sigmas,

@@ -4,9 +4,9 @@ use std::ops::Range;
 
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
 use super::{
-    analysed_count, beyond_context, has_statistics, runaway_flags, runaway_options,
-    spike_threshold, time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan,
-    TableLocator, RUNAWAY_FAR_SIGMAS,
+    analysed_count, beyond_context, observable, runaway_flags, runaway_options, spike_threshold,
+    time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan, TableLocator,
+    RUNAWAY_FAR_SIGMAS,
 };
 use crate::alert::{AlertKind, OffTargetInput, Severity, Sustain};
 use crate::mapping::Role;
@@ -70,7 +70,7 @@ impl Analyzer {
         let new_rows = plan.n - plan.start.min(plan.spike_start);
         let parallel = new_rows.saturating_mul(analysed_count(seg)) >= PARALLEL_MIN_VALUES;
         let done = map_in_order(&jobs, parallel, |&(col, cache)| {
-            if !has_statistics(col.spec.role) {
+            if !observable(col) {
                 return None;
             }
             let values = col.values();
@@ -155,7 +155,7 @@ impl Analyzer {
             // Non-finite.
             self.engine
                 .scan_nonfinite(name, &unit, values, start..n, offset, &loc);
-            if !has_statistics(col.spec.role) {
+            if !observable(col) {
                 continue;
             }
             let Some(found) = flags.get(ci).and_then(Option::as_ref) else {
