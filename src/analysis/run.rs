@@ -139,9 +139,10 @@ impl Analyzer {
                     .iter()
                     .find(|a| a.name == c.spec.name)
                     .and_then(|a| a.production.as_ref());
-                let g = own
-                    .and_then(|p| p.inefficiency)
-                    .or_else(|| stats::inefficiency(tail).map(|i| i.g))
+                // g of the detrended tail: a trend inflates g, and with it the blocks,
+                // and would hide itself.
+                let g = detrended_inefficiency(tail)
+                    .or_else(|| own.and_then(|p| p.inefficiency))
                     .unwrap_or(1.0);
                 let sem = own.and_then(|p| p.sem_block.or(p.sem_from_g)).or_else(|| {
                     stats::variance_population(tail)
@@ -363,4 +364,13 @@ pub(super) fn drift_summary(
         normalisation: how.filter(|_| kt.is_some()),
         significant: se > 0.0 && (slope / se).abs() > opts.thresholds.drift_sigmas,
     })
+}
+
+/// Statistical inefficiency of the residuals of a least-squares line through `x` (rows as
+/// abscissa): the autocorrelation of the noise without that of a trend (METHODS §4.2).
+pub(super) fn detrended_inefficiency(x: &[f64]) -> Option<f64> {
+    let rows: Vec<f64> = (0..x.len()).map(|i| i as f64).collect();
+    let fit = stats::ols(&rows, x)?;
+    let residuals = fit.residuals(&rows, x);
+    stats::inefficiency(&residuals).map(|i| i.g)
 }

@@ -56,7 +56,8 @@ impl Rng {
 pub enum Fault {
     /// Nothing planted.
     None,
-    /// A linear drift of 10 standard errors of the OLS slope over the whole run.
+    /// A linear drift over the whole run of 10 standard errors of the OLS slope fitted over
+    /// the run's last half.
     Drift,
     /// One row 20 SD away.
     Spike,
@@ -82,7 +83,7 @@ impl Fault {
     pub fn name(self) -> &'static str {
         match self {
             Fault::None => "healthy",
-            Fault::Drift => "drift (10 SE of the slope)",
+            Fault::Drift => "drift (10 SE of the slope over the last half)",
             Fault::Spike => "single-row spike (20 SD)",
             Fault::Runaway => "exponential runaway",
             Fault::OffTarget => "temperature 10 % off target",
@@ -168,10 +169,11 @@ pub fn generate(case: &Case) -> Planted {
     match case.fault {
         Fault::None => {}
         Fault::Drift => {
-            // SE of the OLS slope per row for AR(1) noise: sqrt(12 g σ² / N³), g = (1+φ)/(1−φ)
-            // (large-N textbook result; METHODS §4.2).
+            // SE of the OLS slope per row for AR(1) noise over M rows: sqrt(12 g σ² / M³),
+            // g = (1+φ)/(1−φ) (large-N textbook result; METHODS §4.2), taken over the last
+            // half of the run (M = N/2), the part a user keeps as production.
             let g = (1.0 + phi) / (1.0 - phi);
-            let se = (12.0 * g / (n as f64).powi(3)).sqrt() * sd;
+            let se = (12.0 * g / (n as f64 / 2.0).powi(3)).sqrt() * sd;
             let b = 10.0 * se * sign;
             for (r, v) in col.iter_mut().enumerate() {
                 *v += b * (r as f64 - n as f64 / 2.0);
