@@ -157,7 +157,8 @@ pub(super) fn judge_trends(columns: &mut [ColumnAnalysis], skip: Option<&str>) {
         if let Some(t) = c.trend.as_mut() {
             let large = t
                 .sem
-                .is_none_or(|s| !(s > 0.0) || t.change.abs() > TREND_MIN_CHANGE_SEM * s);
+                .filter(|s| *s > 0.0)
+                .is_none_or(|s| t.change.abs() > TREND_MIN_CHANGE_SEM * s);
             t.still_changing = r && large;
         }
     }

@@ -408,7 +408,7 @@ pub fn draw(fault: Fault, i: usize, base_seed: u64, min_rows: usize, max_rows: u
         .between((min_rows as f64).ln(), (max_rows as f64).ln())
         .exp() as usize;
     let phi = rng.between(0.0, 0.95);
-    let plain = fault == Fault::OffTarget || i % 2 == 0;
+    let plain = fault == Fault::OffTarget || i.is_multiple_of(2);
     Case {
         rows,
         phi,
@@ -498,7 +498,7 @@ pub fn median(v: &[f64]) -> f64 {
     }
     s.sort_by(f64::total_cmp);
     let m = s.len() / 2;
-    if s.len() % 2 == 1 {
+    if !s.len().is_multiple_of(2) {
         s[m]
     } else {
         0.5 * (s[m - 1] + s[m])
