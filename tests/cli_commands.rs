@@ -62,7 +62,7 @@ fn columns_text_lists_skipped_lines_with_file_and_line() {
 #[test]
 fn columns_json() {
     let v = json(&["columns", "--format", "json"], "commented_units.log");
-    assert_eq!(v["schema_version"], 2);
+    assert_eq!(v["schema_version"], 1);
     assert_eq!(v["rows"], 3);
     assert_eq!(v["lines"], 5);
     let c = &v["segments"][0]["columns"];
