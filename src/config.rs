@@ -41,11 +41,9 @@
 //! and a valid and an invalid fixture under `tests/fixtures/configs_*`.
 
 use std::collections::BTreeMap;
-use std::fmt;
 use std::path::{Path, PathBuf};
-use std::str::FromStr;
 
-use serde::{Deserialize, Serialize};
+use serde::Deserialize;
 
 use crate::cli::InputArgs;
 use crate::error::ConfigError;
@@ -56,39 +54,8 @@ use crate::units::{parse_quantity, Dimension};
 /// The settings file looked for in the current folder.
 pub const CONFIG_FILE_NAME: &str = "plateau.toml";
 
-/// Thermodynamic ensemble of a run.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
-#[serde(rename_all = "kebab-case")]
-pub enum Ensemble {
-    /// Constant energy (microcanonical).
-    Nve,
-    /// Constant temperature (canonical).
-    Nvt,
-    /// Constant temperature and pressure.
-    Npt,
-}
-
-impl FromStr for Ensemble {
-    type Err = String;
-    fn from_str(s: &str) -> Result<Ensemble, String> {
-        match s.trim().to_ascii_lowercase().as_str() {
-            "nve" => Ok(Ensemble::Nve),
-            "nvt" => Ok(Ensemble::Nvt),
-            "npt" => Ok(Ensemble::Npt),
-            _ => Err(format!("'{s}' is not an ensemble (nve, nvt, npt)")),
-        }
-    }
-}
-
-impl fmt::Display for Ensemble {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
-            Ensemble::Nve => "nve",
-            Ensemble::Nvt => "nvt",
-            Ensemble::Npt => "npt",
-        })
-    }
-}
+/// Thermodynamic ensemble of a run (defined with the statistics; re-exported here).
+pub use crate::stats::Ensemble;
 
 /// A number in the canonical unit or a text with a suffix (`timestep = 0.002` or `"2fs"`).
 #[derive(Debug, Clone, PartialEq, Deserialize)]

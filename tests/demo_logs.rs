@@ -137,10 +137,9 @@ fn density_settles_where_generated_and_raises_nothing() {
     assert!(r.alerts.is_empty(), "{:#?}", r.alerts);
 }
 
-/// Today the trend test calls the strongly correlated potential energy (φ = 0.92 per row)
-/// "still changing" after the onset (p ≈ 0.006), a false alarm the verdicts rework removes.
+/// The strongly correlated potential energy (φ = 0.92 per row) once was called "still
+/// changing" after the onset (p ≈ 0.006); the block-means trend test does not cry wolf.
 #[test]
-#[ignore = "needs the verdicts rework: the trend test cries wolf on strongly correlated series"]
 fn density_settling_is_steady_after_its_onset() {
     assert_eq!(report(Scenario::DensitySettling).status, RunStatus::Steady);
 }
@@ -200,11 +199,9 @@ fn heating_along_a_wrong_schedule_is_off_target() {
     assert_eq!(of_kind(&r, AlertKind::TemperatureOffTarget).len(), 1);
 }
 
-/// Today the trend test calls the potential and total energies "still changing" on the
-/// hold after the ramp (p ≈ 0.008 on series with g ≈ 7), a false alarm the verdicts rework
-/// removes.
+/// The potential and total energies once were called "still changing" on the hold after
+/// the ramp (p ≈ 0.008 on series with g ≈ 7); the block-means trend test does not.
 #[test]
-#[ignore = "needs the verdicts rework: the trend test cries wolf on strongly correlated series"]
 fn heating_is_steady_on_its_hold() {
     assert_eq!(report(Scenario::Heating).status, RunStatus::Steady);
 }

@@ -152,6 +152,9 @@ pub struct Alert {
     pub unit: Option<String>,
     /// Plain text: what happened and what to look at.
     pub message: String,
+    /// Row at which the alert was raised (its condition sustained long enough); `row` is
+    /// the first row of the episode.
+    pub raised_row: Option<u64>,
 }
 
 impl Alert {
@@ -167,6 +170,7 @@ impl Alert {
             value: None,
             unit: None,
             message: message.into(),
+            raised_row: None,
         }
     }
 
@@ -396,7 +400,9 @@ impl AlertEngine {
                 Transition::Raised { since } => {
                     let since = usize::try_from(since).unwrap_or(row);
                     state.raised = Some(self.alerts.len());
-                    self.alerts.push(make(since, row));
+                    let mut a = make(since, row);
+                    a.raised_row = Some(row as u64);
+                    self.alerts.push(a);
                     raised += 1;
                 }
                 Transition::Cleared | Transition::None => {}
@@ -431,7 +437,9 @@ impl AlertEngine {
             if let Transition::Raised { since } = state.hysteresis.observe(row as u64, true) {
                 let since = usize::try_from(since).unwrap_or(row);
                 state.raised = Some(self.alerts.len());
-                self.alerts.push(make(since, row));
+                let mut a = make(since, row);
+                a.raised_row = Some(row as u64);
+                self.alerts.push(a);
                 raised += 1;
             }
             next = row + 1;

@@ -1,8 +1,8 @@
 //! Run status: one word for the state of a run, decided from the analysis and the active
 //! alerts by fixed rules, first match wins:
 //!
-//! 1. `unstable` — a non-finite value or runaway growth is active in the run's last
-//!    segment (a critical `nonfinite` or `runaway` alert not cleared since).
+//! 1. `unstable` — a critical alert of any kind is active in the run's last segment (a
+//!    non-finite value, runaway growth, ... not cleared since).
 //! 2. `finished` — the run is known to be over: while following, the `--until` time or step
 //!    was reached, the process given by `--pid` exited or standard input ended. A file read
 //!    whole by `report` or `check` is not "finished" by this rule (nothing says the writer
@@ -76,7 +76,7 @@ impl fmt::Display for RunStatus {
 /// Facts the status is decided from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub struct StatusInputs {
-    /// An active critical `nonfinite` or `runaway` alert in the last segment.
+    /// An active critical alert (of any kind) in the last segment.
     pub unstable: bool,
     /// An active `stalled` alert.
     pub stalled: bool,

@@ -35,18 +35,19 @@
 //! rows stay in the statistics.
 
 use crate::alert::{RowLocator, RunStatus};
-use crate::config::Ensemble;
 use crate::fold::{FoldedSeries, DEFAULT_KEEP_ROWS, MIN_KEEP_ROWS};
 use crate::mapping::Role;
+use crate::stats::Ensemble;
 use crate::stats::{self, Equilibration, Estimator, FluctuationCheck, Moments};
 use crate::table::{RunTable, Segment};
 
+use super::results::DriftPer;
 use super::{
-    blockwise_inefficiency, drift_summary, empty_analysis, first_nonfinite, has_statistics,
-    row_interval_ps, runaway_flags, runaway_options, time_values, AnalysisOptions, Analyzer,
-    ColumnAnalysis, ColumnFlags, EnsembleChoice, ProductionStats, Progress, RunAnalysis,
-    TableLocator, TrendSummary, RUNAWAY_BASELINE_ROWS, RUNAWAY_BASELINE_STEP, SPIKE_CONTEXT_ROWS,
-    TREND_MAX_POINTS, TREND_P_VALUE,
+    blockwise_inefficiency, drift_summary, empty_analysis, first_nonfinite, judge_trends,
+    observable, runaway_flags, runaway_lookback, runaway_options, runaway_windows, time_values,
+    trend_of_means, AnalysisOptions, Analyzer, ColumnAnalysis, ColumnFlags, EnsembleChoice,
+    ProductionStats, Progress, RunAnalysis, TableLocator, TrendSummary, RUNAWAY_BASELINE_ROWS,
+    RUNAWAY_BASELINE_STEP, RUNAWAY_SCALES, SPIKE_CONTEXT_ROWS,
 };
 
 /// Folded blocks kept per column: at most `keep_rows / BLOCKS_DIVISOR`.
@@ -165,12 +166,7 @@ impl FoldState {
 fn detector_margin(opts: &AnalysisOptions) -> usize {
     let t = &opts.thresholds;
     let k = t.spike_window.max(1);
-    2 * k
-        + SPIKE_CONTEXT_ROWS
-        + RUNAWAY_BASELINE_ROWS
-        + RUNAWAY_BASELINE_STEP
-        + t.runaway_window.max(3)
-        + t.off_target_window.max(2)
+    2 * k + SPIKE_CONTEXT_ROWS + runaway_lookback(t.runaway_window) + t.off_target_window.max(2)
 }
 
 /// First row of `seg` (kept rows) where the statistics stop: the first non-finite value or
@@ -180,12 +176,12 @@ fn stable_end(seg: &Segment, opts: &AnalysisOptions, clean: usize) -> usize {
     let ropts = runaway_options(&opts.thresholds);
     seg.columns
         .iter()
-        .filter(|c| has_statistics(c.spec.role))
+        .filter(|c| observable(c))
         .map(|c| {
             let v = c.values();
             let end = first_nonfinite(v);
-            let mut cache = None;
-            runaway_flags(v, clean.min(end)..end, &ropts, &mut cache, true)
+            let mut state = Default::default();
+            runaway_flags(v, clean.min(end)..end, &ropts, &mut state, true)
                 .first()
                 .map_or(end, |f| f.0)
         })
@@ -296,21 +292,15 @@ impl ColumnView {
         })
     }
 
-    fn trend(&self, row: usize, seg: &Segment) -> Option<TrendSummary> {
-        let tt = stats::trend_test(self.means.get(row / self.b..)?, TREND_MAX_POINTS)?;
-        let p = tt
-            .hamed_rao
-            .map(|h| h.p_value)
-            .unwrap_or(tt.mann_kendall.p_value);
-        let slope_per_ns = match (tt.sen_slope_per_sample, row_interval_ps(seg)) {
-            (Some(s), Some(dt)) => Some(s / self.b as f64 / dt * 1000.0),
-            _ => None,
-        };
-        Some(TrendSummary {
-            slope_per_ns,
-            p_value: p,
-            still_changing: p < TREND_P_VALUE,
-        })
+    fn trend(
+        &self,
+        row: usize,
+        seg: &Segment,
+        p: Option<&ProductionStats>,
+    ) -> Option<TrendSummary> {
+        let g = p.and_then(|p| p.inefficiency).unwrap_or(self.b as f64);
+        let sem = p.and_then(|p| p.sem_block.or(p.sem_from_g));
+        trend_of_means(self.means.get(row / self.b..)?, self.b, seg, g, sem)
     }
 }
 
@@ -374,7 +364,7 @@ impl Analyzer {
         }
         let t = &self.opts.thresholds;
         let k = t.spike_window.max(1);
-        let w = t.runaway_window.max(3);
+        let w = runaway_windows(t.runaway_window)[RUNAWAY_SCALES - 1];
         let scanned = self.scanned.get(last).copied().unwrap_or(0).min(rows);
         let spiked = self.spike_scanned.get(last).copied().unwrap_or(0).min(rows);
         let limits = [
@@ -449,12 +439,17 @@ impl Analyzer {
             for cursor in self.cursors.get_mut(si).into_iter().flatten() {
                 // A multiple of the baseline step keeps the cached baseline's rows; any
                 // other drop (earlier segments, already scanned) recomputes it.
-                cursor.baseline = match cursor.baseline {
-                    Some((end, b)) if end >= drop && drop.is_multiple_of(RUNAWAY_BASELINE_STEP) => {
-                        Some((end - drop, b))
-                    }
-                    _ => None,
-                };
+                let state = &mut cursor.baseline;
+                for entry in state.baselines.iter_mut() {
+                    *entry = match *entry {
+                        Some((end, b))
+                            if end >= drop && drop.is_multiple_of(RUNAWAY_BASELINE_STEP) =>
+                        {
+                            Some((end - drop, b))
+                        }
+                        _ => None,
+                    };
+                }
             }
         }
         Some(keep)
@@ -522,7 +517,7 @@ impl Analyzer {
             .iter()
             .zip(&f.columns)
             .map(|(c, folded)| {
-                has_statistics(c.spec.role).then(|| ColumnView::new(folded, &kept_part(c.values())))
+                observable(c).then(|| ColumnView::new(folded, &kept_part(c.values())))
             })
             .collect();
         let mut columns: Vec<ColumnAnalysis> = seg
@@ -535,7 +530,9 @@ impl Analyzer {
                     Some(v) => {
                         let eq = v.onset();
                         let production = eq.row().and_then(|row| v.production(row));
-                        let trend = eq.row().and_then(|row| v.trend(row, seg));
+                        let trend = eq
+                            .row()
+                            .and_then(|row| v.trend(row, seg, production.as_ref()));
                         (Some(eq), v.mser(), production, trend)
                     }
                     None => (None, None, None, None),
@@ -575,11 +572,7 @@ impl Analyzer {
                     (part(Role::Total), part(Role::Kinetic), part(Role::Volume));
                 stats::infer_ensemble(total.as_deref(), kinetic.as_deref(), volume.as_deref()).map(
                     |g| EnsembleChoice {
-                        ensemble: match g.ensemble {
-                            stats::Ensemble::Nve => Ensemble::Nve,
-                            stats::Ensemble::Nvt => Ensemble::Nvt,
-                            stats::Ensemble::Npt => Ensemble::Npt,
-                        },
+                        ensemble: g.ensemble,
                         given: false,
                         reason: format!("{} (recent rows)", g.reason),
                     },
@@ -593,15 +586,15 @@ impl Analyzer {
         };
 
         // Drift: on block means at their mean times, after the run's onset.
-        let drift_role = if seg.column(Role::Conserved).is_some() {
-            Some(Role::Conserved)
-        } else if ensemble
+        let nve = ensemble
             .as_ref()
-            .is_some_and(|e| e.ensemble == Ensemble::Nve)
-        {
-            Some(Role::Total)
+            .is_some_and(|e| e.ensemble == Ensemble::Nve);
+        let (drift_role, conservation) = if seg.column(Role::Conserved).is_some() {
+            (Some(Role::Conserved), true)
+        } else if seg.column(Role::Total).is_some() {
+            (Some(Role::Total), nve)
         } else {
-            None
+            (None, false)
         };
         let drift_from =
             run_row.or_else(|| matches!(run_eq, Some(Equilibration::NotYet)).then_some(0));
@@ -632,6 +625,8 @@ impl Analyzer {
                         mean_from(Role::Temperature),
                         mean_from(Role::Kinetic),
                         c.unit == "kJ/mol",
+                        DriftPer::Ns,
+                        conservation,
                     )
                     .map(|mut d| {
                         d.from_row = from * v.b;
@@ -640,6 +635,12 @@ impl Analyzer {
                 }
             }
         }
+
+        let conserved_name = columns
+            .iter()
+            .find(|c| c.drift.as_ref().is_some_and(|d| d.conservation))
+            .map(|c| c.name.clone());
+        judge_trends(&mut columns, conserved_name.as_deref());
 
         // Fluctuation size: σ_T/⟨T⟩ exact from the moments; the band's g from recent rows.
         let canonical = ensemble
@@ -678,6 +679,7 @@ impl Analyzer {
             degrees_of_freedom: n_df,
             progress: Progress::default(),
             status: RunStatus::Settling,
+            status_reason: String::new(),
             folding: Some(FoldingSummary {
                 keep_rows: self.folding.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS),
                 rows_folded: forgotten as u64,

@@ -60,12 +60,16 @@ fn column_report(c: &ColumnAnalysis, first_row: usize, loc: &TableLocator<'_>) -
             max: Some(p.max),
         }),
         trend: c.trend.as_ref().map(|t| Trend {
-            test: "mann-kendall-hamed-rao".to_string(),
+            test: "block-means-slope-holm".to_string(),
             slope_per_ns: t.slope_per_ns,
             p_value: Some(t.p_value),
+            change: Some(t.change),
+            sem: t.sem,
             still_changing: t.still_changing,
         }),
         drift: c.drift.as_ref().map(|d| DriftReport {
+            per: d.per.name().to_string(),
+            conservation: d.conservation,
             from_row: (first_row + d.from_row) as u64,
             slope_per_ns: d.slope_per_ns,
             stderr_per_ns: d.stderr_per_ns,
@@ -176,6 +180,7 @@ pub fn build_report(
         segments,
         restarts,
         status: analysis.status,
+        status_reason: analysis.status_reason.clone(),
         ensemble: analysis.ensemble.as_ref().map(|e| EnsembleInfo {
             name: e.ensemble.to_string(),
             how: if e.given { "given" } else { "inferred" }.to_string(),

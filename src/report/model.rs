@@ -14,7 +14,7 @@ use super::number;
 
 /// Version of the JSON layout. Raised when a key is removed or changes meaning; adding a
 /// key does not raise it.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
 
 /// How many skipped lines are listed in detail.
 pub const SKIPPED_DETAIL_LIMIT: usize = 100;
@@ -39,6 +39,9 @@ pub struct Report {
     /// Restarts: the step counter went back and later rows replaced earlier ones.
     pub restarts: Vec<Restart>,
     pub status: RunStatus,
+    /// The rule that decided the status, in words.
+    #[serde(default)]
+    pub status_reason: String,
     /// The ensemble used by the fluctuation test and drift choice, and how it was known.
     pub ensemble: Option<EnsembleInfo>,
     /// Degrees of freedom used (from `--dof`, or `--atoms`/`--constraints`).
@@ -234,16 +237,28 @@ pub struct Trend {
     /// Sen or least-squares slope, per ns.
     #[serde(default, with = "number::opt")]
     pub slope_per_ns: Option<f64>,
-    /// Two-sided p-value.
+    /// Two-sided p-value (before Holm's correction across the run's quantities).
     #[serde(default, with = "number::opt")]
     pub p_value: Option<f64>,
-    /// The test finds a trend at the 1 % level.
+    /// Fitted change across the window from the run's onset, in the column's unit.
+    #[serde(default, with = "number::opt")]
+    pub change: Option<f64>,
+    /// Standard error of the mean the change is compared with.
+    #[serde(default, with = "number::opt")]
+    pub sem: Option<f64>,
+    /// Significant after Holm's correction (1 % for the run) and a change above the
+    /// practical size.
     pub still_changing: bool,
 }
 
 /// Drift of the conserved energy.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct DriftReport {
+    /// What the `_per_ns` rates are per: `ns`, or `step` / `row` without a time column.
+    pub per: String,
+    /// A conservation test (the conserved column, or the total energy in NVE); otherwise
+    /// shown only, "conserved only in NVE", with no alert.
+    pub conservation: bool,
     /// First row of the fit.
     pub from_row: u64,
     /// Least-squares slope, unit per ns.
@@ -338,6 +353,9 @@ pub struct AlertRecord {
     pub value: Option<f64>,
     pub unit: Option<String>,
     pub message: String,
+    /// Row at which the alert was raised (`row` is the episode's first row).
+    #[serde(default)]
+    pub raised_row: Option<u64>,
 }
 
 impl From<&Alert> for AlertRecord {
@@ -352,6 +370,7 @@ impl From<&Alert> for AlertRecord {
             value: a.value,
             unit: a.unit.clone(),
             message: a.message.clone(),
+            raised_row: a.raised_row,
         }
     }
 }
@@ -369,6 +388,7 @@ impl AlertRecord {
             value: self.value,
             unit: self.unit.clone(),
             message: self.message.clone(),
+            raised_row: self.raised_row,
         }
     }
 }

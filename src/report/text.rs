@@ -132,9 +132,15 @@ fn findings(r: &Report) -> Vec<String> {
     for c in &r.columns {
         if let Some(d) = &c.drift {
             let mut s = format!(
-                "drift of {}: {} per ns ({}% interval {} .. {})",
+                "drift of {}{}: {} per {} ({}% interval {} .. {})",
                 c.name,
+                if d.conservation {
+                    ""
+                } else {
+                    " (conserved only in NVE: shown, no alert)"
+                },
                 value_with_error(d.slope_per_ns, Some(d.stderr_per_ns)),
+                d.per,
                 format_number(d.confidence * 100.0, ""),
                 format_number(d.ci_low_per_ns, ""),
                 format_number(d.ci_high_per_ns, c.unit.as_str()),
@@ -168,11 +174,17 @@ fn findings(r: &Report) -> Vec<String> {
             ));
         }
         if let Some(t) = &c.trend {
-            if t.still_changing && c.drift.is_none() {
+            if t.still_changing {
                 out.push(format!(
-                    "trend in {} after its onset: {} per ns (p = {}): still changing",
+                    "trend in {} after the run's onset: {} per ns, a change of {} ({} SEM; \
+                     p = {} before Holm's correction): still changing",
                     c.name,
                     opt_number(t.slope_per_ns, c.unit.as_str()),
+                    opt_number(t.change, c.unit.as_str()),
+                    match (t.change, t.sem) {
+                        (Some(ch), Some(se)) if se > 0.0 => sig3(ch.abs() / se),
+                        _ => "-".to_string(),
+                    },
                     opt_number(t.p_value, "")
                 ));
             }
@@ -184,8 +196,9 @@ fn findings(r: &Report) -> Vec<String> {
 fn header_lines(r: &Report) -> Vec<String> {
     let mut lines = Vec::new();
     lines.push(format!(
-        "status: {}   rows: {}   segments: {}   skipped lines: {}",
+        "status: {} ({})   rows: {}   segments: {}   skipped lines: {}",
         r.status.name(),
+        r.status_reason,
         r.rows,
         r.segments.len(),
         r.skipped_lines

@@ -171,16 +171,38 @@ pub fn fluctuation_band(
     })
 }
 
-/// Thermodynamic ensemble.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+/// Thermodynamic ensemble of a run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "kebab-case")]
 pub enum Ensemble {
-    /// Constant energy.
+    /// Constant energy (microcanonical).
     Nve,
-    /// Constant temperature.
+    /// Constant temperature (canonical).
     Nvt,
-    /// Constant pressure.
+    /// Constant temperature and pressure.
     Npt,
+}
+
+impl std::str::FromStr for Ensemble {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Ensemble, String> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "nve" => Ok(Ensemble::Nve),
+            "nvt" => Ok(Ensemble::Nvt),
+            "npt" => Ok(Ensemble::Npt),
+            _ => Err(format!("'{s}' is not an ensemble (nve, nvt, npt)")),
+        }
+    }
+}
+
+impl std::fmt::Display for Ensemble {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Ensemble::Nve => "nve",
+            Ensemble::Nvt => "nvt",
+            Ensemble::Npt => "npt",
+        })
+    }
 }
 
 /// An inferred ensemble with the reason, as text.

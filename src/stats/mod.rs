@@ -18,6 +18,7 @@
 //!   rows; [`descriptive::Moments`] folds old data into mergeable blocks in O(1) each.
 
 pub mod acf;
+pub mod block_trend;
 pub mod blocking;
 pub mod descriptive;
 pub mod drift;
@@ -31,6 +32,7 @@ pub mod throughput;
 pub mod trend;
 
 pub use acf::{acf_adjusted, acf_biased, lag_sums};
+pub use block_trend::{block_trend, holm, BlockTrend};
 pub use blocking::{block_average, block_levels, BlockAverage, BlockLevel};
 pub use descriptive::{
     lag1_autocorrelation, mean, min_max, std_dev, summarize, summarize_with_variance, variance,

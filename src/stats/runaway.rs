@@ -179,3 +179,66 @@ pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
         far_row: far_excursion(x, &base, opts, x.len().saturating_sub(w)),
     }
 }
+
+/// Points of a strided growth fit ([`exponential_growth_strided`]).
+pub const STRIDED_FIT_POINTS: usize = 25;
+
+/// The growth rule over the `window` rows that end at row `end` (inclusive) of `x`, fitted
+/// on at most [`STRIDED_FIT_POINTS`] rows spaced evenly back from `end` (so a window of
+/// thousands of rows costs as little as one of twenty), with one more condition than
+/// [`exponential_growth`]: the fit over the window's last half must also grow, by at least
+/// `√min_growth` across that half. Exponential growth keeps its rate over the whole window
+/// and passes; a straight ramp, whose logarithm flattens, does not (common practice, no
+/// source). O([`STRIDED_FIT_POINTS`]).
+pub fn exponential_growth_strided(
+    x: &[f64],
+    end: usize,
+    window: usize,
+    base: &Baseline,
+    opts: &RunawayOptions,
+) -> Option<Growth> {
+    let w = window.max(3);
+    let start = (end + 1).checked_sub(w)?;
+    let stride = w.div_ceil(STRIDED_FIT_POINTS).max(1);
+    let tiny = base.scale * 1e-6;
+    let mut rows = Vec::with_capacity(STRIDED_FIT_POINTS + 1);
+    let mut logs = Vec::with_capacity(STRIDED_FIT_POINTS + 1);
+    let mut i = end;
+    loop {
+        let v = *x.get(i)?;
+        if !v.is_finite() {
+            return None;
+        }
+        rows.push(i as f64);
+        logs.push((v - base.median).abs().max(tiny).ln());
+        if i < start + stride {
+            break;
+        }
+        i -= stride;
+    }
+    rows.reverse();
+    logs.reverse();
+    let fit = ols(&rows, &logs)?;
+    let r2 = fit.r_squared?;
+    let last_dev = (x.get(end)? - base.median).abs();
+    let growth = (fit.slope * (w - 1) as f64).exp();
+    if !(fit.slope > 0.0
+        && r2 > opts.min_r_squared
+        && growth >= opts.min_growth
+        && last_dev > opts.min_sigmas * base.scale)
+    {
+        return None;
+    }
+    let half = rows.len() / 2;
+    let late = ols(rows.get(half..)?, logs.get(half..)?)?;
+    let late_growth = (late.slope * (w / 2) as f64).exp();
+    if late_growth < opts.min_growth.sqrt() {
+        return None;
+    }
+    Some(Growth {
+        rate_per_sample: fit.slope,
+        r_squared: r2,
+        start_row: start,
+        samples_per_decade: finite(std::f64::consts::LN_10 / fit.slope)?,
+    })
+}

@@ -1,0 +1,309 @@
+//! Per-row alerts: which rows the detectors look at, their flags, and the engine fed in order.
+
+use std::ops::Range;
+
+use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
+use super::{
+    analysed_count, beyond_context, observable, runaway_flags, runaway_options, spike_threshold,
+    time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan, TableLocator,
+    RUNAWAY_FAR_SIGMAS,
+};
+use crate::alert::{AlertKind, OffTargetInput, Severity, Sustain};
+use crate::mapping::Role;
+use crate::stats::{self, HampelOptions};
+use crate::table::{Column, RunTable, Segment};
+
+impl Analyzer {
+    /// The rows the per-row detectors of segment `si` look at in this update: from the
+    /// first row not yet scanned (or the first row a new restart replaced). Pure; the
+    /// restarts are reported and the counters moved by [`Analyzer::scan_segment`].
+    pub(super) fn scan_plan(&self, si: usize, seg: &Segment, finished: bool) -> ScanPlan {
+        let n = seg.rows();
+        let mut start = self.scanned.get(si).copied().unwrap_or(0);
+        let mut spike_start = self.spike_scanned.get(si).copied().unwrap_or(0);
+        let seen = self.restarts_seen.get(si).copied().unwrap_or(0);
+        for r in seg.restarts.iter().skip(seen) {
+            let row_in_seg = seg.lines.row_at_or_after(r.line);
+            start = start.min(row_in_seg);
+            spike_start = spike_start.min(row_in_seg);
+        }
+        let k = self.opts.thresholds.spike_window.max(1);
+        ScanPlan {
+            n,
+            start: start.min(n),
+            spike_start: spike_start.min(n),
+            spike_end: if finished { n } else { n.saturating_sub(k) },
+            spike_scanned: spike_start,
+        }
+    }
+
+    /// Spike and runaway rows of every analysed column of segment `si` over `plan`,
+    /// columns on all cores (pure but for the runaway baseline caches, which only memoise).
+    pub(super) fn detect(
+        &mut self,
+        si: usize,
+        seg: &Segment,
+        plan: &ScanPlan,
+    ) -> Vec<Option<ColumnFlags>> {
+        let t = &self.opts.thresholds;
+        let k = t.spike_window.max(1);
+        let context_sigmas = spike_threshold(
+            t.spike_sigmas,
+            (plan.n + self.forgotten_rows(si)).saturating_mul(analysed_count(seg)),
+        );
+        let ropts = runaway_options(t);
+        let hopts = HampelOptions {
+            half_window: k,
+            threshold: t.spike_sigmas,
+            ..HampelOptions::default()
+        };
+        let Some(cursors) = self.cursors.get_mut(si) else {
+            return Vec::new();
+        };
+        cursors.resize_with(seg.columns.len(), ColumnCursor::default);
+        let jobs: Vec<(&Column, BaselineCache)> = seg
+            .columns
+            .iter()
+            .zip(cursors.iter())
+            .map(|(c, cur)| (c, cur.baseline))
+            .collect();
+        let new_rows = plan.n - plan.start.min(plan.spike_start);
+        let parallel = new_rows.saturating_mul(analysed_count(seg)) >= PARALLEL_MIN_VALUES;
+        let done = map_in_order(&jobs, parallel, |&(col, cache)| {
+            if !observable(col) {
+                return None;
+            }
+            let values = col.values();
+            // Spikes (Hampel), rows whose full window is available.
+            let spikes = if plan.spike_end > plan.spike_start {
+                let lo = plan.spike_start.saturating_sub(k);
+                let hi = (plan.spike_end + k).min(plan.n);
+                values
+                    .get(lo..hi)
+                    .map(|w| stats::hampel(w, &hopts))
+                    .unwrap_or_default()
+                    .into_iter()
+                    .map(|i| i + lo)
+                    .filter(|i| (plan.spike_start..plan.spike_end).contains(i))
+                    .filter(|&i| beyond_context(values, i, k, context_sigmas))
+                    .collect()
+            } else {
+                Vec::new()
+            };
+            let mut cache = cache;
+            let runaway = runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false);
+            Some((ColumnFlags { spikes, runaway }, cache))
+        });
+        done.into_iter()
+            .zip(cursors.iter_mut())
+            .map(|(d, cur)| {
+                d.map(|(flags, cache)| {
+                    cur.baseline = cache;
+                    flags
+                })
+            })
+            .collect()
+    }
+
+    /// Per-row alerts on the new rows of segment `si` (`plan`, with the spike and runaway
+    /// rows already found by [`Analyzer::detect`]), fed to the engine column by column.
+    pub(super) fn scan_segment(
+        &mut self,
+        table: &RunTable,
+        si: usize,
+        seg: &Segment,
+        offset: usize,
+        plan: &ScanPlan,
+        flags: &[Option<ColumnFlags>],
+    ) {
+        let loc = TableLocator::new(seg, offset);
+        // Restarts: rows from the restart on were replaced; report and rescan them.
+        let seen = self.restarts_seen.get(si).copied().unwrap_or(0);
+        for r in seg.restarts.iter().skip(seen) {
+            let row_in_seg = seg.lines.row_at_or_after(r.line);
+            self.engine
+                .restart(offset + row_in_seg, r.rows_replaced, &loc);
+        }
+        if let Some(s) = self.restarts_seen.get_mut(si) {
+            *s = seg.restarts.len();
+        }
+        let ScanPlan {
+            n,
+            start,
+            spike_start,
+            spike_end,
+            ..
+        } = *plan;
+        if let Some(c) = self.cursors.get_mut(si) {
+            c.resize_with(seg.columns.len(), ColumnCursor::default);
+        }
+        let t = self.opts.thresholds.clone();
+        let is_last = si + 1 == table.segments.len();
+        let analysis = if is_last { self.cached.clone() } else { None };
+        let run_row = analysis
+            .as_ref()
+            .and_then(|a| a.equilibration.and_then(|e| e.row()));
+
+        let context_sigmas = spike_threshold(
+            t.spike_sigmas,
+            (n + self.forgotten_rows(si)).saturating_mul(analysed_count(seg)),
+        );
+        for (ci, col) in seg.columns.iter().enumerate() {
+            let name = col.spec.name.as_str();
+            let unit = col.spec.unit.map(|u| u.to_string()).unwrap_or_default();
+            let values = col.values();
+            // Non-finite.
+            self.engine
+                .scan_nonfinite(name, &unit, values, start..n, offset, &loc);
+            if !observable(col) {
+                continue;
+            }
+            let Some(found) = flags.get(ci).and_then(Option::as_ref) else {
+                continue;
+            };
+            // Spikes (Hampel), rows whose full window is available.
+            if spike_end > spike_start {
+                let flagged = &found.spikes;
+                if let Some(cur) = self.cursors.get_mut(si).and_then(|c| c.get_mut(ci)) {
+                    cur.spikes += flagged.len() as u64;
+                }
+                let clear = t.spike_clear_rows;
+                let unit_s = unit.clone();
+                self.engine.scan_flagged(
+                    AlertKind::Spike,
+                    name,
+                    Sustain::immediate(clear),
+                    offset + spike_start..offset + spike_end,
+                    flagged.iter().map(|r| r + offset),
+                    |since, _| {
+                        let v = values.get(since - offset).copied().unwrap_or(f64::NAN);
+                        crate::alert::Alert::new(
+                            AlertKind::Spike,
+                            Severity::Warning,
+                            format!(
+                                "{name} jumps to {} at this row, far outside its neighbours \
+                                 (more than {} robust SDs from the moving median); look at this \
+                                 step in the simulation's output",
+                                crate::alert::format_number(v, &unit_s),
+                                crate::alert::format_number(context_sigmas, "")
+                            ),
+                        )
+                        .column(name)
+                        .value(v, &unit_s)
+                        .at(since, &loc)
+                    },
+                );
+            }
+            // Runaway growth.
+            self.scan_runaway(name, &unit, values, &found.runaway, start..n, offset, &loc);
+            // Off-target temperature / pressure.
+            let (kind, target, tolerance) = match col.spec.role {
+                Some(Role::Temperature) => (
+                    AlertKind::TemperatureOffTarget,
+                    self.opts.target_temperature.clone(),
+                    t.temperature_tolerance,
+                ),
+                Some(Role::Pressure) => (
+                    AlertKind::PressureOffTarget,
+                    self.opts.target_pressure.clone(),
+                    t.pressure_tolerance,
+                ),
+                _ => continue,
+            };
+            let Some(target) = target else { continue };
+            let Some(times) = time_values(seg) else {
+                continue;
+            };
+            // Along a schedule: from the first row. A constant target: after the run's
+            // onset; while the run has none, after the column's MSER-5 truncation point (the
+            // usual warm-up cut), so a thermostat that leaves its target, which itself keeps
+            // the run from settling, is still reported.
+            let column = analysis
+                .as_ref()
+                .and_then(|a| a.columns.iter().find(|c| c.name == name));
+            let start_row = if target.is_schedule() {
+                Some(0)
+            } else {
+                run_row.or_else(|| column.and_then(|c| c.mser.map(|m| m.row)))
+            };
+            let Some(start_row) = start_row else { continue };
+            let g = column
+                .and_then(|c| {
+                    c.production
+                        .as_ref()
+                        .and_then(|p| p.inefficiency)
+                        .or(c.inefficiency_all)
+                })
+                .unwrap_or(1.0);
+            let input = OffTargetInput {
+                kind,
+                column: name,
+                unit: &unit,
+                values,
+                times,
+                target: &target,
+                tolerance,
+                inefficiency: g,
+                start_row: start_row.saturating_sub(self.forgotten_rows(si)),
+                row_offset: offset,
+            };
+            self.engine.scan_off_target(&input, start..n, &loc);
+        }
+        if let Some(s) = self.scanned.get_mut(si) {
+            *s = n;
+        }
+        if let Some(s) = self.spike_scanned.get_mut(si) {
+            *s = plan.spike_scanned.max(spike_end);
+        }
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn scan_runaway(
+        &mut self,
+        name: &str,
+        unit: &str,
+        values: &[f64],
+        flagged: &[(usize, f64)],
+        rows: Range<usize>,
+        offset: usize,
+        loc: &TableLocator<'_>,
+    ) {
+        let w = runaway_options(&self.opts.thresholds).window;
+        let unit_s = unit.to_string();
+        self.engine.scan_flagged(
+            AlertKind::Runaway,
+            name,
+            Sustain::immediate(u32::try_from(w).unwrap_or(20)),
+            offset + rows.start..offset + rows.end,
+            flagged.iter().map(|p| p.0 + offset),
+            |since, _| {
+                let x = values.get(since - offset).copied().unwrap_or(f64::NAN);
+                let rate = flagged
+                    .iter()
+                    .find(|p| p.0 == since - offset)
+                    .map_or(f64::NAN, |p| p.1);
+                let how = if rate.is_finite() {
+                    format!(
+                        "grows exponentially (tenfold every {} rows)",
+                        crate::alert::format_number(rate, "")
+                    )
+                } else {
+                    format!(
+                        "is more than {RUNAWAY_FAR_SIGMAS} robust SDs away from its recent values"
+                    )
+                };
+                crate::alert::Alert::new(
+                    AlertKind::Runaway,
+                    Severity::Critical,
+                    format!(
+                        "{name} {how}: the run is blowing up; stop it and check the time step, \
+                         bad contacts and the last restart"
+                    ),
+                )
+                .column(name)
+                .value(x, &unit_s)
+                .at(since, loc)
+            },
+        );
+    }
+}
