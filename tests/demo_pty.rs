@@ -10,126 +10,35 @@
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
 
 use std::collections::BTreeSet;
-use std::io::{Read, Write};
+use std::io::Write;
 use std::path::Path;
-use std::sync::mpsc::{self, Receiver};
-use std::thread;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
-use portable_pty::{native_pty_system, Child, CommandBuilder, MasterPty, PtySize};
+#[path = "support/pty.rs"]
+mod pty;
 
-const PATIENCE: Duration = Duration::from_secs(90);
+use pty::Session;
 
 /// The status words of the overview (common to every run list of the dashboard).
 const STATUSES: [&str; 6] = [
     "steady", "settling", "drifting", "unstable", "stalled", "finished",
 ];
 
-struct Session {
-    master: Box<dyn MasterPty + Send>,
-    child: Box<dyn Child + Send + Sync>,
-    writer: Box<dyn Write + Send>,
-    output: Receiver<Vec<u8>>,
-    screen: vt100::Parser,
-}
-
-impl Session {
-    /// Starts plateau with `args`; its temporary files go into `tmp`.
-    fn start(args: &[&str], tmp: &Path) -> Session {
-        let (rows, cols) = (30, 100);
-        let pair = native_pty_system()
-            .openpty(PtySize {
-                rows,
-                cols,
-                pixel_width: 0,
-                pixel_height: 0,
-            })
-            .unwrap();
-        let mut cmd = CommandBuilder::new(env!("CARGO_BIN_EXE_plateau"));
-        cmd.args(args);
-        cmd.cwd(tmp);
-        cmd.env("TMPDIR", tmp);
-        cmd.env("TERM", "xterm-256color");
-        cmd.env("LANG", "C.UTF-8");
-        cmd.env_remove("LC_ALL");
-        cmd.env_remove("LC_CTYPE");
-        cmd.env_remove("NO_COLOR");
-        let child = pair.slave.spawn_command(cmd).unwrap();
-        drop(pair.slave);
-        let mut reader = pair.master.try_clone_reader().unwrap();
-        let writer = pair.master.take_writer().unwrap();
-        let (tx, output) = mpsc::channel();
-        thread::spawn(move || {
-            let mut buf = [0u8; 8192];
-            while let Ok(n) = reader.read(&mut buf) {
-                if n == 0 || tx.send(buf[..n].to_vec()).is_err() {
-                    return;
-                }
-            }
-        });
-        Session {
-            master: pair.master,
-            child,
-            writer,
-            output,
-            screen: vt100::Parser::new(rows, cols, 0),
-        }
-    }
-
-    /// Reads output until `done` holds for the screen.
-    fn wait_for(&mut self, what: &str, done: impl Fn(&vt100::Screen) -> bool) {
-        let deadline = Instant::now() + PATIENCE;
-        while !done(self.screen.screen()) {
-            let left = deadline.saturating_duration_since(Instant::now());
-            match self.output.recv_timeout(left) {
-                Ok(bytes) => self.screen.process(&bytes),
-                Err(_) => panic!(
-                    "{what}: not seen; screen:\n{}",
-                    self.screen.screen().contents()
-                ),
-            }
-        }
-    }
-
-    fn contents(&self) -> String {
-        self.screen.screen().contents()
-    }
-
-    fn cooked(&self) -> bool {
-        let fd = self.master.as_raw_fd().unwrap();
-        let mut t: libc::termios = unsafe { std::mem::zeroed() };
-        assert_eq!(unsafe { libc::tcgetattr(fd, &mut t) }, 0);
-        t.c_lflag & libc::ICANON != 0 && t.c_lflag & libc::ECHO != 0
-    }
-
-    /// Waits for the process to end; returns its exit code.
-    fn wait_exit(&mut self) -> u32 {
-        let deadline = Instant::now() + PATIENCE;
-        loop {
-            while let Ok(bytes) = self.output.try_recv() {
-                self.screen.process(&bytes);
-            }
-            if let Some(status) = self.child.try_wait().unwrap() {
-                while let Ok(bytes) = self.output.recv_timeout(Duration::from_millis(300)) {
-                    self.screen.process(&bytes);
-                }
-                return status.exit_code();
-            }
-            assert!(
-                Instant::now() < deadline,
-                "did not exit:\n{}",
-                self.contents()
-            );
-            thread::sleep(Duration::from_millis(20));
-        }
-    }
-
-    fn assert_restored(&self) {
-        let s = self.screen.screen();
-        assert!(!s.alternate_screen(), "alternate screen left");
-        assert!(!s.hide_cursor(), "cursor hidden");
-        assert!(self.cooked(), "raw mode left on");
-    }
+/// Starts plateau on a 100×30 terminal in a UTF-8 locale; its temporary files go into
+/// `tmp`.
+fn start(args: &[&str], tmp: &Path) -> Session {
+    let utf8 = std::ffi::OsStr::new("C.UTF-8");
+    Session::start_with(
+        args,
+        tmp,
+        (30, 100),
+        &[
+            ("TMPDIR", tmp.as_os_str()),
+            ("LANG", utf8),
+            ("LC_ALL", utf8),
+            ("LC_CTYPE", utf8),
+        ],
+    )
 }
 
 /// The status words on screen.
@@ -154,7 +63,7 @@ fn demo_folders(tmp: &Path) -> Vec<String> {
 #[test]
 fn the_demo_shows_several_statuses_then_q_removes_its_folder_and_restores_the_terminal() {
     let tmp = tempfile::tempdir().unwrap();
-    let mut s = Session::start(&["demo"], tmp.path());
+    let mut s = start(&["demo"], tmp.path());
     s.wait_for("the six demo runs", |sc| {
         let text = sc.contents();
         [
@@ -186,7 +95,7 @@ fn the_demo_shows_several_statuses_then_q_removes_its_folder_and_restores_the_te
 #[test]
 fn sigterm_removes_the_folder_and_restores_the_terminal() {
     let tmp = tempfile::tempdir().unwrap();
-    let mut s = Session::start(&["demo", "--scenario", "nve-drift"], tmp.path());
+    let mut s = start(&["demo", "--scenario", "nve-drift"], tmp.path());
     s.wait_for("the run", |sc| sc.contents().contains("nve-drift"));
     assert_eq!(demo_folders(tmp.path()).len(), 1);
     let pid = s.child.process_id().unwrap() as libc::pid_t;

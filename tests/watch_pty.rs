@@ -8,134 +8,16 @@
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
 
 use std::fs::OpenOptions;
-use std::io::{Read, Write};
-use std::path::Path;
-use std::sync::mpsc::{self, Receiver};
+use std::io::Write;
 use std::thread;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
-use portable_pty::{native_pty_system, Child, CommandBuilder, MasterPty, PtySize};
+#[path = "support/pty.rs"]
+mod pty;
+
+use pty::Session;
 
 use plateau::scenario::{write_log, LogStyle, Scenario, ScenarioSpec};
-
-const PATIENCE: Duration = Duration::from_secs(60);
-
-struct Session {
-    master: Box<dyn MasterPty + Send>,
-    child: Box<dyn Child + Send + Sync>,
-    writer: Box<dyn Write + Send>,
-    output: Receiver<Vec<u8>>,
-    screen: vt100::Parser,
-}
-
-impl Session {
-    fn start(args: &[&str], dir: &Path) -> Session {
-        let pair = native_pty_system()
-            .openpty(PtySize {
-                rows: 24,
-                cols: 80,
-                pixel_width: 0,
-                pixel_height: 0,
-            })
-            .unwrap();
-        let mut cmd = CommandBuilder::new(env!("CARGO_BIN_EXE_plateau"));
-        cmd.args(args);
-        cmd.cwd(dir);
-        cmd.env("TERM", "xterm-256color");
-        cmd.env_remove("NO_COLOR");
-        let child = pair.slave.spawn_command(cmd).unwrap();
-        drop(pair.slave);
-        let mut reader = pair.master.try_clone_reader().unwrap();
-        let writer = pair.master.take_writer().unwrap();
-        let (tx, output) = mpsc::channel();
-        thread::spawn(move || {
-            let mut buf = [0u8; 8192];
-            while let Ok(n) = reader.read(&mut buf) {
-                if n == 0 || tx.send(buf[..n].to_vec()).is_err() {
-                    return;
-                }
-            }
-        });
-        Session {
-            master: pair.master,
-            child,
-            writer,
-            output,
-            screen: vt100::Parser::new(24, 80, 0),
-        }
-    }
-
-    /// Reads output until `done` holds for the screen.
-    fn wait_for(&mut self, what: &str, done: impl Fn(&vt100::Screen) -> bool) {
-        let deadline = Instant::now() + PATIENCE;
-        while !done(self.screen.screen()) {
-            let left = deadline.saturating_duration_since(Instant::now());
-            match self.output.recv_timeout(left) {
-                Ok(bytes) => self.screen.process(&bytes),
-                Err(_) => panic!(
-                    "{what}: not seen; screen:\n{}",
-                    self.screen.screen().contents()
-                ),
-            }
-        }
-    }
-
-    fn contents(&self) -> String {
-        self.screen.screen().contents()
-    }
-
-    /// Local modes of the terminal (termios `c_lflag`).
-    fn local_modes(&self) -> libc::tcflag_t {
-        let fd = self.master.as_raw_fd().unwrap();
-        let mut t: libc::termios = unsafe { std::mem::zeroed() };
-        assert_eq!(unsafe { libc::tcgetattr(fd, &mut t) }, 0);
-        t.c_lflag
-    }
-
-    fn cooked(&self) -> bool {
-        let l = self.local_modes();
-        l & libc::ICANON != 0 && l & libc::ECHO != 0
-    }
-
-    /// Waits for the process to end; returns its exit code.
-    fn wait_exit(&mut self) -> u32 {
-        let deadline = Instant::now() + PATIENCE;
-        loop {
-            // Keep reading so the process never blocks on a full terminal.
-            while let Ok(bytes) = self.output.try_recv() {
-                self.screen.process(&bytes);
-            }
-            if let Some(status) = self.child.try_wait().unwrap() {
-                // The last bytes it wrote (the restore) may still be in the pipe.
-                while let Ok(bytes) = self.output.recv_timeout(Duration::from_millis(300)) {
-                    self.screen.process(&bytes);
-                }
-                return status.exit_code();
-            }
-            assert!(
-                Instant::now() < deadline,
-                "did not exit:\n{}",
-                self.contents()
-            );
-            thread::sleep(Duration::from_millis(20));
-        }
-    }
-
-    fn assert_restored(&self) {
-        let s = self.screen.screen();
-        assert!(
-            !s.alternate_screen(),
-            "alternate screen left:\n{}",
-            s.contents()
-        );
-        assert!(!s.hide_cursor(), "cursor shown");
-        assert!(
-            self.cooked(),
-            "raw mode off: lflag {:o}",
-            self.local_modes()
-        );
-    }
-}
 
 fn log_lines(rows: u64) -> Vec<String> {
     let spec = ScenarioSpec::new(Scenario::Equilibration, LogStyle::Whitespace, rows);
