@@ -27,6 +27,10 @@ pub struct ColumnsView {
     pub file: String,
     /// The delimiter setting (`auto` or fixed).
     pub delimiter_setting: DelimiterChoice,
+    /// Rows that carry their own names, when the log is written so: `json` (one object
+    /// per line) or `pairs` (`name=value`); absent for a table.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub records: Option<&'static str>,
     /// Comment prefixes in force.
     pub comment_prefixes: Vec<String>,
     /// Row tag, if any.
@@ -187,6 +191,10 @@ impl ColumnsView {
             schema_version: COLUMNS_SCHEMA_VERSION,
             file: file.to_string(),
             delimiter_setting: settings.parse.delimiter,
+            records: settings.parse.records.as_ref().map(|r| match r.kind {
+                crate::parse::RecordKind::Json => "json",
+                crate::parse::RecordKind::Pairs => "pairs",
+            }),
             comment_prefixes: settings.parse.comment_prefixes.clone(),
             row_tag: settings.parse.row_tag.clone(),
             row_tag_guessed: settings.row_tag_guessed,
@@ -313,7 +321,16 @@ impl ColumnsView {
                     format!("header at line {l} (behind a comment prefix)")
                 }
                 Some(l) => format!("header at line {l}"),
-                None => "no header".to_string(),
+                None => match self.records {
+                    Some("json") => "rows are JSON objects, their keys the names".to_string(),
+                    Some(_) => "rows are name=value pairs".to_string(),
+                    None => "no header".to_string(),
+                },
+            };
+            // Self-named rows have no separator of their own.
+            let split = match self.records {
+                Some(_) => String::new(),
+                None => format!(", {}-separated", s.delimiter.name()),
             };
             let span = match (s.first_line, s.last_line) {
                 (Some(a), Some(b)) => format!(", lines {a}-{b}"),
@@ -322,10 +339,8 @@ impl ColumnsView {
             let _ = writeln!(o);
             let _ = writeln!(
                 o,
-                "segment {}: {header}, {}-separated, {} rows{span}",
-                s.segment,
-                s.delimiter.name(),
-                s.rows
+                "segment {}: {header}{split}, {} rows{span}",
+                s.segment, s.rows
             );
             let name_w = s
                 .columns
