@@ -135,6 +135,7 @@ pub fn analysis_options(settings: &Settings, args: &AlertArgs) -> Result<Analysi
         thresholds: t,
         until_ps,
         target_sem,
+        directed_segments: Vec::new(),
     })
 }
 
