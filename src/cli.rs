@@ -128,6 +128,12 @@ pub enum ReportFormat {
 pub struct ReportArgs {
     /// The log file (`-` for standard input).
     pub file: PathBuf,
+    /// More log files, with `--chain`: the later stages of the same system, in order.
+    #[arg(value_name = "MORE")]
+    pub more_files: Vec<PathBuf>,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// How the log is described.
     #[command(flatten)]
     pub input: InputArgs,
@@ -143,6 +149,23 @@ pub struct ReportArgs {
     /// Print the time spent reading and on the statistics to standard error.
     #[arg(long)]
     pub timings: bool,
+}
+
+/// Options about the stages of a run (minimization, heating, equilibration, production).
+#[derive(Debug, Clone, Default, Args)]
+pub struct StageArgs {
+    /// Read the files as consecutive stages of one system, in the order given (time may
+    /// continue from file to file or restart in each).
+    #[arg(long)]
+    pub chain: bool,
+    /// A minimization has converged once its force column stays at or below this value, in
+    /// the log's own force unit (default 1000).
+    #[arg(long, value_name = "FORCE")]
+    pub min_force_tolerance: Option<f64>,
+    /// Without a force column, a minimization has converged once its energy changes by at
+    /// most this fraction of itself per step (default 1e-6).
+    #[arg(long, value_name = "FRACTION")]
+    pub min_energy_tolerance: Option<f64>,
 }
 
 // ---- check ------------------------------------------------------------------------------
@@ -218,6 +241,9 @@ pub struct CheckArgs {
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// Lowest severity that makes the exit code 1.
     #[arg(long, value_enum, default_value_t = FailOn::Warning)]
     pub fail_on: FailOn,
