@@ -426,8 +426,13 @@ pub struct SourceArgs {
 pub struct GenerateArgs {
     /// Scenario: equilibration, density-settling, heating, staged-heating, production,
     /// nve-drift, blow-up, stalled, thermostat-failure.
-    #[arg(value_parser = parse_scenario)]
-    pub scenario: Scenario,
+    #[arg(value_parser = parse_scenario, required_unless_present = "stages")]
+    pub scenario: Option<Scenario>,
+    /// Instead of a scenario: write an invented five-stage preparation (minimization,
+    /// heating, constant volume, constant pressure, production) into this folder, as one
+    /// log (prep.log) and as a chain of five (min.log heat.log nvt.log npt.log prod.log).
+    #[arg(long, value_name = "DIR", conflicts_with = "scenario")]
+    pub stages: Option<PathBuf>,
     /// Layout of the written log: whitespace, csv, tagged, tab, fixed-width.
     #[arg(long, default_value = "whitespace", value_parser = parse_style)]
     pub style: LogStyle,

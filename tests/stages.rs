@@ -123,12 +123,23 @@ fn chain_and_one_log_agree() {
     let logs = five_stage_logs(&StagePlan::default());
     let (_dir, one, chain) = both(&logs);
     assert_eq!(kinds(&one), kinds(&chain), "{:#?}", chain.stages);
-    for (a, b) in one.stages.iter().zip(&chain.stages) {
-        assert_eq!((a.first_row, a.rows), (b.first_row, b.rows));
-        assert_eq!(a.verdict, b.verdict);
-        match (a.start_time, b.start_time) {
-            (Some(x), Some(y)) => assert!((x - y).abs() < 1e-6, "{x} vs {y}"),
-            (x, y) => assert_eq!(x, y),
+    for (i, (a, b)) in one.stages.iter().zip(&chain.stages).enumerate() {
+        assert_eq!(a.verdict, b.verdict, "stage {i}");
+        // In one log the end of the ramp is estimated from the temperature (noise 3 K, ramp
+        // 1.16 K per row): within 3 rows of the file boundary; every other boundary is exact.
+        let (start_tol, end_tol) = match i {
+            1 => (0, 3),
+            2 => (3, 0),
+            _ => (0, 0),
+        };
+        assert!(a.first_row.abs_diff(b.first_row) <= start_tol, "stage {i}");
+        let (ea, eb) = (a.first_row + a.rows, b.first_row + b.rows);
+        assert!(ea.abs_diff(eb) <= end_tol, "stage {i}");
+        if start_tol == 0 {
+            match (a.start_time, b.start_time) {
+                (Some(x), Some(y)) => assert!((x - y).abs() < 1e-6, "{x} vs {y}"),
+                (x, y) => assert_eq!(x, y),
+            }
         }
     }
     assert!(chain.stages[1]

@@ -177,7 +177,8 @@ pub fn five_stage_logs(p: &StagePlan) -> StageLogs {
                 time += interval_ps;
             }
             let target = if k == 1 {
-                let span = (p.heat_rows - 1) as f64;
+                // The ramp reaches its top at the first row after the heating stage.
+                let span = p.heat_rows as f64;
                 p.heat_from_k + (p.heat_to_k - p.heat_from_k) * i as f64 / span
             } else {
                 p.heat_to_k
@@ -210,7 +211,7 @@ pub fn five_stage_logs(p: &StagePlan) -> StageLogs {
             row += 1;
         }
         if k == 1 {
-            truth.ramp_end_ps = time;
+            truth.ramp_end_ps = time + interval_ps;
         }
     }
     truth.rows = row;
