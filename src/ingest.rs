@@ -65,17 +65,22 @@ pub struct OpenInput {
     size: Option<u64>,
 }
 
-/// Opens `path` (`-`: standard input) and reads up to `start_bytes` of it (none from
-/// standard input). A folder is refused with a message naming it.
+/// Opens `path` (`-`: standard input) and reads up to `start_bytes` of it. A folder is
+/// refused with a message naming it.
 pub fn open_input(path: &Path, start_bytes: u64) -> Result<OpenInput, Error> {
     let read_err = |source: io::Error| Error::Read {
         path: path.to_path_buf(),
         source,
     };
     if path.as_os_str() == "-" {
+        let mut start = Vec::new();
+        io::stdin()
+            .take(start_bytes)
+            .read_to_end(&mut start)
+            .map_err(read_err)?;
         return Ok(OpenInput {
             path: path.to_path_buf(),
-            start: Vec::new(),
+            start,
             file: None,
             size: None,
         });
@@ -127,7 +132,7 @@ impl OpenInput {
         } = self;
         let result = match file {
             None => read_with(
-                Observed::new(io::stdin(), None, observe),
+                Observed::new(io::Cursor::new(start).chain(io::stdin()), None, observe),
                 options,
                 BLOCK_SIZE,
             ),

@@ -134,6 +134,39 @@ fn report_reads_standard_input() {
         .stdout(predicate::str::contains("rows: 2   segments: 1"));
 }
 
+/// Standard input is looked at for its layout as a file is: a table behind a row tag and
+/// split on a separator no list names (`|`) is read whole from a pipe too.
+#[test]
+fn standard_input_layout_is_guessed_as_for_a_file() {
+    let mut text = String::from("title = invented box\nDATA | step | temp | pot\n");
+    for i in 0..200 {
+        text.push_str(&format!(
+            "DATA | {i} | {} | {}\n",
+            300.0 + f64::from(i % 5),
+            -1000.0 - f64::from(i % 3)
+        ));
+    }
+    let out = plateau()
+        .args(["report", "--format", "json", "-"])
+        .write_stdin(text)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(report["rows"], 200, "{report}");
+    let names: Vec<&str> = report["columns"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c["name"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["step", "temp", "pot"], "{report}");
+}
+
 #[test]
 fn missing_file_exits_2_naming_it() {
     plateau()
