@@ -518,7 +518,7 @@ impl RunTable {
             metadata_lines: self.metadata_lines,
             metadata: self.metadata.clone(),
             lines: self.lines,
-            partial_line: self.partial_line.clone(),
+            partial_line: self.partial_line,
             warnings: self.warnings.clone(),
         }
     }

@@ -7,6 +7,8 @@
 //! interval (10 steps), the end of the ramp within 3 rows, the row where the volume starts
 //! to vary within 2 rows, the change of output interval within 1 row.
 
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
 use std::path::PathBuf;
 
 use assert_cmd::Command;

@@ -62,7 +62,7 @@ struct Fit {
 /// Least squares of `y` on `x` from the sums.
 fn ols_sums(n: f64, sx: f64, sxx: f64, sy: f64, sxy: f64, syy: f64) -> Option<Fit> {
     let sxx_c = sxx - sx * sx / n;
-    if !(sxx_c > 0.0) {
+    if sxx_c.is_nan() || sxx_c <= 0.0 {
         return None;
     }
     let sxy_c = sxy - sx * sy / n;
