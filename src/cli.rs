@@ -128,6 +128,12 @@ pub enum ReportFormat {
 pub struct ReportArgs {
     /// The log file (`-` for standard input).
     pub file: PathBuf,
+    /// More log files, with `--chain`: the later stages of the same system, in order.
+    #[arg(value_name = "MORE")]
+    pub more_files: Vec<PathBuf>,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// How the log is described.
     #[command(flatten)]
     pub input: InputArgs,
@@ -143,6 +149,23 @@ pub struct ReportArgs {
     /// Print the time spent reading and on the statistics to standard error.
     #[arg(long)]
     pub timings: bool,
+}
+
+/// Options about the stages of a run (minimization, heating, equilibration, production).
+#[derive(Debug, Clone, Default, Args)]
+pub struct StageArgs {
+    /// Read the files as consecutive stages of one system, in the order given (time may
+    /// continue from file to file or restart in each).
+    #[arg(long)]
+    pub chain: bool,
+    /// A minimization has converged once its force column stays at or below this value, in
+    /// the log's own force unit (default 1000).
+    #[arg(long, value_name = "FORCE")]
+    pub min_force_tolerance: Option<f64>,
+    /// Without a force column, a minimization has converged once its energy changes by at
+    /// most this fraction of itself per step (default 1e-6).
+    #[arg(long, value_name = "FRACTION")]
+    pub min_energy_tolerance: Option<f64>,
 }
 
 // ---- check ------------------------------------------------------------------------------
@@ -218,6 +241,9 @@ pub struct CheckArgs {
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// Lowest severity that makes the exit code 1.
     #[arg(long, value_enum, default_value_t = FailOn::Warning)]
     pub fail_on: FailOn,
@@ -400,8 +426,13 @@ pub struct SourceArgs {
 pub struct GenerateArgs {
     /// Scenario: equilibration, density-settling, heating, staged-heating, production,
     /// nve-drift, blow-up, stalled, thermostat-failure.
-    #[arg(value_parser = parse_scenario)]
-    pub scenario: Scenario,
+    #[arg(value_parser = parse_scenario, required_unless_present = "stages")]
+    pub scenario: Option<Scenario>,
+    /// Instead of a scenario: write an invented five-stage preparation (minimization,
+    /// heating, constant volume, constant pressure, production) into this folder, as one
+    /// log (prep.log) and as a chain of five (min.log heat.log nvt.log npt.log prod.log).
+    #[arg(long, value_name = "DIR", conflicts_with = "scenario")]
+    pub stages: Option<PathBuf>,
     /// Layout of the written log: whitespace, csv, tagged, tab, fixed-width.
     #[arg(long, default_value = "whitespace", value_parser = parse_style)]
     pub style: LogStyle,

@@ -22,6 +22,7 @@ pub mod progress;
 pub mod report;
 pub mod scenario;
 pub mod scheduler;
+pub mod stages;
 pub mod stats;
 pub mod table;
 pub mod text;

@@ -81,6 +81,16 @@ impl Column {
         self.non_finite += added.iter().filter(|v| !v.is_finite()).count() as u64;
     }
 
+    /// Rows `rows` of this column as a column of its own (overflow fields kept as such).
+    pub fn sub_column(&self, rows: std::ops::Range<usize>) -> Column {
+        let mut out = Column::new(self.spec.clone());
+        let start = rows.start;
+        for (i, &v) in self.values.get(rows).unwrap_or(&[]).iter().enumerate() {
+            out.push(v, self.overflow_rows.binary_search(&(start + i)).is_ok());
+        }
+        out
+    }
+
     /// Drops the first `rows` values (already consumed elsewhere); the counts of non-finite
     /// and overflow fields keep counting them.
     fn forget_front(&mut self, rows: usize) {
@@ -492,6 +502,25 @@ impl RunTable {
     /// Rows in all segments.
     pub fn rows(&self) -> usize {
         self.segments.iter().map(Segment::rows).sum()
+    }
+
+    /// A copy of everything but the segments, with `segments` instead.
+    pub fn with_segments(&self, segments: Vec<Segment>) -> RunTable {
+        RunTable {
+            segments,
+            skipped_count: self.skipped_count,
+            skipped: self.skipped.clone(),
+            text_lines: self.text_lines,
+            comment_lines: self.comment_lines,
+            blank_lines: self.blank_lines,
+            header_lines: self.header_lines,
+            decoration_lines: self.decoration_lines,
+            metadata_lines: self.metadata_lines,
+            metadata: self.metadata.clone(),
+            lines: self.lines,
+            partial_line: self.partial_line,
+            warnings: self.warnings.clone(),
+        }
     }
 
     /// The segment rows are currently appended to (the last one).

@@ -229,6 +229,13 @@ pub(super) fn runaway_flags(
             let Some(base) = baseline_for(values, r, w, entry, &mut scratch) else {
                 continue;
             };
+            // A constant reference part (its scale is only the floor) has no spread to
+            // measure growth against: a constant column that starts to vary (the volume
+            // when constant pressure starts) is a stage change, not a blow-up. Growth is
+            // judged again once the reference part varies.
+            if base.scale <= f64::EPSILON * base.median.abs().max(1.0) {
+                continue;
+            }
             let dev = (x - base.median).abs();
             if dev <= opts.min_sigmas * base.scale {
                 continue;

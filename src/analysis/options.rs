@@ -19,6 +19,10 @@ pub struct AnalysisOptions {
     pub until_ps: Option<f64>,
     /// Column and standard error for the precision ETA (`--target-sem`).
     pub target_sem: Option<(String, f64)>,
+    /// Segments that are directed changes (a minimization's descent, a heating ramp, found
+    /// by `crate::stages`): the runaway detector does not run on them, as a descent or a
+    /// ramp is not a blow-up (non-finite values and spikes are still reported).
+    pub directed_segments: Vec<usize>,
 }
 
 impl AnalysisOptions {

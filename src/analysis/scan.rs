@@ -57,6 +57,7 @@ impl Analyzer {
             threshold: t.spike_sigmas,
             ..HampelOptions::default()
         };
+        let directed = self.opts.directed_segments.contains(&si);
         let Some(cursors) = self.cursors.get_mut(si) else {
             return Vec::new();
         };
@@ -91,7 +92,11 @@ impl Analyzer {
                 Vec::new()
             };
             let mut cache = cache;
-            let runaway = runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false);
+            let runaway = if directed {
+                Vec::new()
+            } else {
+                runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false)
+            };
             Some((ColumnFlags { spikes, runaway }, cache))
         });
         done.into_iter()

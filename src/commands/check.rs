@@ -9,11 +9,10 @@ pub mod follow;
 pub mod hook;
 
 use std::io::Write;
-use std::path::Path;
 use std::time::{Duration, Instant};
 
 use crate::alert::{Alert, Severity, Target, Thresholds};
-use crate::analysis::{AnalysisOptions, Analyzer};
+use crate::analysis::AnalysisOptions;
 pub use crate::cli::{AlertArgs, CheckArgs, FailOn};
 use crate::config::Settings;
 use crate::error::Error;
@@ -135,6 +134,7 @@ pub fn analysis_options(settings: &Settings, args: &AlertArgs) -> Result<Analysi
         thresholds: t,
         until_ps,
         target_sem,
+        directed_segments: Vec::new(),
     })
 }
 
@@ -251,33 +251,38 @@ pub fn combine_exit(a: u8, b: u8) -> u8 {
 }
 
 fn check_file(
-    path: &Path,
+    paths: &[std::path::PathBuf],
     args: &CheckArgs,
     sinks: &mut Sinks,
     out: &mut dyn Write,
 ) -> Result<u8, Error> {
-    let (settings, table) = super::load(path, &args.input)?;
-    let opts = analysis_options(&settings, &args.alerts)?;
-    let mut analyzer = Analyzer::new(opts);
-    let analysis = analyzer.update(&table, true, None, false);
-    let file = path.display().to_string();
-    let mut worst: Option<Severity> = None;
-    for a in &analyzer.engine().alerts_by_row() {
+    let (report, staged, _) =
+        super::report::analyse_run(paths, &args.input, &args.alerts, &args.stages)?;
+    let file = report.source.path.clone();
+    for a in &staged.alerts {
         sinks.emit(out, &file, None, a)?;
-        worst = worst.max(Some(a.severity));
     }
-    let failing = analyzer
-        .engine()
-        .alerts()
+    let failing = staged
+        .all_alerts
         .iter()
         .filter(|a| a.severity >= sinks.fail_at)
         .count();
+    let stages = if report.stages.len() > 1 {
+        let list: Vec<String> = report
+            .stages
+            .iter()
+            .map(|s| format!("{} {}", s.kind.name(), s.verdict))
+            .collect();
+        format!("; stages: {}", list.join(", "))
+    } else {
+        String::new()
+    };
     eprintln!(
-        "{}: {} ({} rows, {} alerts, {failing} at or above {})",
+        "{}: {} ({} rows, {} alerts, {failing} at or above {}{stages})",
         crate::text::escape_control(&file),
-        analysis.status,
-        table.rows(),
-        analyzer.engine().alerts().len(),
+        staged.analysis.status,
+        staged.table.rows(),
+        staged.all_alerts.len(),
         sinks.fail_at
     );
     Ok(if failing > 0 {
@@ -301,6 +306,11 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 .to_string(),
         ));
     }
+    if args.follow && args.stages.chain {
+        return Err(Error::Usage(
+            "--chain reads finished logs; it does not combine with --follow yet".to_string(),
+        ));
+    }
     if args.follow {
         return follow::follow_run(args, out);
     }
@@ -316,8 +326,14 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     }
     let mut sinks = Sinks::new(args)?;
     let mut code = EXIT_HEALTHY;
-    for path in &args.files {
-        match check_file(path, args, &mut sinks, out) {
+    // With --chain the files are one run; otherwise each file is a run of its own.
+    let runs: Vec<Vec<std::path::PathBuf>> = if args.stages.chain {
+        vec![args.files.clone()]
+    } else {
+        args.files.iter().map(|p| vec![p.clone()]).collect()
+    };
+    for paths in &runs {
+        match check_file(paths, args, &mut sinks, out) {
             Ok(c) => code = combine_exit(code, c),
             Err(e) if e.is_broken_pipe() => return Err(e),
             Err(e @ Error::Usage(_)) | Err(e @ Error::Config(_)) => {

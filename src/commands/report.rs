@@ -7,12 +7,14 @@ use std::io::Write;
 use std::path::Path;
 use std::time::Instant;
 
-use crate::analysis::{time_values, Analyzer, RunAnalysis};
-use crate::cli::{AlertArgs, InputArgs};
+use crate::analysis::{time_values, RunAnalysis};
+use crate::cli::{AlertArgs, InputArgs, StageArgs};
 pub use crate::cli::{ReportArgs, ReportFormat};
 use crate::error::Error;
 use crate::report::{build_report, render_markdown, render_text, svg, Report, SourceInfo};
+use crate::stages::{self, chain, StageOptions, StagedRun, Tolerances};
 use crate::table::RunTable;
+use std::path::PathBuf;
 
 use super::check::analysis_options;
 
@@ -22,29 +24,85 @@ pub fn analyse_file(
     input: &InputArgs,
     alerts: &AlertArgs,
 ) -> Result<(Report, RunTable, RunAnalysis, [f64; 2]), Error> {
+    let (report, staged, times) = analyse_run(
+        std::slice::from_ref(&file.to_path_buf()),
+        input,
+        alerts,
+        &StageArgs::default(),
+    )?;
+    Ok((report, staged.table, staged.analysis, times))
+}
+
+/// Stage options from the command line (tolerances checked).
+pub fn stage_options(args: &StageArgs) -> Result<StageOptions, Error> {
+    let mut t = Tolerances::default();
+    let positive = |v: f64, option: &str| {
+        if v.is_finite() && v > 0.0 {
+            Ok(v)
+        } else {
+            Err(Error::Usage(format!("{option}: must be a positive number")))
+        }
+    };
+    if let Some(v) = args.min_force_tolerance {
+        t.force = positive(v, "--min-force-tolerance")?;
+    }
+    if let Some(v) = args.min_energy_tolerance {
+        t.energy = positive(v, "--min-energy-tolerance")?;
+    }
+    Ok(StageOptions { tolerances: t })
+}
+
+/// Reads one log, or several as a chain (in the order given), cuts the run into stages,
+/// analyses it and builds the report. Settings come from the first file's folder.
+pub fn analyse_run(
+    files: &[PathBuf],
+    input: &InputArgs,
+    alerts: &AlertArgs,
+    stage_args: &StageArgs,
+) -> Result<(Report, StagedRun, [f64; 2]), Error> {
+    let sopts = stage_options(stage_args)?;
     let t0 = Instant::now();
-    let (settings, table) = super::load(file, input)?;
+    let mut settings = None;
+    let mut tables = Vec::with_capacity(files.len());
+    for f in files {
+        let (s, table) = super::load(f, input)?;
+        settings.get_or_insert(s);
+        tables.push(table);
+    }
+    let Some(settings) = settings else {
+        return Err(Error::Usage("name at least one log FILE".to_string()));
+    };
     let ingest = t0.elapsed().as_secs_f64();
     let opts = analysis_options(&settings, alerts)?;
     let until = opts.until_ps;
     let target_sem = opts.target_sem.clone();
     let t1 = Instant::now();
-    let mut analyzer = Analyzer::new(opts);
-    let analysis = analyzer.update(&table, true, None, false);
+    let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
+    let staged = if tables.len() == 1 {
+        let table = tables.pop().unwrap_or_default();
+        stages::judge(&table, None, &opts, &sopts)
+    } else {
+        let chain = chain::join(tables);
+        stages::judge(&chain.table, Some((&names, &chain)), &opts, &sopts)
+    };
     let statistics = t1.elapsed().as_secs_f64();
-    let bytes = std::fs::metadata(file).map(|m| m.len()).unwrap_or(0);
-    let report = build_report(
+    let bytes = files
+        .iter()
+        .map(|f| std::fs::metadata(f).map(|m| m.len()).unwrap_or(0))
+        .sum();
+    let mut report = build_report(
         &SourceInfo {
-            path: file.display().to_string(),
+            path: names.join(" + "),
             bytes,
         },
-        &table,
-        &analysis,
-        &analyzer.engine().alerts_by_row(),
+        &staged.table,
+        &staged.analysis,
+        &staged.alerts,
         target_sem.as_ref().map(|(c, v)| (c.as_str(), *v)),
         until,
     );
-    Ok((report, table, analysis, [ingest, statistics]))
+    report.stages = staged.stages.clone();
+    Ok((report, staged, [ingest, statistics]))
 }
 
 fn write_svgs(dir: &Path, table: &RunTable, analysis: &RunAnalysis) -> Result<(), Error> {
@@ -93,8 +151,18 @@ fn write_svgs(dir: &Path, table: &RunTable, analysis: &RunAnalysis) -> Result<()
 
 /// Runs `plateau report`.
 pub fn run(args: &ReportArgs, out: &mut dyn Write) -> Result<u8, Error> {
-    let (report, table, analysis, [ingest, statistics]) =
-        analyse_file(&args.file, &args.input, &args.alerts)?;
+    if !args.more_files.is_empty() && !args.stages.chain {
+        return Err(Error::Usage(
+            "report reads one log; give --chain to read several as consecutive stages of one \
+             system"
+                .to_string(),
+        ));
+    }
+    let mut files = vec![args.file.clone()];
+    files.extend(args.more_files.iter().cloned());
+    let (report, staged, [ingest, statistics]) =
+        analyse_run(&files, &args.input, &args.alerts, &args.stages)?;
+    let (table, analysis) = (staged.table, staged.analysis);
     if args.timings {
         eprintln!("ingest: {ingest:.3} s");
         eprintln!("statistics: {statistics:.3} s");

@@ -222,5 +222,6 @@ pub fn build_report(
             full_resolution_from_row: f.full_resolution_from_row,
             approximate: f.approximate.iter().map(|s| s.to_string()).collect(),
         }),
+        stages: Vec::new(),
     }
 }

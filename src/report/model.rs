@@ -13,8 +13,9 @@ use crate::alert::{Alert, AlertKind, RunStatus, Severity};
 use super::number;
 
 /// Version of the JSON layout. Raised when a key is removed or changes meaning; adding a
-/// key does not raise it.
-pub const SCHEMA_VERSION: u32 = 2;
+/// key does not raise it. 3: `stages`; `segments` are the pieces analysed on their own
+/// (one per stage) and `columns` describe the last stage.
+pub const SCHEMA_VERSION: u32 = 3;
 
 /// How many skipped lines are listed in detail.
 pub const SKIPPED_DETAIL_LIMIT: usize = 100;
@@ -64,6 +65,10 @@ pub struct Report {
     /// with `--keep-rows`); null otherwise.
     #[serde(default)]
     pub folding: Option<Folding>,
+    /// The stages of the run (minimization, heating, equilibration, production), in order;
+    /// `columns` describe the last one.
+    #[serde(default)]
+    pub stages: Vec<crate::stages::StageRecord>,
 }
 
 /// Older rows folded into block summaries: which statistics are approximate, from where.

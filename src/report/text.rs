@@ -255,6 +255,80 @@ pub fn render_text(r: &Report) -> String {
     escape_document(&render_text_raw(r)).into_owned()
 }
 
+/// The stage list is shown when the run has more than one stage, or its one stage is a
+/// minimization or a heating ramp.
+fn stages_shown(r: &Report) -> bool {
+    use crate::stages::StageKind;
+    r.stages.len() > 1
+        || r.stages
+            .iter()
+            .any(|s| matches!(s.kind, StageKind::Minimization | StageKind::Heating))
+}
+
+fn stage_kind_words(st: &crate::stages::StageRecord) -> String {
+    match st.conditions {
+        Some(c) if st.kind != crate::stages::StageKind::Minimization => {
+            format!("{} ({})", st.kind.name(), c.words())
+        }
+        _ => st.kind.name().to_string(),
+    }
+}
+
+fn stage_rows(st: &crate::stages::StageRecord) -> String {
+    format!(
+        "{}-{}",
+        st.first_row,
+        (st.first_row + st.rows).saturating_sub(1)
+    )
+}
+
+fn stage_times(st: &crate::stages::StageRecord) -> String {
+    match (st.start_time, st.end_time) {
+        (Some(a), Some(b)) => format!("{}-{}", format_number(a, ""), format_number(b, "")),
+        _ => "-".to_string(),
+    }
+}
+
+fn stage_detail_with_file(st: &crate::stages::StageRecord) -> String {
+    match &st.file {
+        Some(f) => format!("{} [{}]", st.detail, escape_control(f)),
+        None => st.detail.clone(),
+    }
+}
+
+fn stage_line(st: &crate::stages::StageRecord) -> String {
+    let time = match (st.start_time, st.end_time) {
+        (Some(_), Some(_)) => format!(", {} ps", stage_times(st)),
+        _ => String::new(),
+    };
+    let file = st
+        .file
+        .as_deref()
+        .map(|f| format!(", {}", escape_control(f)))
+        .unwrap_or_default();
+    format!(
+        "{}. {:<36} rows {}{time}{file} ({}): {}",
+        st.index + 1,
+        stage_kind_words(st),
+        stage_rows(st),
+        st.started_by.words(),
+        st.verdict
+    )
+}
+
+/// Which stage the statistics below describe.
+fn statistics_of(r: &Report) -> String {
+    match r.stages.last() {
+        Some(st) => format!(
+            "statistics below: stage {} ({}), rows {}; earlier stages excluded",
+            st.index + 1,
+            st.kind.name(),
+            stage_rows(st)
+        ),
+        None => String::new(),
+    }
+}
+
 fn render_text_raw(r: &Report) -> String {
     let mut out = String::new();
     let _ = writeln!(out, "{}", escape_control(&r.source.path));
@@ -262,6 +336,15 @@ fn render_text_raw(r: &Report) -> String {
         let _ = writeln!(out, "{l}");
     }
     out.push('\n');
+    if stages_shown(r) {
+        let _ = writeln!(out, "stages:");
+        for st in &r.stages {
+            let _ = writeln!(out, "  {}", stage_line(st));
+            let _ = writeln!(out, "      {}", st.detail);
+        }
+        let _ = writeln!(out, "{}", statistics_of(r));
+        out.push('\n');
+    }
     let rows = column_rows(r);
     let mut widths = COLUMN_HEADERS.map(|h| h.chars().count());
     for row in &rows {
@@ -329,6 +412,28 @@ fn render_markdown_raw(r: &Report) -> String {
         let _ = writeln!(out, "- {}", md_escape(&l));
     }
     out.push('\n');
+    if stages_shown(r) {
+        let _ = writeln!(out, "## Stages\n");
+        let _ = writeln!(
+            out,
+            "| # | kind | rows | time (ps) | started by | verdict | detail |"
+        );
+        let _ = writeln!(out, "|---|---|---|---|---|---|---|");
+        for st in &r.stages {
+            let _ = writeln!(
+                out,
+                "| {} | {} | {} | {} | {} | {} | {} |",
+                st.index + 1,
+                md_escape(&stage_kind_words(st)),
+                stage_rows(st),
+                stage_times(st),
+                st.started_by.words(),
+                st.verdict,
+                md_escape(&stage_detail_with_file(st))
+            );
+        }
+        let _ = writeln!(out, "\n{}\n", md_escape(&statistics_of(r)));
+    }
     let _ = writeln!(out, "| {} |", COLUMN_HEADERS.join(" | "));
     let _ = writeln!(out, "|{}", "---|".repeat(COLUMN_HEADERS.len()));
     for row in column_rows(r) {

@@ -14,6 +14,7 @@
 //! ([`crate::demo`]) and the 1 GB benchmark log.
 
 pub mod generator;
+pub mod stages;
 pub mod system;
 pub mod writer;
 
