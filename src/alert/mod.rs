@@ -503,7 +503,8 @@ impl AlertEngine {
     }
 
     /// Nonfinite values in rows `rows` (indices into `values`) of a column: raised at the
-    /// first non-finite row, critical; cleared after `nonfinite_clear_rows` finite rows.
+    /// first non-finite row written in the log (an absent value, a row without this
+    /// column, is not one), critical; cleared after `nonfinite_clear_rows` finite rows.
     /// `values[i]` is row `row_offset + i` of the run (alerts carry run rows).
     pub fn scan_nonfinite(
         &mut self,
@@ -521,7 +522,7 @@ impl AlertEngine {
             .unwrap_or(&[])
             .iter()
             .enumerate()
-            .filter(|(_, v)| !v.is_finite())
+            .filter(|(_, v)| !v.is_finite() && !crate::table::is_absent(**v))
             .map(|(i, _)| rows.start + i + off);
         self.scan_flagged(
             AlertKind::Nonfinite,

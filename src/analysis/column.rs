@@ -60,8 +60,10 @@ pub(super) fn analysed_count(seg: &Segment) -> usize {
     seg.columns.iter().filter(|c| observable(c)).count()
 }
 
+/// The first row of `x` with a non-finite value written in the log (absent values, rows
+/// that do not have this column, are skipped), or `x.len()`.
 pub(super) fn first_nonfinite(x: &[f64]) -> usize {
-    x.iter().position(|v| !v.is_finite()).unwrap_or(x.len())
+    super::present::first_written_nonfinite(x)
 }
 
 /// Rows per block of [`blockwise_inefficiency`] (common practice, no source).
@@ -85,7 +87,8 @@ pub(super) fn blockwise_inefficiency(x: &[f64]) -> Option<f64> {
 
 pub(super) fn finite_part_mean(values: &[f64], from: usize) -> Option<f64> {
     let end = first_nonfinite(values);
-    stats::mean(values.get(from.min(end)..end)?)
+    let part = super::present::Present::of_values(values.get(from.min(end)..end)?);
+    stats::mean(part.values())
 }
 
 /// Production statistics of `x[row..]`; `g` and `n_eff` are the onset's, computed on the

@@ -3,6 +3,7 @@
 use std::ops::Range;
 
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
+use super::present::Present;
 use super::{
     analysed_count, beyond_context, observable, runaway_flags, runaway_options, spike_threshold,
     time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan, TableLocator,
@@ -73,25 +74,35 @@ impl Analyzer {
             if !observable(col) {
                 return None;
             }
-            let values = col.values();
+            // Rows without a value in this column are skipped: the detectors run on the
+            // present values and their rows are mapped back.
+            let present = Present::of(col);
+            let values = present.values();
+            let at = |row: usize| present.index(row);
+            let (spike_start, spike_end) = (at(plan.spike_start), at(plan.spike_end));
+            let n = values.len();
             // Spikes (Hampel), rows whose full window is available.
-            let spikes = if plan.spike_end > plan.spike_start {
-                let lo = plan.spike_start.saturating_sub(k);
-                let hi = (plan.spike_end + k).min(plan.n);
+            let spikes = if spike_end > spike_start {
+                let lo = spike_start.saturating_sub(k);
+                let hi = (spike_end + k).min(n);
                 values
                     .get(lo..hi)
                     .map(|w| stats::hampel(w, &hopts))
                     .unwrap_or_default()
                     .into_iter()
                     .map(|i| i + lo)
-                    .filter(|i| (plan.spike_start..plan.spike_end).contains(i))
+                    .filter(|i| (spike_start..spike_end).contains(i))
                     .filter(|&i| beyond_context(values, i, k, context_sigmas))
+                    .map(|i| present.row(i))
                     .collect()
             } else {
                 Vec::new()
             };
             let mut cache = cache;
-            let runaway = runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false);
+            let runaway = runaway_flags(values, at(plan.start)..n, &ropts, &mut cache, false)
+                .into_iter()
+                .map(|(i, rate)| (present.row(i), rate))
+                .collect();
             Some((ColumnFlags { spikes, runaway }, cache))
         });
         done.into_iter()
