@@ -40,12 +40,37 @@ fn main() {
     let mut tallies = Vec::new();
     for fault in Fault::ALL {
         let n = if fault == Fault::None { 3 * runs } else { runs };
+        // Two threads, each its share of the cases; tallied in case order.
+        let threads = std::thread::available_parallelism().map_or(1, |p| p.get().min(2));
+        let outcomes: Vec<(mc::Case, mc::Outcome)> = std::thread::scope(|s| {
+            let handles: Vec<_> = (0..threads)
+                .map(|k| {
+                    s.spawn(move || {
+                        (k..n)
+                            .step_by(threads)
+                            .map(|i| {
+                                let case = draw(fault, i, SEED, 2_000, 50_000);
+                                (i, case, run_case(&case))
+                            })
+                            .collect::<Vec<_>>()
+                    })
+                })
+                .collect();
+            let mut all: Vec<_> = handles
+                .into_iter()
+                .flat_map(|h| h.join().unwrap())
+                .collect();
+            all.sort_by_key(|x| x.0);
+            all.into_iter().map(|(_, c, o)| (c, o)).collect()
+        });
         let mut t = Tally::default();
-        for i in 0..n {
-            let case = draw(fault, i, SEED, 2_000, 50_000);
-            t.add(&case, &run_case(&case));
+        for (case, o) in &outcomes {
+            t.add(case, o);
         }
         eprintln!("{}: {} runs", fault.name(), t.runs);
+        for m in &t.misses {
+            eprintln!("  missed: {m:?}");
+        }
         tallies.push((fault, t));
     }
     let mut md = String::new();
@@ -100,6 +125,33 @@ fn main() {
                 .unwrap();
             }
         }
+    }
+    writeln!(md, "\n## Runs that missed a target\n").unwrap();
+    let mut any = false;
+    for (fault, t) in &tallies {
+        if t.misses.is_empty() {
+            continue;
+        }
+        any = true;
+        let cases: Vec<String> = t
+            .misses
+            .iter()
+            .take(8)
+            .map(|c| format!("{} rows, φ = {:.2}", c.rows, c.phi))
+            .collect();
+        writeln!(
+            md,
+            "- {}: {} of {} ({}{})",
+            fault.name(),
+            t.misses.len(),
+            t.runs,
+            cases.join("; "),
+            if t.misses.len() > 8 { "; ..." } else { "" }
+        )
+        .unwrap();
+    }
+    if !any {
+        writeln!(md, "None.").unwrap();
     }
     writeln!(md, "\n## Detection delays (medians)\n").unwrap();
     for (fault, t) in &tallies {

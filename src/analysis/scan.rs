@@ -14,6 +14,26 @@ use crate::mapping::Role;
 use crate::stats::{self, HampelOptions};
 use crate::table::{Column, RunTable, Segment};
 
+/// Rows at the start of the tested part whose robust SD sizes the off-target window.
+pub const OFF_TARGET_SD_ROWS: usize = 2000;
+/// Rows per block of [`noise_inefficiency`].
+const NOISE_BLOCK_ROWS: usize = 250;
+
+/// Statistical inefficiency of the noise of `x` (which may hold a step or a ramp): the
+/// median of g over blocks of [`NOISE_BLOCK_ROWS`] rows, each block detrended; g of the
+/// whole detrended sample when it holds fewer than three blocks.
+fn noise_inefficiency(x: &[f64]) -> Option<f64> {
+    if x.len() < 3 * NOISE_BLOCK_ROWS {
+        return super::run::detrended_inefficiency(x);
+    }
+    let mut gs: Vec<f64> = x
+        .chunks_exact(NOISE_BLOCK_ROWS)
+        .filter_map(super::run::detrended_inefficiency)
+        .collect();
+    gs.sort_by(f64::total_cmp);
+    stats::median(&gs)
+}
+
 impl Analyzer {
     /// The rows the per-row detectors of segment `si` look at in this update: from the
     /// first row not yet scanned (or the first row a new restart replaced). Pure; the
@@ -246,6 +266,25 @@ impl Analyzer {
                         .or(c.inefficiency_all)
                 })
                 .unwrap_or(1.0);
+            // The noise that sizes the window and its margin, from the first rows tested
+            // (an excursion later in the run must not lengthen the window that is to find
+            // it): a robust (MAD) SD, and g as the median over blocks (a step or ramp
+            // inside the sample raises the g of one block, not the median).
+            let first_tested = start_row.saturating_sub(self.forgotten_rows(si));
+            let sample: Vec<f64> = values
+                .get(first_tested.min(values.len())..)
+                .unwrap_or_default()
+                .iter()
+                .copied()
+                .filter(|v| v.is_finite())
+                .take(OFF_TARGET_SD_ROWS)
+                .collect();
+            let sd = stats::robust_sd(&sample).filter(|s| *s > 0.0).or_else(|| {
+                column
+                    .and_then(|c| c.production.as_ref())
+                    .and_then(|p| p.std)
+            });
+            let g = noise_inefficiency(&sample).unwrap_or(g);
             let input = OffTargetInput {
                 kind,
                 column: name,
@@ -255,7 +294,8 @@ impl Analyzer {
                 target: &target,
                 tolerance,
                 inefficiency: g,
-                start_row: start_row.saturating_sub(self.forgotten_rows(si)),
+                sd,
+                start_row: first_tested,
                 row_offset: offset,
             };
             self.engine.scan_off_target(&input, start..n, &loc);
