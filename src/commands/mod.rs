@@ -45,16 +45,12 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<u8, Error> {
 pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Error> {
     let cwd = std::env::current_dir().unwrap_or_else(|_| Path::new(".").to_path_buf());
     let mut settings = Settings::resolve(input, &cwd)?;
-    // Opened once: the row tag is guessed from the bytes the reader then reads again, so
-    // a named pipe works too.
-    let guess = settings.parse.row_tag.is_none();
-    let start = if guess { crate::live::SNIFF_BYTES } else { 0 };
-    let opened = crate::ingest::open_input(file, start)?;
-    if guess {
-        if let Some(tag) = crate::parse::sniff::sniff_row_tag(opened.start()) {
-            settings.parse.row_tag = Some(tag);
-            settings.row_tag_guessed = true;
-        }
+    // Opened once: the layout is guessed from the first bytes, which the reader then reads
+    // again, so a named pipe works too.
+    let opened = crate::ingest::open_input(file, crate::live::SNIFF_BYTES)?;
+    if !opened.start().is_empty() {
+        let guess = crate::parse::sniff::sniff_layout(opened.start(), &settings.parse);
+        apply_layout_guess(guess, &mut settings);
     }
     let label = file.display().to_string();
     let mut meter = crate::progress::Meter::stderr(&crate::text::escape_control(&label));
@@ -70,9 +66,14 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
 /// `--row-tag`, a leading word that marks the data rows (used, marked as guessed); without
 /// `--delimiter`, the separator the data lines agree on.
 pub fn guess_row_tag(file: &Path, settings: &mut Settings) {
-    let Some(guess) = crate::live::sniff_layout(file, &settings.parse) else {
-        return;
-    };
+    if let Some(guess) = crate::live::sniff_layout(file, &settings.parse) {
+        apply_layout_guess(guess, settings);
+    }
+}
+
+/// Uses a layout guess where the user chose nothing (row tag, delimiter), marking a
+/// guessed row tag as such.
+fn apply_layout_guess(guess: crate::parse::sniff::LayoutGuess, settings: &mut Settings) {
     if settings.parse.row_tag.is_none() && guess.row_tag.is_some() {
         settings.row_tag_guessed = true;
     }

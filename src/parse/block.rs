@@ -298,15 +298,30 @@ fn classify(
         } else {
             rest.strip_prefix(b":").unwrap_or(rest)
         };
-        let rest = rest.strip_prefix(b",").unwrap_or(rest);
+        let unstripped = rest;
+        // One separator between the tag and the first cell: a second one starts an empty
+        // cell (the blank first cell of a units line, `DATA,,(K),`).
         let rest = match &sep {
-            Some(s) if !glued => rest.strip_prefix(s.bytes()).unwrap_or(rest),
-            _ => rest,
+            Some(s) if !glued && s.bytes() != b"," => {
+                let rest = rest.strip_prefix(b",").unwrap_or(rest);
+                rest.strip_prefix(s.bytes()).unwrap_or(rest)
+            }
+            _ => rest.strip_prefix(b",").unwrap_or(rest),
         };
         match data(rest, line, options, out) {
             DataOutcome::Done => {}
             DataOutcome::NotData => {
-                if !candidate(rest, kept, line, false, options, out) {
+                // Behind a tag glued to the row (`>, , [K]`) a separator starts the first,
+                // empty, cell of a units line.
+                let units_first_empty = glued
+                    && unstripped.len() > rest.len()
+                    && super::layout::units_line(
+                        unstripped,
+                        options.delimiter.for_header(unstripped),
+                    )
+                    .is_some();
+                let text = if units_first_empty { unstripped } else { rest };
+                if !candidate(text, kept, line, false, options, out) {
                     out.items.push(Item::Skipped {
                         line,
                         why: BlockSkip::TaggedNotData,
