@@ -113,8 +113,9 @@ impl AlertEngine {
     /// complete, the window mean is compared with the mean target over the same rows. The
     /// window is [`off_target_window_rows`] rows (set in correlation times); its margin is
     /// `off_target_sigmas` standard errors of the window mean from the window's own SD and
-    /// N_eff = W/g. Raised after the condition held for a tenth of a window (at least one
-    /// row), cleared after it failed for one window. Rows without a value (absent) are left
+    /// N_eff = W/g. The condition turns on beyond tolerance + margin and off only back
+    /// inside the tolerance (hysteresis in value); raised after it held for a tenth of a
+    /// window (at least one row), cleared after it was off for one window. Rows without a value (absent) are left
     /// out of a window; a written non-finite value makes its windows undecided.
     ///
     /// Detection delay: after a step of the mean to twice the tolerance beyond the target
@@ -241,12 +242,26 @@ impl AlertEngine {
                 .and_then(|i| stats.get(i).copied().flatten())
         };
         let off = input.row_offset;
+        let mut on = self.is_active(kind, column);
         self.scan(
             kind,
             column,
             sustain,
             off + start..off + end,
-            |r| stat_at(r - off).is_some_and(|(m, t, se)| (m - t).abs() > tolerance + sigmas * se),
+            |r| {
+                // A Schmitt trigger in value: on when the mean is beyond tolerance + margin,
+                // off only once it is back inside the tolerance, so a mean that crosses the
+                // threshold slowly (a slow ramp, with noise) is one episode, not many.
+                if let Some((m, t, se)) = stat_at(r - off) {
+                    let d = (m - t).abs();
+                    if d > tolerance + sigmas * se {
+                        on = true;
+                    } else if d <= tolerance {
+                        on = false;
+                    }
+                }
+                on
+            },
             |since, now| {
                 let (m, t, se) = stat_at(now - off).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
                 let direction = if m < t { "below" } else { "above" };
