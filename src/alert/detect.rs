@@ -541,6 +541,7 @@ mod tests {
             target,
             tolerance: 5.0,
             inefficiency: 2.0,
+            sd: None,
             start_row: 0,
             row_offset: 0,
         };
