@@ -234,7 +234,9 @@ pub fn format_number(value: f64, unit: &str) -> String {
     } else {
         // Four significant digits, and never fewer than the integer part's.
         let digits_before = value.abs().max(1.0).log10().floor() as usize + 1;
-        let keep = if value.abs() >= 1.0 {
+        let keep = if value == 0.0 {
+            0
+        } else if value.abs() >= 1.0 {
             4usize.saturating_sub(digits_before)
         } else {
             // 0.001 ≤ |v| < 1: leading zeros after the point do not count.
@@ -664,6 +666,7 @@ mod tests {
         assert_eq!(format_number(f64::NAN, ""), "nan");
         assert_eq!(format_number(2.5e11, "bar"), "2.500e11 bar");
         assert_eq!(format_number(0.0125, ""), "0.0125");
+        assert_eq!(format_number(0.0, "K"), "0 K");
         assert_eq!(format_number(0.012_345_6, "K"), "0.01235 K");
         assert_eq!(format_number(5.23313, "robust SDs"), "5.233 robust SDs");
         assert_eq!(format_number(5.02602, "s"), "5.026 s");
