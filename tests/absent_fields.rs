@@ -42,7 +42,7 @@ fn log(style: Style, seed: u64, nan_row: Option<usize>) -> (String, usize, usize
         for v in &mut x {
             *v = phi * *v + innov * rng.normal();
         }
-        let with_p = r % 3 == 0;
+        let with_p = r.is_multiple_of(3);
         let with_u = rng.uniform() >= 0.1 || nan_row == Some(r);
         pressure_rows += usize::from(with_p);
         potential_rows += usize::from(with_u);
