@@ -13,6 +13,10 @@
 //!   eight per row).
 //! * Non-finite values from `nan`/`inf` tokens are counted in [`Column::non_finite`];
 //!   `****` fields are stored as NaN and counted in [`Column::overflow`].
+//! * A field a row does not have (a `name=value` or JSON row that misses a name) is
+//!   *absent*: stored as [`ABSENT`], a NaN with a payload of its own, and counted in
+//!   [`Column::absent`], never in `non_finite`. The analysis skips absent values; only a
+//!   `nan`/`inf` written in the log is a non-finite value.
 
 use std::fmt;
 
@@ -23,6 +27,29 @@ use crate::parse::layout::{Delimiter, HeaderName};
 
 /// How many skipped lines are kept with their line number and reason.
 pub const SKIPPED_KEPT: usize = 100;
+
+/// The value stored for a field a row does not have: a quiet NaN with its own payload, so
+/// that it stays apart from a `nan` written in the log (the same device as R's `NA`, a NaN
+/// whose low word is 1954; R Internals, §1.6). Test with [`is_absent`]; arithmetic on it
+/// gives a NaN that may lose the payload, so convert values with [`keep_absent`].
+pub const ABSENT: f64 = f64::from_bits(0x7FF8_0000_0000_07A2);
+
+/// True when `v` is [`ABSENT`] (no value), not a written number or `nan`.
+#[inline]
+pub fn is_absent(v: f64) -> bool {
+    v.to_bits() == ABSENT.to_bits()
+}
+
+/// `converted` unless the source value `raw` is absent (then absent): unit conversion that
+/// keeps an absent field absent.
+#[inline]
+pub fn keep_absent(raw: f64, converted: f64) -> f64 {
+    if is_absent(raw) {
+        ABSENT
+    } else {
+        converted
+    }
+}
 
 /// One column: its description and its values (canonical units).
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -35,6 +62,8 @@ pub struct Column {
     pub non_finite: u64,
     /// Rows whose value was a `****` overflow field (stored as NaN).
     pub overflow: u64,
+    /// Rows that have no value in this column ([`ABSENT`]: a record row without the name).
+    pub absent: u64,
     /// Row indices of the overflow fields (kept so restarts can recount).
     #[serde(skip)]
     overflow_rows: Vec<usize>,
@@ -48,6 +77,7 @@ impl Column {
             values: Vec::new(),
             non_finite: 0,
             overflow: 0,
+            absent: 0,
             overflow_rows: Vec::new(),
         }
     }
@@ -65,7 +95,9 @@ impl Column {
             self.overflow_rows.push(self.values.len());
             self.values.push(f64::NAN);
         } else {
-            if !value.is_finite() {
+            if is_absent(value) {
+                self.absent += 1;
+            } else if !value.is_finite() {
                 self.non_finite += 1;
             }
             self.values.push(value);
@@ -78,7 +110,14 @@ impl Column {
         let start = self.values.len();
         self.values.extend(values);
         let added = self.values.get(start..).unwrap_or_default();
-        self.non_finite += added.iter().filter(|v| !v.is_finite()).count() as u64;
+        let bad = added.iter().filter(|v| !v.is_finite()).count() as u64;
+        let absent = if bad > 0 {
+            added.iter().filter(|v| is_absent(**v)).count() as u64
+        } else {
+            0
+        };
+        self.non_finite += bad - absent;
+        self.absent += absent;
     }
 
     /// Rows `rows` of this column as a column of its own (overflow fields kept as such).
@@ -108,10 +147,11 @@ impl Column {
             self.overflow_rows.pop();
             removed_overflow += 1;
         }
-        let removed_nonfinite = self
-            .values
-            .get(rows..)
-            .map_or(0, |s| s.iter().filter(|v| !v.is_finite()).count() as u64);
+        let removed = self.values.get(rows..).unwrap_or_default();
+        let removed_absent = removed.iter().filter(|v| is_absent(**v)).count() as u64;
+        let removed_nonfinite =
+            removed.iter().filter(|v| !v.is_finite()).count() as u64 - removed_absent;
+        self.absent -= removed_absent.min(self.absent);
         self.overflow -= removed_overflow.min(self.overflow);
         let nf = removed_nonfinite.saturating_sub(removed_overflow);
         self.non_finite -= nf.min(self.non_finite);

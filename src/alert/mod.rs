@@ -23,7 +23,10 @@ use std::ops::Range;
 
 use serde::{Deserialize, Serialize};
 
-pub use detect::{DriftEvidence, FluctuationEvidence, OffTargetInput, RUN};
+pub use detect::{
+    off_target_window_rows, DriftEvidence, FluctuationEvidence, OffTargetInput,
+    OFF_TARGET_MARGIN_OF_TOLERANCE, OFF_TARGET_MAX_ROWS, OFF_TARGET_MIN_NEFF, RUN,
+};
 pub use hysteresis::{Hysteresis, Sustain, Transition};
 pub use status::{RunStatus, StatusInputs};
 pub use target::Target;
@@ -227,16 +230,33 @@ pub fn format_number(value: f64, unit: &str) -> String {
             "-inf".to_string()
         }
     } else if value != 0.0 && (value.abs() >= 1e6 || value.abs() < 1e-3) {
-        format!("{value:.4e}")
+        format!("{value:.3e}")
     } else {
+        // Four significant digits, and never fewer than the integer part's.
         let digits_before = value.abs().max(1.0).log10().floor() as usize + 1;
-        let keep = 6usize.saturating_sub(digits_before);
+        let keep = if value == 0.0 {
+            0
+        } else if value.abs() >= 1.0 {
+            4usize.saturating_sub(digits_before)
+        } else {
+            // 0.001 ≤ |v| < 1: leading zeros after the point do not count.
+            (3 - value.abs().log10().floor() as i32).clamp(0, 6) as usize
+        };
         trim_zeros(&format!("{value:.keep$}"))
     };
     if unit.is_empty() {
         text
     } else {
         format!("{text} {unit}")
+    }
+}
+
+/// A span of simulated time given in ps, in ps or ns with 3–4 significant digits.
+pub fn format_duration_ps(ps: f64) -> String {
+    if ps.is_finite() && ps.abs() >= 1000.0 {
+        format_number(ps / 1000.0, "ns")
+    } else {
+        format_number(ps, "ps")
     }
 }
 
@@ -503,7 +523,8 @@ impl AlertEngine {
     }
 
     /// Nonfinite values in rows `rows` (indices into `values`) of a column: raised at the
-    /// first non-finite row, critical; cleared after `nonfinite_clear_rows` finite rows.
+    /// first non-finite row written in the log (an absent value, a row without this
+    /// column, is not one), critical; cleared after `nonfinite_clear_rows` finite rows.
     /// `values[i]` is row `row_offset + i` of the run (alerts carry run rows).
     pub fn scan_nonfinite(
         &mut self,
@@ -521,7 +542,7 @@ impl AlertEngine {
             .unwrap_or(&[])
             .iter()
             .enumerate()
-            .filter(|(_, v)| !v.is_finite())
+            .filter(|(_, v)| !v.is_finite() && !crate::table::is_absent(**v))
             .map(|(i, _)| rows.start + i + off);
         self.scan_flagged(
             AlertKind::Nonfinite,
@@ -640,9 +661,17 @@ mod tests {
     #[test]
     fn number_format_is_short_and_plain() {
         assert_eq!(format_number(300.0, "K"), "300 K");
-        assert_eq!(format_number(-56498.49, "kJ/mol"), "-56498.5 kJ/mol");
+        // 3–4 significant digits (never fewer than the integer part's) and the unit.
+        assert_eq!(format_number(-56498.49, "kJ/mol"), "-56498 kJ/mol");
         assert_eq!(format_number(f64::NAN, ""), "nan");
-        assert_eq!(format_number(2.5e11, "bar"), "2.5000e11 bar");
+        assert_eq!(format_number(2.5e11, "bar"), "2.500e11 bar");
         assert_eq!(format_number(0.0125, ""), "0.0125");
+        assert_eq!(format_number(0.0, "K"), "0 K");
+        assert_eq!(format_number(0.012_345_6, "K"), "0.01235 K");
+        assert_eq!(format_number(5.23313, "robust SDs"), "5.233 robust SDs");
+        assert_eq!(format_number(5.02602, "s"), "5.026 s");
+        assert_eq!(format_number(301.234, "K"), "301.2 K");
+        assert_eq!(format_duration_ps(12.5), "12.5 ps");
+        assert_eq!(format_duration_ps(2500.0), "2.5 ns");
     }
 }

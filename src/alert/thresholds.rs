@@ -57,9 +57,10 @@ pub struct Thresholds {
     /// Statistical margin of the off-target test in standard errors of the window mean
     /// (standard error from the statistical inefficiency g). Default 3 (issue text).
     pub off_target_sigmas: f64,
-    /// Rows in the moving window whose mean is compared with the target. The alert is
-    /// raised after the condition held for this many rows and cleared after twice as many.
-    /// Default 50 rows (common practice, no source).
+    /// Least rows in the moving window whose mean is compared with the target. The window
+    /// itself is set in correlation times (`alert::off_target_window_rows`: g times the
+    /// effective samples that keep the margin within half the tolerance); this is its floor.
+    /// Default 20 rows (common practice, no source).
     pub off_target_window: usize,
     /// Fluctuation-size verdict: two-sided probability of the χ² band outside which
     /// σ_T/⟨T⟩ is called too small or too large. Default 0.999 (METHODS §6 uses 99.9 %
@@ -94,7 +95,7 @@ impl Default for Thresholds {
             temperature_tolerance: 5.0,
             pressure_tolerance: 50.0,
             off_target_sigmas: 3.0,
-            off_target_window: 50,
+            off_target_window: 20,
             fluctuation_band: 0.999,
             stall_factor: 5.0,
             stall_minimum_seconds: 60.0,

@@ -46,6 +46,7 @@ mod folded;
 mod locate;
 mod options;
 mod parallel;
+mod present;
 mod results;
 mod run;
 mod scan;

@@ -1,6 +1,7 @@
 //! The run's full statistics: columns, the run's onset, ensemble, drift and fluctuation size.
 
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
+use super::present::{rows_all_present, Present};
 use super::results::DriftPer;
 use super::{
     blockwise_inefficiency, empty_analysis, finite_part_mean, first_nonfinite, judge_trends,
@@ -46,10 +47,11 @@ impl Analyzer {
             let first_runaway = match known.and_then(|k| k.get(ci)).and_then(Option::as_ref) {
                 Some(flags) => flags.runaway.first().map(|f| f.0),
                 None => {
+                    let p = Present::of(c);
                     let mut state = Default::default();
-                    runaway_flags(v, 0..end, &ropts, &mut state, true)
+                    runaway_flags(p.values(), 0..p.index(end), &ropts, &mut state, true)
                         .first()
-                        .map(|f| f.0)
+                        .map(|f| p.row(f.0))
                 }
             };
             first_runaway.map_or(end, |r| r.min(end))
@@ -61,14 +63,36 @@ impl Analyzer {
         let mut columns: Vec<ColumnAnalysis> = map_in_order(&seg.columns, parallel, |c| {
             let values = c.values();
             let finite_end = first_nonfinite(values).min(stable_end);
-            let x = values.get(..finite_end).unwrap_or(&[]);
+            // Rows without a value in this column are skipped; rows found on the present
+            // values are mapped back to the segment's rows.
+            let present = Present::of(c);
+            let x = present
+                .values()
+                .get(..present.index(finite_end))
+                .unwrap_or(&[]);
             let is_observable = observable(c);
             let (equilibration, mser, production) = if is_observable {
                 let eq = stats::detect_equilibration(x);
-                let mser = stats::mser5(x);
+                let mser = stats::mser5(x).map(|mut m| {
+                    m.row = present.row(m.row);
+                    m
+                });
                 let production = match eq {
-                    Equilibration::Onset { row, g, n_eff } => production(x, row, g, n_eff),
+                    Equilibration::Onset { row, g, n_eff } => {
+                        production(x, row, g, n_eff).map(|mut p| {
+                            p.first_row = present.row(row);
+                            p
+                        })
+                    }
                     _ => None,
+                };
+                let eq = match eq {
+                    Equilibration::Onset { row, g, n_eff } => Equilibration::Onset {
+                        row: present.row(row),
+                        g,
+                        n_eff,
+                    },
+                    other => other,
                 };
                 (Some(eq), mser, production)
             } else {
@@ -87,7 +111,7 @@ impl Analyzer {
                 equilibration,
                 mser,
                 production,
-                last: values.last().copied(),
+                last: present.values().last().copied(),
                 inefficiency_all: if needs_inefficiency_all {
                     blockwise_inefficiency(x)
                 } else {
@@ -134,7 +158,9 @@ impl Analyzer {
                 }
                 let v = c.values();
                 let end = first_nonfinite(v).min(stable_end);
-                let tail = v.get(row.min(end)..end)?;
+                let present = Present::of(c);
+                let (lo, hi) = (present.index(row.min(end)), present.index(end));
+                let tail = present.values().get(lo..hi)?;
                 let own = columns
                     .iter()
                     .find(|a| a.name == c.spec.name)
@@ -148,7 +174,15 @@ impl Analyzer {
                     stats::variance_population(tail)
                         .and_then(|v| stats::sem_from_g(v, g, tail.len()))
                 });
-                trend(tail, seg, g, sem)
+                let mut t = trend(tail, seg, g, sem)?;
+                if present.has_absent() && hi > lo + 1 {
+                    // Slopes per present value, back to per row.
+                    let span = present.row(hi - 1).saturating_sub(present.row(lo)) as f64;
+                    let per_row = (hi - lo - 1) as f64 / span.max(1.0);
+                    t.slope_per_row *= per_row;
+                    t.slope_per_ns = t.slope_per_ns.map(|s| s * per_row);
+                }
+                Some(t)
             });
             for (c, t) in columns.iter_mut().zip(trends) {
                 c.trend = t;
@@ -188,8 +222,14 @@ impl Analyzer {
                         "N_df·k_B·T/2 in place of the kinetic energy: ",
                     ),
                 };
-                stats::infer_ensemble(part(Role::Total), kinetic, part(Role::Volume)).map(|g| {
-                    EnsembleChoice {
+                // Rows where every column it compares has a value.
+                let (total, volume) = (part(Role::Total), part(Role::Volume));
+                let given: Vec<&[f64]> = [total, kinetic, volume].into_iter().flatten().collect();
+                let mut aligned = rows_all_present(&given).into_iter();
+                let mut next = |c: Option<&[f64]>| c.and_then(|_| aligned.next());
+                let (total, kinetic, volume) = (next(total), next(kinetic), next(volume));
+                stats::infer_ensemble(total.as_deref(), kinetic.as_deref(), volume.as_deref()).map(
+                    |g| EnsembleChoice {
                         ensemble: g.ensemble,
                         given: false,
                         reason: if g.ensemble == Ensemble::Npt {
@@ -197,8 +237,8 @@ impl Analyzer {
                         } else {
                             format!("{stand_in}{}", g.reason)
                         },
-                    }
-                })
+                    },
+                )
             }
         };
         let n_df = self.opts.degrees_of_freedom();
@@ -269,8 +309,13 @@ impl Analyzer {
             columns.iter().find(|c| c.role == Some(Role::Temperature))?;
             let v = seg.column(Role::Temperature)?.values();
             let end = first_nonfinite(v).min(stable_end);
-            let part = v.get(row.min(end)..end)?;
-            stats::temperature_fluctuation(part, n_df, None, self.opts.thresholds.fluctuation_band)
+            let part = Present::of_values(v.get(row.min(end)..end)?);
+            stats::temperature_fluctuation(
+                part.values(),
+                n_df,
+                None,
+                self.opts.thresholds.fluctuation_band,
+            )
         };
         // One after the other: each needs a whole-column working copy (residuals, squared
         // deviations), and run side by side the two copies would raise the peak memory.
@@ -325,9 +370,10 @@ pub(super) fn drift_summary(
     conservation: bool,
 ) -> Option<DriftSummary> {
     let end = first_nonfinite(values).min(first_nonfinite(times));
-    let y = values.get(row..end)?;
-    let t = times.get(row..end)?;
-    let d = stats::drift(t, y, SlopeSeMethod::SqrtG, DRIFT_CONFIDENCE)?;
+    // Rows without an energy value are left out of the fit.
+    let present = Present::of_values(values.get(row..end)?);
+    let t = present.gather(times.get(row..end)?);
+    let d = stats::drift(&t, present.values(), SlopeSeMethod::SqrtG, DRIFT_CONFIDENCE)?;
     let scale = |v: f64| {
         if per == DriftPer::Ns {
             stats::per_ns(v)

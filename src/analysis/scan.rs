@@ -3,6 +3,7 @@
 use std::ops::Range;
 
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
+use super::present::Present;
 use super::{
     analysed_count, beyond_context, observable, runaway_flags, runaway_options, spike_threshold,
     time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan, TableLocator,
@@ -12,6 +13,26 @@ use crate::alert::{AlertKind, OffTargetInput, Severity, Sustain};
 use crate::mapping::Role;
 use crate::stats::{self, HampelOptions};
 use crate::table::{Column, RunTable, Segment};
+
+/// Rows at the start of the tested part whose robust SD sizes the off-target window.
+pub const OFF_TARGET_SD_ROWS: usize = 2000;
+/// Rows per block of [`noise_inefficiency`].
+const NOISE_BLOCK_ROWS: usize = 250;
+
+/// Statistical inefficiency of the noise of `x` (which may hold a step or a ramp): the
+/// median of g over blocks of [`NOISE_BLOCK_ROWS`] rows, each block detrended; g of the
+/// whole detrended sample when it holds fewer than three blocks.
+fn noise_inefficiency(x: &[f64]) -> Option<f64> {
+    if x.len() < 3 * NOISE_BLOCK_ROWS {
+        return super::run::detrended_inefficiency(x);
+    }
+    let mut gs: Vec<f64> = x
+        .chunks_exact(NOISE_BLOCK_ROWS)
+        .filter_map(super::run::detrended_inefficiency)
+        .collect();
+    gs.sort_by(f64::total_cmp);
+    stats::median(&gs)
+}
 
 impl Analyzer {
     /// The rows the per-row detectors of segment `si` look at in this update: from the
@@ -74,19 +95,26 @@ impl Analyzer {
             if !observable(col) {
                 return None;
             }
-            let values = col.values();
+            // Rows without a value in this column are skipped: the detectors run on the
+            // present values and their rows are mapped back.
+            let present = Present::of(col);
+            let values = present.values();
+            let at = |row: usize| present.index(row);
+            let (spike_start, spike_end) = (at(plan.spike_start), at(plan.spike_end));
+            let n = values.len();
             // Spikes (Hampel), rows whose full window is available.
-            let spikes = if plan.spike_end > plan.spike_start {
-                let lo = plan.spike_start.saturating_sub(k);
-                let hi = (plan.spike_end + k).min(plan.n);
+            let spikes = if spike_end > spike_start {
+                let lo = spike_start.saturating_sub(k);
+                let hi = (spike_end + k).min(n);
                 values
                     .get(lo..hi)
                     .map(|w| stats::hampel(w, &hopts))
                     .unwrap_or_default()
                     .into_iter()
                     .map(|i| i + lo)
-                    .filter(|i| (plan.spike_start..plan.spike_end).contains(i))
+                    .filter(|i| (spike_start..spike_end).contains(i))
                     .filter(|&i| beyond_context(values, i, k, context_sigmas))
+                    .map(|i| present.row(i))
                     .collect()
             } else {
                 Vec::new()
@@ -95,7 +123,10 @@ impl Analyzer {
             let runaway = if directed {
                 Vec::new()
             } else {
-                runaway_flags(values, plan.start..plan.n, &ropts, &mut cache, false)
+                runaway_flags(values, at(plan.start)..n, &ropts, &mut cache, false)
+                    .into_iter()
+                    .map(|(i, rate)| (present.row(i), rate))
+                    .collect()
             };
             Some((ColumnFlags { spikes, runaway }, cache))
         });
@@ -240,6 +271,25 @@ impl Analyzer {
                         .or(c.inefficiency_all)
                 })
                 .unwrap_or(1.0);
+            // The noise that sizes the window and its margin, from the first rows tested
+            // (an excursion later in the run must not lengthen the window that is to find
+            // it): a robust (MAD) SD, and g as the median over blocks (a step or ramp
+            // inside the sample raises the g of one block, not the median).
+            let first_tested = start_row.saturating_sub(self.forgotten_rows(si));
+            let sample: Vec<f64> = values
+                .get(first_tested.min(values.len())..)
+                .unwrap_or_default()
+                .iter()
+                .copied()
+                .filter(|v| v.is_finite())
+                .take(OFF_TARGET_SD_ROWS)
+                .collect();
+            let sd = stats::robust_sd(&sample).filter(|s| *s > 0.0).or_else(|| {
+                column
+                    .and_then(|c| c.production.as_ref())
+                    .and_then(|p| p.std)
+            });
+            let g = noise_inefficiency(&sample).unwrap_or(g);
             let input = OffTargetInput {
                 kind,
                 column: name,
@@ -249,7 +299,8 @@ impl Analyzer {
                 target: &target,
                 tolerance,
                 inefficiency: g,
-                start_row: start_row.saturating_sub(self.forgotten_rows(si)),
+                sd,
+                start_row: first_tested,
                 row_offset: offset,
             };
             self.engine.scan_off_target(&input, start..n, &loc);

@@ -450,7 +450,7 @@ fn json_number(v: &serde_json::Value) -> Option<f64> {
 fn record_row(t: &[u8], line: u64, records: &Records, out: &mut BlockResult) -> bool {
     let n = records.names.len();
     let start = out.values.len();
-    out.values.resize(start + n, f64::NAN);
+    out.values.resize(start + n, crate::table::ABSENT);
     let mut found = 0usize;
     record_fields(t, records.kind, |name, x| {
         if let Some(k) = records.names.iter().position(|c| c.as_bytes() == name) {

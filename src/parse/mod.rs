@@ -85,7 +85,7 @@ pub mod sniff;
 use std::collections::VecDeque;
 
 use crate::mapping::{self, MapRequest, SegmentMapping};
-use crate::table::{Column, PartialLine, RunTable, Segment, SkipReason};
+use crate::table::{keep_absent, Column, PartialLine, RunTable, Segment, SkipReason};
 
 pub use block::{parse_block, parse_block_into, BlockResult};
 use block::{BlockSkip, Item, MAX_LINE};
@@ -859,7 +859,8 @@ fn push_row(seg: &mut Segment, line: u64, values: &[f64], overflows: &[u32]) {
             Some(f) => {
                 let raw = values.get(f).copied().unwrap_or(f64::NAN);
                 let overflow = !overflows.is_empty() && overflows.contains(&(f as u32));
-                col.push(raw * col.spec.scale + col.spec.offset, overflow);
+                let v = keep_absent(raw, raw * col.spec.scale + col.spec.offset);
+                col.push(v, overflow);
             }
             None => {
                 let step = derived
@@ -918,19 +919,25 @@ impl<'a> RowRun<'a> {
         match (self.by_field, offset) {
             (Some((block, first)), Some(o)) => {
                 let src = block.field_slice(f, first, self.len());
-                col.extend(src.iter().map(|&v| v * scale + o));
+                col.extend(src.iter().map(|&v| keep_absent(v, v * scale + o)));
             }
             (Some((block, first)), None) => {
                 let src = block.field_slice(f, first, self.len());
-                col.extend(src.iter().map(|&v| v * scale));
+                col.extend(src.iter().map(|&v| keep_absent(v, v * scale)));
             }
             (None, Some(o)) => {
                 let rows = self.values.chunks_exact(self.n.max(1));
-                col.extend(rows.map(|r| r.get(f).copied().unwrap_or(f64::NAN) * scale + o));
+                col.extend(rows.map(|r| {
+                    let v = r.get(f).copied().unwrap_or(f64::NAN);
+                    keep_absent(v, v * scale + o)
+                }));
             }
             (None, None) => {
                 let rows = self.values.chunks_exact(self.n.max(1));
-                col.extend(rows.map(|r| r.get(f).copied().unwrap_or(f64::NAN) * scale));
+                col.extend(rows.map(|r| {
+                    let v = r.get(f).copied().unwrap_or(f64::NAN);
+                    keep_absent(v, v * scale)
+                }));
             }
         }
     }
@@ -990,7 +997,10 @@ fn push_rows(seg: &mut Segment, base: u64, run: &RowRun<'_>) {
 /// The canonical value a row would store in `col`.
 fn source_value(col: &Column, values: &[f64], derived: Option<(usize, f64)>) -> f64 {
     match col.spec.field {
-        Some(f) => values.get(f).copied().unwrap_or(f64::NAN) * col.spec.scale + col.spec.offset,
+        Some(f) => {
+            let v = values.get(f).copied().unwrap_or(f64::NAN);
+            keep_absent(v, v * col.spec.scale + col.spec.offset)
+        }
         None => {
             derived
                 .and_then(|(s, _)| values.get(s).copied())

@@ -180,6 +180,36 @@ pub fn runaway(x: &[f64], opts: &RunawayOptions) -> RunawayCheck {
     }
 }
 
+/// The rise of `|x − m|` over the last quarter of a growth window must be at least this
+/// many times its rise over the third quarter. Exponential growth that is tenfold across
+/// the window rises e^{ln 10 / 4} ≈ 1.78 times as much in each quarter as in the one
+/// before (more when faster, or when it started from the noise inside the window); a
+/// straight ramp rises the same (ratio 1) and a ramp that levels off less (our
+/// derivation; the margin below 1.78 is for the noise, common practice, no source).
+pub const RUNAWAY_ACCELERATION: f64 = 1.2;
+
+/// True when the deviations whose logarithms are `logs` (ascending rows, evenly spaced)
+/// rise faster over the last quarter than over the third ([`RUNAWAY_ACCELERATION`]).
+fn accelerates(logs: &[f64]) -> bool {
+    let n = logs.len();
+    if n < 4 {
+        return true;
+    }
+    let q = n / 4;
+    let mean_dev = |part: &[f64]| -> f64 {
+        part.iter().map(|l| l.exp()).sum::<f64>() / part.len().max(1) as f64
+    };
+    let (Some(q2), Some(q3), Some(q4)) = (
+        logs.get(n - 3 * q..n - 2 * q),
+        logs.get(n - 2 * q..n - q),
+        logs.get(n - q..),
+    ) else {
+        return true;
+    };
+    let (d2, d3, d4) = (mean_dev(q2), mean_dev(q3), mean_dev(q4));
+    d4 - d3 >= RUNAWAY_ACCELERATION * (d3 - d2)
+}
+
 /// Points of a strided growth fit ([`exponential_growth_strided`]).
 pub const STRIDED_FIT_POINTS: usize = 25;
 
@@ -187,9 +217,10 @@ pub const STRIDED_FIT_POINTS: usize = 25;
 /// on at most [`STRIDED_FIT_POINTS`] rows spaced evenly back from `end` (so a window of
 /// thousands of rows costs as little as one of twenty), with one more condition than
 /// [`exponential_growth`]: the fit over the window's last half must also grow, by at least
-/// `√min_growth` across that half. Exponential growth keeps its rate over the whole window
-/// and passes; a straight ramp, whose logarithm flattens, does not (common practice, no
-/// source). O([`STRIDED_FIT_POINTS`]).
+/// `√min_growth` across that half, and the deviation must rise faster over the last
+/// quarter than over the third ([`RUNAWAY_ACCELERATION`]). Exponential growth keeps its
+/// rate over the whole window and passes; a straight ramp, whose logarithm flattens, or a
+/// ramp that levels off, does not (common practice, no source). O([`STRIDED_FIT_POINTS`]).
 pub fn exponential_growth_strided(
     x: &[f64],
     end: usize,
@@ -233,6 +264,9 @@ pub fn exponential_growth_strided(
     let late = ols(rows.get(half..)?, logs.get(half..)?)?;
     let late_growth = (late.slope * (w / 2) as f64).exp();
     if late_growth < opts.min_growth.sqrt() {
+        return None;
+    }
+    if !accelerates(&logs) {
         return None;
     }
     Some(Growth {

@@ -1,0 +1,178 @@
+//! Rows that carry their own names (JSON objects, `name=value` pairs) and miss a field:
+//! the missing field is *absent* (no value), not a non-finite value. The statistics skip
+//! absent values and only a `nan` written in the log raises the non-finite alert.
+//!
+//! Invented logs: stationary AR(1) columns (Box & Jenkins, textbook) with some fields left
+//! out of some rows, planted with a known mean.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test code
+
+#[path = "support/verdicts_mc.rs"]
+mod mc;
+
+use mc::Rng;
+use plateau::alert::{Alert, AlertKind, RunStatus, Severity, Thresholds};
+use plateau::analysis::{AnalysisOptions, Analyzer, RunAnalysis};
+use plateau::parse::{parse_bytes_guessing, ParseOptions};
+use plateau::table::is_absent;
+
+const ROWS: usize = 4000;
+
+#[derive(Clone, Copy, PartialEq)]
+enum Style {
+    Json,
+    Pairs,
+}
+
+/// A log of `ROWS` rows: step, time, temperature (every row), pressure (every third row),
+/// potential (missing from a random 10 % of rows). `nan_row`: a row whose potential is
+/// written as `nan`.
+fn log(style: Style, seed: u64, nan_row: Option<usize>) -> (String, usize, usize) {
+    let mut rng = Rng::new(seed);
+    let phi = 0.6_f64;
+    let innov = (1.0 - phi * phi).sqrt();
+    let mut x = [rng.normal(), rng.normal(), rng.normal()];
+    let mut out = String::new();
+    let mut pressure_rows = 0;
+    let mut potential_rows = 0;
+    for r in 0..ROWS {
+        let t = 300.0 + 2.0 * x[0];
+        let p = 1.0 + 150.0 * x[1];
+        let u = -41_000.0 + 40.0 * x[2];
+        for v in &mut x {
+            *v = phi * *v + innov * rng.normal();
+        }
+        let with_p = r.is_multiple_of(3);
+        let with_u = rng.uniform() >= 0.1 || nan_row == Some(r);
+        pressure_rows += usize::from(with_p);
+        potential_rows += usize::from(with_u);
+        let u_text = if nan_row == Some(r) {
+            "nan".to_string()
+        } else {
+            format!("{u:.4}")
+        };
+        match style {
+            Style::Json => {
+                let mut fields = vec![
+                    format!("\"step\": {}", r * 100),
+                    format!("\"time\": {:.2}", r as f64 * 0.2),
+                    format!("\"temperature\": {t:.4}"),
+                ];
+                if with_p {
+                    fields.push(format!("\"pressure\": {p:.4}"));
+                }
+                if with_u {
+                    if nan_row == Some(r) {
+                        fields.push("\"potential\": \"nan\"".to_string());
+                    } else {
+                        fields.push(format!("\"potential\": {u_text}"));
+                    }
+                }
+                out.push_str(&format!("{{{}}}\n", fields.join(", ")));
+            }
+            Style::Pairs => {
+                let mut line = format!(
+                    "step={} time={:.2} temperature={t:.4}",
+                    r * 100,
+                    r as f64 * 0.2
+                );
+                if with_p {
+                    line.push_str(&format!(" pressure={p:.4}"));
+                }
+                if with_u {
+                    line.push_str(&format!(" potential={u_text}"));
+                }
+                out.push_str(&line);
+                out.push('\n');
+            }
+        }
+    }
+    (out, pressure_rows, potential_rows)
+}
+
+fn analyse(text: &str) -> (plateau::table::RunTable, RunAnalysis, Vec<Alert>) {
+    // As the commands read a file: the layout from the log's start, then the rows.
+    let (table, _) = parse_bytes_guessing(text.as_bytes(), ParseOptions::default());
+    let mut analyzer = Analyzer::new(AnalysisOptions {
+        thresholds: Thresholds::default(),
+        ..AnalysisOptions::default()
+    });
+    let a = analyzer.update(&table, true, None, false);
+    let alerts = analyzer.engine().alerts_by_row();
+    (table, a, alerts)
+}
+
+fn check_absent_is_not_nonfinite(style: Style) {
+    for seed in 1..=3u64 {
+        let (text, pressure_rows, potential_rows) = log(style, seed, None);
+        let (table, a, alerts) = analyse(&text);
+        let seg = table.segments.last().unwrap();
+        let col = |name: &str| seg.columns.iter().find(|c| c.spec.name == name).unwrap();
+        // The table records absence, apart from non-finite values.
+        let p = col("pressure");
+        assert_eq!(p.absent as usize, ROWS - pressure_rows);
+        assert_eq!(p.non_finite, 0);
+        assert_eq!(
+            p.values().iter().filter(|v| is_absent(**v)).count(),
+            ROWS - pressure_rows
+        );
+        assert_eq!(col("potential").absent as usize, ROWS - potential_rows);
+        // No non-finite alert, nothing critical, the run is not unstable.
+        assert!(
+            !alerts.iter().any(|x| x.kind == AlertKind::Nonfinite),
+            "{alerts:#?}"
+        );
+        assert!(!alerts.iter().any(|x| x.severity == Severity::Critical));
+        assert_ne!(a.status, RunStatus::Unstable, "{}", a.status_reason);
+        // The statistics use the present values: the pressure's production mean is within
+        // 4 standard errors of its planted mean (1 bar), over the present values only.
+        let pa = a.columns.iter().find(|c| c.name == "pressure").unwrap();
+        let prod = pa.production.as_ref().expect("pressure production");
+        assert!(prod.count <= pressure_rows, "{prod:?}");
+        assert!(prod.count * 2 >= pressure_rows, "{prod:?}");
+        let sem = prod.sem_block.or(prod.sem_from_g).unwrap();
+        assert!((prod.mean - 1.0).abs() < 4.0 * sem, "{prod:?}");
+        assert!(prod.mean.is_finite() && prod.std.is_some_and(f64::is_finite));
+        // Rows found on the present values are rows of the segment.
+        assert!(prod.first_row < ROWS);
+    }
+}
+
+#[test]
+fn json_rows_missing_a_field_raise_no_nonfinite_alert() {
+    check_absent_is_not_nonfinite(Style::Json);
+}
+
+#[test]
+fn name_value_rows_missing_a_field_raise_no_nonfinite_alert() {
+    check_absent_is_not_nonfinite(Style::Pairs);
+}
+
+/// A `nan` written in the log is still a non-finite value, raised at its row, among rows
+/// that miss the same field.
+#[test]
+fn a_written_nan_is_still_non_finite() {
+    for style in [Style::Json, Style::Pairs] {
+        let nan_row = 2500;
+        let (text, _, _) = log(style, 7, Some(nan_row));
+        let (table, a, alerts) = analyse(&text);
+        let seg = table.segments.last().unwrap();
+        let u = seg
+            .columns
+            .iter()
+            .find(|c| c.spec.name == "potential")
+            .unwrap();
+        assert_eq!(u.non_finite, 1);
+        let nf: Vec<&Alert> = alerts
+            .iter()
+            .filter(|x| x.kind == AlertKind::Nonfinite)
+            .collect();
+        assert_eq!(nf.len(), 1, "{nf:#?}");
+        assert_eq!(nf[0].row, Some(nan_row as u64));
+        assert_eq!(nf[0].column.as_deref(), Some("potential"));
+        // Cleared by the finite rows after it (a single bad row), so it does not decide
+        // the status; the statistics stop at it.
+        let ua = a.columns.iter().find(|c| c.name == "potential").unwrap();
+        assert!(ua.production.as_ref().is_none_or(|p| p.first_row < nan_row));
+    }
+}
