@@ -66,6 +66,13 @@ impl Hysteresis {
         }
     }
 
+    /// Uses `sustain` from now on, keeping the current runs: a detector whose window is
+    /// sized from the data (the off-target window of a new stage) holds and clears by the
+    /// window in force, not by the one of its first call.
+    pub fn set_sustain(&mut self, sustain: Sustain) {
+        self.sustain = sustain;
+    }
+
     /// Whether the alert is currently raised.
     pub fn is_active(&self) -> bool {
         self.active

@@ -323,12 +323,14 @@ fn state_of<'a>(
     column: &str,
     sustain: Sustain,
 ) -> &'a mut State {
-    states
+    let state = states
         .entry((kind, column.to_string()))
         .or_insert_with(|| State {
             hysteresis: Hysteresis::new(sustain),
             raised: None,
-        })
+        });
+    state.hysteresis.set_sustain(sustain);
+    state
 }
 
 /// The alert engine: per (kind, column) hysteresis states and the list of raised alerts.

@@ -275,12 +275,22 @@ impl Analyzer {
             // (an excursion later in the run must not lengthen the window that is to find
             // it): a robust (MAD) SD, and g as the median over blocks (a step or ramp
             // inside the sample raises the g of one block, not the median).
+            // Along a schedule the noise is the spread around the schedule (a ramp's own
+            // rise is not noise).
             let first_tested = start_row.saturating_sub(self.forgotten_rows(si));
+            let from = first_tested.min(values.len());
             let sample: Vec<f64> = values
-                .get(first_tested.min(values.len())..)
+                .get(from..)
                 .unwrap_or_default()
                 .iter()
-                .copied()
+                .zip(times.get(from..).unwrap_or_default())
+                .map(|(v, t)| {
+                    if target.is_schedule() {
+                        v - target.value_at(*t)
+                    } else {
+                        *v
+                    }
+                })
                 .filter(|v| v.is_finite())
                 .take(OFF_TARGET_SD_ROWS)
                 .collect();
