@@ -163,9 +163,11 @@ impl ExampleLog {
                  calls the run steady."
             ),
             Scenario::Heating => format!(
-                "Heating from 10 K to 300 K over 100 ps at fixed volume, then a hold. With the \
-                 thermostat's schedule given, no off-target alert is raised along the ramp; the \
-                 onset falls near {settled}, just after the ramp ends, and the hold is steady. \
+                "Heating from 10 K to 300 K over 100 ps at fixed volume, then a hold. plateau \
+                 lists two stages: the heating ramp, ending near {settled} where the generator \
+                 ends it, and the hold, judged alone. With the thermostat's schedule given, no \
+                 off-target alert is raised along the ramp and the hold is steady; its onset \
+                 comes some tens of ps after the ramp, while the potential energy still relaxes. \
                  Give a wrong schedule (`--target-temperature 0ps=10K,100ps=350K`) and the \
                  temperature is reported off target."
             ),
