@@ -47,7 +47,11 @@ fn rows_appended_by_another_writer_reach_the_screen_and_q_restores_the_terminal(
     std::fs::write(&path, lines[..header + 300].concat()).unwrap();
 
     let mut s = Session::start(&["watch", "md.log"], dir.path());
-    s.wait_for("300 rows on screen", |sc| rows_shown(sc) == Some(300));
+    // The row count is shown as soon as the rows are read; the chart once they are
+    // analysed (a moment later): wait for both.
+    s.wait_for("300 rows analysed on screen", |sc| {
+        rows_shown(sc) == Some(300) && sc.contents().contains("1/")
+    });
     assert!(s.screen.screen().alternate_screen());
     assert!(!s.cooked(), "raw mode while running");
     let first = s.contents();
@@ -65,9 +69,12 @@ fn rows_appended_by_another_writer_reach_the_screen_and_q_restores_the_terminal(
         }
     });
     writer.join().unwrap();
-    s.wait_for("700 rows on screen", |sc| rows_shown(sc) == Some(700));
-    // The new rows moved the chart's time axis past its first end.
-    assert!(s.contents().contains("onset") || s.contents().contains("not equilibrated"));
+    // The new rows reach the summary, and the chart marks the onset (or says there is
+    // none yet) once they are analysed.
+    s.wait_for("700 rows analysed on screen", |sc| {
+        let text = sc.contents();
+        rows_shown(sc) == Some(700) && (text.contains("onset") || text.contains("not equilibrated"))
+    });
 
     // Help, then quit.
     s.writer.write_all(b"?").unwrap();
