@@ -138,7 +138,14 @@ fn alert_line(alert: &Alert, wall: Option<f64>, active: bool) -> AlertLine {
         row: alert.row,
         time: alert.time,
         wall,
-        message: escape(&alert.message).into_owned(),
+        message: {
+            let episode = alert.episode_words();
+            if episode.is_empty() {
+                escape(&alert.message).into_owned()
+            } else {
+                format!("{} [{episode}]", escape(&alert.message))
+            }
+        },
         active,
         also: 0,
     }

@@ -33,6 +33,7 @@ use std::sync::mpsc::RecvTimeoutError;
 use std::sync::Arc;
 use std::time::Duration;
 
+use crate::alert::Change;
 use crate::analysis::DEFAULT_KEEP_ROWS;
 use crate::cli::CheckArgs;
 use crate::config::Settings;
@@ -48,15 +49,31 @@ use super::{analysis_options, parse_until, Sinks, EXIT_ALERTS, EXIT_HEALTHY};
 /// How often the loop wakes up without data (stall checks, `--pid`).
 const TICK: Duration = Duration::from_millis(500);
 
-/// Prints the alerts a run raised since `emitted` of them were printed.
+/// Prints the alerts a run raised or escalated since `emitted` of its notices were
+/// handled (an escalated alert is printed again, at its new severity; a cleared one is
+/// not printed).
 fn emit_new(
     run: &LiveRun,
     emitted: &mut usize,
     sinks: &mut Sinks,
     out: &mut dyn Write,
 ) -> Result<(), Error> {
-    let new: Vec<_> = run.alerts().get(*emitted..).unwrap_or_default().to_vec();
-    *emitted += new.len();
+    let notices = run.notices();
+    if *emitted > notices.len() {
+        // The run started over (its file was replaced): its alerts are new ones.
+        *emitted = 0;
+    }
+    let mut changed: Vec<usize> = Vec::new();
+    for n in notices.get(*emitted..).unwrap_or_default() {
+        if n.change != Change::Cleared && !changed.contains(&n.alert) {
+            changed.push(n.alert);
+        }
+    }
+    *emitted = notices.len();
+    let new: Vec<_> = changed
+        .into_iter()
+        .filter_map(|i| run.alerts().get(i).cloned())
+        .collect();
     let job = run.spec().job.as_ref().map(|j| j.id.as_str());
     for a in &new {
         sinks.emit(out, &run.spec().label, job, a)?;
