@@ -25,7 +25,8 @@ use serde::{Deserialize, Serialize};
 
 pub use detect::{
     off_target_window_rows, DriftEvidence, FluctuationEvidence, OffTargetInput,
-    OFF_TARGET_MARGIN_OF_TOLERANCE, OFF_TARGET_MAX_ROWS, OFF_TARGET_MIN_NEFF, RUN,
+    OFF_TARGET_CLEAR_WINDOWS, OFF_TARGET_MARGIN_OF_TOLERANCE, OFF_TARGET_MAX_ROWS,
+    OFF_TARGET_MIN_NEFF, OFF_TARGET_SHORT_FRACTION, OFF_TARGET_SHORT_SIGMAS, RUN,
 };
 pub use hysteresis::{Hysteresis, Sustain, Transition};
 pub use status::{RunStatus, StatusInputs};
