@@ -808,10 +808,8 @@ impl AlertEngine {
             sustain,
             rows.start + off..rows.end + off,
             nonfinite,
-            |_, row| {
-                let v = values.get(row - off).copied().unwrap_or(f64::NAN);
-                Some(Measure::new(v, 0.0))
-            },
+            // A non-finite value has no size to compare: the episode keeps its last row.
+            |_, _| None,
             |since, _| {
                 let v = values.get(since - off).copied().unwrap_or(f64::NAN);
                 Alert::new(

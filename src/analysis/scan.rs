@@ -213,7 +213,7 @@ impl Analyzer {
                     flagged.iter().map(|r| r + offset),
                     |since, r| {
                         // A spike's size: how far it is from the row before the episode.
-                        let v = values.get(r - offset).copied()?;
+                        let v = values.get(r - offset).copied().filter(|v| v.is_finite())?;
                         let before = since
                             .checked_sub(offset + 1)
                             .and_then(|i| values.get(i).copied());
@@ -355,8 +355,9 @@ impl Analyzer {
             offset + rows.start..offset + rows.end,
             flagged.iter().map(|p| p.0 + offset),
             |since, r| {
-                // A runaway's size: how far it has gone from where the episode began.
-                let v = values.get(r - offset).copied()?;
+                // A runaway's size: how far it has gone from where the episode began (its
+                // non-finite rows are the non-finite alert's).
+                let v = values.get(r - offset).copied().filter(|v| v.is_finite())?;
                 let start = since
                     .checked_sub(offset)
                     .and_then(|i| values.get(i).copied())
