@@ -206,6 +206,7 @@ fn main() {
          rows). A far excursion ({} robust SDs of the rows just before it, for {} rows) is \
          also a runaway; it does not catch slower growth, whose recent rows rise with it. One \
          episode is one alert, cleared only after {} rows with no row flagged.",
+        plateau::analysis::runaway_windows(20),
         plateau::analysis::runaway_windows(20)
             .iter()
             .map(|w| format!("{:.0}", (*w as f64 - 1.0) / std::f64::consts::LN_10))

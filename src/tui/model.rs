@@ -818,7 +818,7 @@ fn summary(run: &LiveRun, charted: Option<&Quantity>, now: f64) -> Vec<Item> {
                 format!(
                     "{}{} {}/ns",
                     if d.slope_per_ns >= 0.0 { "+" } else { "" },
-                    format::mean_error(d.slope_per_ns, Some(half)).replace(" ± ", "±"),
+                    format::compact_mean_error(d.slope_per_ns, Some(half)),
                     escape(&c.unit)
                 ),
             );
