@@ -217,10 +217,10 @@ impl AlertEngine {
     /// `off_target_sigmas` standard errors of the window mean from the window's own SD and
     /// N_eff = W/g. A short window ([`OFF_TARGET_SHORT_FRACTION`] of it, margin
     /// [`OFF_TARGET_SHORT_SIGMAS`] of its own SEs) catches a large excursion sooner. The
-    /// condition turns on when either window mean is beyond tolerance + its margin and off
-    /// only once the long window mean is back inside the tolerance (hysteresis in value);
-    /// raised after it held for a tenth of the short window (at least one row), cleared
-    /// after it was off for [`OFF_TARGET_CLEAR_WINDOWS`] long windows. Rows without a
+    /// alert is raised when either window mean has been beyond tolerance + its margin for
+    /// a tenth of the short window (at least one row), and cleared once the long window
+    /// mean has been back inside the tolerance for [`OFF_TARGET_CLEAR_WINDOWS`] long
+    /// windows in a row (hysteresis in value and in time). Rows without a
     /// value (absent) are left out of a window; a written non-finite value makes its
     /// windows undecided.
     ///
@@ -294,25 +294,25 @@ impl AlertEngine {
             }
         };
         let off = input.row_offset;
-        let mut on = self.is_active(kind, column);
         self.scan(
             kind,
             column,
             sustain,
             off + start..off + end,
-            |r| {
-                // A Schmitt trigger in value: on when a window mean is beyond tolerance +
-                // its margin, off only once the long window mean is back inside the
-                // tolerance, so a mean that crosses the threshold slowly (a slow ramp, with
-                // noise) is one episode, not many.
-                if deciding(r - off).is_some() {
-                    on = true;
-                } else if let Some((m, t, _)) = long_at(r - off) {
-                    if (m - t).abs() <= tolerance {
-                        on = false;
+            |r, active| {
+                // Hysteresis in value: raised when a window mean is beyond tolerance + its
+                // margin; while raised, it holds as long as the long window mean is beyond
+                // the tolerance itself, so the clearing time counts only rows back inside
+                // the tolerance, and a mean that crosses the threshold slowly (a slow ramp,
+                // with noise) is one episode, not several.
+                if active {
+                    match long_at(r - off) {
+                        Some((m, t, _)) => (m - t).abs() > tolerance,
+                        None => true,
                     }
+                } else {
+                    deciding(r - off).is_some()
                 }
-                on
             },
             |_, r| {
                 let s = long_at(r - off).or_else(|| short_at(r - off));

@@ -576,8 +576,9 @@ impl AlertEngine {
         self.alerts.iter().map(|a| a.severity).max()
     }
 
-    /// Feeds the observations of rows `rows` for one (kind, column). `condition(row)` says
-    /// whether the condition holds at that row; `measure(since, row)` what it measured there
+    /// Feeds the observations of rows `rows` for one (kind, column). `condition(row,
+    /// active)` says whether the condition holds at that row (`active`: whether the alert
+    /// is raised, for a condition with hysteresis in value); `measure(since, row)` what it measured there
     /// (called only while an episode lasts, `since` its first row); `make(since, row)` builds the alert when it is
     /// raised (`since` = first row of the sustained episode, `row` = the row at which the
     /// window was complete). Returns how many alerts were raised.
@@ -594,14 +595,14 @@ impl AlertEngine {
         locator: &dyn RowLocator,
     ) -> usize
     where
-        C: FnMut(usize) -> bool,
+        C: FnMut(usize, bool) -> bool,
         V: FnMut(usize, usize) -> Option<Measure>,
         M: FnMut(usize, usize) -> Alert,
     {
         let state = state_of(&mut self.states, kind, column, sustain);
         let mut raised = 0;
         for row in rows {
-            let holds = condition(row);
+            let holds = condition(row, state.hysteresis.is_active());
             match state.hysteresis.observe(row as u64, holds) {
                 Transition::Raised { since } => {
                     let since = usize::try_from(since).unwrap_or(row);
@@ -1021,7 +1022,7 @@ mod tests {
             "x",
             Sustain::immediate(3),
             0..14,
-            |r| (5..10).contains(&r),
+            |r, _| (5..10).contains(&r),
             measure,
             make,
             &loc,
