@@ -222,13 +222,13 @@ impl Live {
     ) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
-        self.runs.push(LiveRun::new(
-            id,
-            spec,
-            parse,
-            analysis,
-            self.options.keep_rows,
-        ));
+        // Without a file to look at first, the layout is guessed from the first lines.
+        let guess_from_lines = spec.source.path().is_none();
+        let mut run = LiveRun::new(id, spec, parse, analysis, self.options.keep_rows);
+        if guess_from_lines {
+            run.guess_layout_from_first_lines(self.options.guess_row_tag);
+        }
+        self.runs.push(run);
         id
     }
 
