@@ -456,11 +456,14 @@ fn job_feed_turns_jobs_into_tagged_runs_and_finishes_them() {
             .find(|r| r.spec().job.as_ref().is_some_and(|j| j.id == job))
             .map(|r| (r.rows_seen(), r.ended()))
     };
+    // As the following loops do every tick: events, then analysis (which also reads the
+    // first lines of an output whose layout is guessed from them).
     let pump = |live: &mut Live, notes: &mut Vec<JobNote>, feed: &mut JobFeed| {
         notes.extend(feed.apply(live));
         while let Ok((source, event)) = rx.recv_timeout(Duration::from_millis(20)) {
             live.apply(source, event, live::now_seconds());
         }
+        live.analyse();
     };
     let deadline = Instant::now() + PATIENCE;
     while rows_of(&live, "31").map(|r| r.0) != Some(2)

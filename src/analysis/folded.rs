@@ -44,10 +44,10 @@ use crate::table::{RunTable, Segment};
 use super::results::DriftPer;
 use super::{
     blockwise_inefficiency, drift_summary, empty_analysis, first_nonfinite, judge_trends,
-    observable, runaway_flags, runaway_lookback, runaway_options, runaway_windows, time_values,
-    trend_of_means, AnalysisOptions, Analyzer, ColumnAnalysis, ColumnFlags, EnsembleChoice,
-    ProductionStats, Progress, RunAnalysis, TableLocator, TrendSummary, RUNAWAY_BASELINE_ROWS,
-    RUNAWAY_BASELINE_STEP, RUNAWAY_SCALES, SPIKE_CONTEXT_ROWS,
+    observable, runaway_flags, runaway_options, runaway_windows, time_values, trend_of_means,
+    AnalysisOptions, Analyzer, ColumnAnalysis, ColumnFlags, EnsembleChoice, ProductionStats,
+    Progress, RunAnalysis, TableLocator, TrendSummary, RUNAWAY_BASELINE_ROWS,
+    RUNAWAY_BASELINE_STEP, SPIKE_CONTEXT_ROWS,
 };
 
 /// Folded blocks kept per column: at most `keep_rows / BLOCKS_DIVISOR`.
@@ -162,11 +162,30 @@ impl FoldState {
     }
 }
 
-/// Rows the per-row detectors need behind the newest row, whatever their cursors say.
-fn detector_margin(opts: &AnalysisOptions) -> usize {
+/// The longest runaway growth window whose look-back fits in `room` rows (the shortest
+/// when none does): with a small `--keep-rows`, the slowest-growth window (2,500 rows) is
+/// not used on folded rows, whose look-back the cap cannot hold.
+fn runaway_window_within(opts: &AnalysisOptions, room: usize) -> usize {
+    let windows = runaway_windows(opts.thresholds.runaway_window);
+    windows
+        .iter()
+        .copied()
+        .filter(|w| w + RUNAWAY_BASELINE_ROWS + RUNAWAY_BASELINE_STEP <= room)
+        .max()
+        .unwrap_or(windows[0])
+}
+
+/// Rows the per-row detectors need behind the newest row, whatever their cursors say,
+/// with the runaway look-back of window `w`.
+fn detector_margin(opts: &AnalysisOptions, w: usize) -> usize {
     let t = &opts.thresholds;
     let k = t.spike_window.max(1);
-    2 * k + SPIKE_CONTEXT_ROWS + runaway_lookback(t.runaway_window) + t.off_target_window.max(2)
+    2 * k
+        + SPIKE_CONTEXT_ROWS
+        + w
+        + RUNAWAY_BASELINE_ROWS
+        + RUNAWAY_BASELINE_STEP
+        + t.off_target_window.max(2)
 }
 
 /// First row of `seg` (kept rows) where the statistics stop: the first non-finite value or
@@ -364,12 +383,13 @@ impl Analyzer {
         }
         let t = &self.opts.thresholds;
         let k = t.spike_window.max(1);
-        let w = runaway_windows(t.runaway_window)[RUNAWAY_SCALES - 1];
+        // The longest runaway window that half the cap can hold behind the newest rows.
+        let w = runaway_window_within(&self.opts, keep_rows / 2);
         let scanned = self.scanned.get(last).copied().unwrap_or(0).min(rows);
         let spiked = self.spike_scanned.get(last).copied().unwrap_or(0).min(rows);
         let limits = [
             rows - keep_rows / 2,
-            rows.saturating_sub(detector_margin(&self.opts)),
+            rows.saturating_sub(detector_margin(&self.opts, w)),
             spiked.saturating_sub(k.max(SPIKE_CONTEXT_ROWS) + k),
             ((scanned + 1).saturating_sub(w) / RUNAWAY_BASELINE_STEP * RUNAWAY_BASELINE_STEP)
                 .saturating_sub(RUNAWAY_BASELINE_ROWS),

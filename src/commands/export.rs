@@ -99,6 +99,9 @@ pub fn run(args: &ExportArgs, out: &mut dyn Write) -> Result<u8, Error> {
             let Some(run) = live.run_mut(id) else {
                 break;
             };
+            if run.settle_layout_if_due(live::now_seconds()) {
+                exporter.write_new(run, &mut out)?;
+            }
             if !exporter.handle(run, happened, &mut out)? {
                 break;
             }
@@ -186,6 +189,8 @@ impl Exporter {
                 self.new_generation(run);
             }
             Happened::Ended { dropped } => {
+                // Rows held back for the layout guess are read at the end of the input.
+                self.write_new(run, out)?;
                 self.note_dropped(dropped);
                 return Ok(false);
             }

@@ -410,6 +410,20 @@ impl LiveRun {
         }
     }
 
+    /// Lines held back for the layout guess wait at most a couple of seconds: guesses the
+    /// layout now if they have waited that long at wall-clock second `now`. Returns whether
+    /// rows may have arrived.
+    pub fn settle_layout_if_due(&mut self, now: f64) -> bool {
+        let due = self
+            .pending_layout
+            .as_ref()
+            .is_some_and(|p| !p.bytes.is_empty() && now - p.since >= PENDING_LAYOUT_SECONDS);
+        if due {
+            self.settle_layout(now);
+        }
+        due
+    }
+
     /// Guesses the layout from the lines held back and feeds them.
     fn settle_layout(&mut self, arrival: f64) {
         let Some(pending) = self.pending_layout.take() else {
@@ -496,13 +510,7 @@ impl LiveRun {
     /// Brings the analysis up to date if rows arrived since the last one, then folds the
     /// oldest rows past the memory cap. Returns whether an analysis ran.
     pub fn analyse(&mut self) -> bool {
-        // Lines held back for the layout guess wait at most a couple of seconds.
-        if let Some(p) = &self.pending_layout {
-            let now = super::now_seconds();
-            if !p.bytes.is_empty() && now - p.since >= PENDING_LAYOUT_SECONDS {
-                self.settle_layout(now);
-            }
-        }
+        self.settle_layout_if_due(super::now_seconds());
         if !self.dirty {
             return false;
         }
