@@ -10,6 +10,7 @@ use crate::follow::{
     Clock, FollowError, FollowEvent, FollowOptions, FollowReceiver, FollowSet, Source, SourceId,
 };
 use crate::parse::ParseOptions;
+use crate::stages::StageOptions;
 
 use super::run::{Happened, LiveRun};
 use super::{sniff_layout, RunId, RunSource, RunSpec};
@@ -72,6 +73,8 @@ pub struct Live {
     paths: HashSet<PathBuf>,
     stdin_taken: bool,
     patterns: Vec<Pattern>,
+    /// How stages are judged (minimization tolerances), for every run.
+    stage_options: StageOptions,
 }
 
 impl std::fmt::Debug for Live {
@@ -107,6 +110,7 @@ impl Live {
                 paths: HashSet::new(),
                 stdin_taken: false,
                 patterns: Vec::new(),
+                stage_options: StageOptions::default(),
             },
             rx,
         ))
@@ -115,6 +119,15 @@ impl Live {
     /// The options in use.
     pub fn options(&self) -> &LiveOptions {
         &self.options
+    }
+
+    /// Judges the stages of every run, now and later, with `options` (minimization
+    /// tolerances; the defaults otherwise).
+    pub fn set_stage_options(&mut self, options: StageOptions) {
+        self.stage_options = options;
+        for run in &mut self.runs {
+            run.set_stage_options(options);
+        }
     }
 
     /// Every run, in the order added (a [`RunId`] indexes this slice).
@@ -222,13 +235,9 @@ impl Live {
     ) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
-        self.runs.push(LiveRun::new(
-            id,
-            spec,
-            parse,
-            analysis,
-            self.options.keep_rows,
-        ));
+        let mut run = LiveRun::new(id, spec, parse, analysis, self.options.keep_rows);
+        run.set_stage_options(self.stage_options);
+        self.runs.push(run);
         id
     }
 

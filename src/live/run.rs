@@ -17,7 +17,9 @@ use crate::table::RunTable;
 
 use super::history::SeriesView;
 use super::memory::{bound_memory_with_history, folding_note};
+use super::stages::{ChainFiles, LiveStages, StageHook};
 use super::{History, RunId, RunSpec};
+use crate::stages::StageOptions;
 
 /// Recent notable follower events kept per run (truncation, rotation, errors...).
 const NOTICES_KEPT: usize = 20;
@@ -139,6 +141,8 @@ pub struct LiveRun {
     alert_times: Vec<f64>,
     /// Bumped on every change a viewer may want to redraw for.
     version: u64,
+    /// The stage list, judged as the rows come (analysed runs only).
+    stage_hook: Option<StageHook>,
 }
 
 fn describe_dropped(dropped: Option<Partial>) -> String {
@@ -174,6 +178,9 @@ impl LiveRun {
         analysis: Option<AnalysisOptions>,
         keep_rows: usize,
     ) -> LiveRun {
+        let stage_hook = analysis
+            .is_some()
+            .then(|| StageHook::new(StageOptions::default()));
         LiveRun {
             id,
             spec,
@@ -193,6 +200,36 @@ impl LiveRun {
             ended: false,
             alert_times: Vec::new(),
             version: 0,
+            stage_hook,
+        }
+    }
+
+    /// Judges the stages with `options` (minimization tolerances) instead of the defaults.
+    pub fn set_stage_options(&mut self, options: StageOptions) {
+        if self.stage_hook.is_some() {
+            self.stage_hook = Some(StageHook::new(options));
+        }
+    }
+
+    /// The stage list as last judged (none before the first rows were analysed, and for
+    /// runs that are only parsed).
+    pub fn stages(&self) -> Option<&LiveStages> {
+        self.stage_hook.as_ref()?.latest()
+    }
+
+    /// Judges the stages when due (see [`super::stages`]).
+    fn judge_stages(&mut self) {
+        let (Some(hook), Some(opts)) = (&mut self.stage_hook, &self.analysis_options) else {
+            return;
+        };
+        let folded = self
+            .analysing
+            .as_ref()
+            .map_or(0, |a| a.analyzer.rows_forgotten());
+        let table = self.parser.table();
+        if hook.due(table.rows() as u64 + folded, self.ended) {
+            let chain: Option<&ChainFiles> = None;
+            hook.judge(table, chain, opts, folded, self.ended);
         }
     }
 
@@ -398,6 +435,9 @@ impl LiveRun {
             a.analyzer = Analyzer::new(opts.clone());
             a.latest = None;
         }
+        if let Some(h) = &mut self.stage_hook {
+            *h = StageHook::new(h.options());
+        }
         self.version += 1;
     }
 
@@ -428,6 +468,10 @@ impl LiveRun {
         );
         a.latest = Some(analysis);
         time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.judge_stages();
+        let Some(a) = &mut self.analysing else {
+            return false;
+        };
         bound_memory_with_history(
             &mut self.parser,
             &mut a.analyzer,
@@ -450,8 +494,9 @@ impl LiveRun {
             .update(self.parser.table(), true, Some(&self.arrivals), true);
         a.latest = Some(analysis);
         time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.judge_stages();
         self.version += 1;
-        a.latest.as_ref()
+        self.analysis()
     }
 
     /// Judges stalled output at wall-clock second `now` (not once the input is over).
