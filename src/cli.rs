@@ -155,7 +155,10 @@ pub struct ReportArgs {
 #[derive(Debug, Clone, Default, Args)]
 pub struct StageArgs {
     /// Read the files as consecutive stages of one system, in the order given (time may
-    /// continue from file to file or restart in each).
+    /// continue from file to file or restart in each). Following (`check --follow`,
+    /// `watch`), the earlier files are read as they are, the last existing one is
+    /// followed, and a later one that does not exist yet is waited for: following moves on
+    /// to it once it appears.
     #[arg(long)]
     pub chain: bool,
     /// A minimization has converged once its force column stays at or below this value, in
@@ -347,6 +350,9 @@ pub struct WatchArgs {
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// Check the files by polling instead of file events (network filesystems: NFS,
     /// Lustre, GPFS).
     #[arg(long)]

@@ -50,6 +50,9 @@ pub enum LiveError {
     /// A run whose source must be handed over with `Live::add_source`.
     #[error("{0}: this source is handed over ready-made (Live::add_source)")]
     NeedsSource(String),
+    /// `--chain` with no file.
+    #[error("--chain needs at least one log file")]
+    EmptyChain,
     /// A glob pattern that does not parse.
     #[error("'{pattern}' is not a valid file pattern: {message}")]
     Pattern { pattern: String, message: String },
@@ -75,6 +78,8 @@ pub struct Live {
     patterns: Vec<Pattern>,
     /// How stages are judged (minimization tolerances), for every run.
     stage_options: StageOptions,
+    /// Sources that are a file of a chain: their place in it.
+    chain_files: HashMap<SourceId, usize>,
 }
 
 impl std::fmt::Debug for Live {
@@ -111,6 +116,7 @@ impl Live {
                 stdin_taken: false,
                 patterns: Vec::new(),
                 stage_options: StageOptions::default(),
+                chain_files: HashMap::new(),
             },
             rx,
         ))
@@ -241,6 +247,60 @@ impl Live {
         id
     }
 
+    /// Follows `files` as one run: consecutive stages of one system, in the order given
+    /// (`--chain`; see [`super::chain`]). The run is named after the first file; files
+    /// that do not exist yet are waited for.
+    pub fn add_chain(&mut self, files: &[PathBuf]) -> Result<RunId, LiveError> {
+        let Some(first) = files.first() else {
+            return Err(LiveError::EmptyChain);
+        };
+        let mut parse = self.options.parse.clone();
+        if let Some(path) = files.iter().find(|p| p.is_file()) {
+            if let Some(mut guess) = sniff_layout(path, &parse) {
+                if !self.options.guess_row_tag {
+                    guess.row_tag = None;
+                }
+                guess.apply(&mut parse);
+            }
+        }
+        let mut spec = RunSpec::new(RunSource::Other(format!(
+            "a chain of {} files",
+            files.len()
+        )));
+        spec.label = match files.len() {
+            1 => first.display().to_string(),
+            n => format!("{} (chain of {n})", first.display()),
+        };
+        let mut ids = Vec::with_capacity(files.len());
+        for p in files {
+            let id = self
+                .set
+                .add_path(p.clone())
+                .map_err(|source| LiveError::Add {
+                    label: p.display().to_string(),
+                    source,
+                })?;
+            self.paths.insert(p.clone());
+            ids.push(id);
+        }
+        let analysis = self.options.analysis.clone();
+        let Some((&head, rest)) = ids.split_first() else {
+            return Err(LiveError::NeedsSource(spec.label));
+        };
+        let run = self.push_run(spec, parse, head, analysis);
+        for (i, id) in std::iter::once(head)
+            .chain(rest.iter().copied())
+            .enumerate()
+        {
+            self.sources.insert(id, run);
+            self.chain_files.insert(id, i);
+        }
+        if let Some(r) = self.runs.get_mut(run.0) {
+            r.set_chain(files.to_vec());
+        }
+        Ok(run)
+    }
+
     /// Follows what a command-line argument names: `-` (standard input), a glob pattern
     /// (the files matching now, and later ones through [`Live::discover`]) or a file
     /// (which may not exist yet).
@@ -294,7 +354,10 @@ impl Live {
     ) -> Option<(RunId, Happened)> {
         let id = *self.sources.get(&source)?;
         let run = self.runs.get_mut(id.0)?;
-        Some((id, run.apply(event, now)))
+        match self.chain_files.get(&source) {
+            Some(&i) => Some((id, run.apply_chain(i, event, now))),
+            None => Some((id, run.apply(event, now))),
+        }
     }
 
     /// Analyses every run that has new rows. Returns those runs.

@@ -13,6 +13,8 @@
 //! - [`History`] (`history.rs`): min/max/mean buckets of forgotten rows, for charts.
 //! - [`LiveStages`] (`stages.rs`): the run's stage list, judged as `report` judges a
 //!   finished file, again after every tenth more rows and once at the end.
+//! - [`ChainFollow`] (`chain.rs`): a chain of files (`--chain`) followed as one run, one
+//!   file live at a time, the next one waited for; time continued as `report --chain` does.
 //! - `end.rs`: when following can end (`--until` reached, `--pid` exited).
 //!
 //! Driving it (no thread of its own: the caller decides where it runs):
@@ -27,6 +29,7 @@
 //! }
 //! ```
 
+mod chain;
 mod end;
 mod engine;
 mod history;
@@ -38,6 +41,7 @@ mod stages;
 use std::path::Path;
 use std::time::{SystemTime, UNIX_EPOCH};
 
+pub use chain::{ChainFollow, QUIET_SECONDS};
 pub use end::{process_alive, reached};
 pub use engine::{is_pattern, Live, LiveError, LiveOptions, Pattern};
 pub use history::{Bucket, Envelope, History, SeriesView, HISTORY_BUCKETS};

@@ -6,9 +6,11 @@
 //! ([`crate::analysis::Analyzer`]), and always once the run is over: the work stays a small
 //! multiple of reading the rows once. Once older rows are folded away for memory, the plan
 //! is made on the rows kept, and [`LiveStages::rows_folded`] says how many came before them.
+//! While the plan finds one stage only (most runs), nothing more is done until the run is
+//! over: the plan is cheap, the judgement analyses the whole table once more.
 
 use crate::analysis::AnalysisOptions;
-use crate::stages::{self, chain::Chain, StageOptions, StageRecord};
+use crate::stages::{self, chain::Chain, StageKind, StageOptions, StageRecord};
 use crate::table::RunTable;
 
 /// New rows, at least, before the stages are judged again.
@@ -17,7 +19,8 @@ pub const MIN_NEW_ROWS: u64 = 50;
 /// The stage list of a followed run, as last judged.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LiveStages {
-    /// The stages, in order; the last is the one being written.
+    /// The stages, in order; the last is the one being written. Empty while a run that
+    /// is still written holds one plain stage only (it is judged once over).
     pub stages: Vec<StageRecord>,
     /// Rows seen through the run when judged.
     pub rows_seen: u64,
@@ -33,9 +36,14 @@ impl LiveStages {
         self.stages.last()
     }
 
-    /// Whether the run is cut into more than one stage.
+    /// Whether there are stages to tell: more than one, or a minimization or a heating
+    /// (the start of a preparation).
     pub fn staged(&self) -> bool {
         self.stages.len() > 1
+            || self
+                .stages
+                .first()
+                .is_some_and(|s| matches!(s.kind, StageKind::Minimization | StageKind::Heating))
     }
 
     /// Says that the plan covers only the rows kept, when older rows were folded away.
@@ -103,6 +111,25 @@ impl StageHook {
         ended: bool,
     ) {
         let rows_seen = table.rows() as u64 + rows_folded;
+        let file_starts: Vec<usize> = chain
+            .map(|c| c.first_segment.iter().skip(1).copied().collect())
+            .unwrap_or_default();
+        let pieces = stages::plan(table, &file_starts, &self.options);
+        let plain = pieces.len() < 2
+            && pieces
+                .iter()
+                .all(|p| p.minimization.is_none() && p.ramp.is_none());
+        if !ended && plain {
+            // One plain stage so far: nothing to list while the run goes on (most runs);
+            // the plan alone is cheap, the judgement analyses the whole table again.
+            self.latest = Some(LiveStages {
+                stages: Vec::new(),
+                rows_seen,
+                rows_folded,
+                final_judgement: false,
+            });
+            return;
+        }
         let judged = match chain {
             Some(files) if files.names.len() > 1 => {
                 let c = Chain {

@@ -41,8 +41,8 @@ impl DetailAreas {
         DetailAreas::compute_with_stages(area, others, alerts, 0, chart_only)
     }
 
-    /// [`DetailAreas::compute`] with a list of `stages` stages (none below two: a run of
-    /// one stage has no list); it gets a heading and up to [`STAGE_LINES`] lines while the
+    /// [`DetailAreas::compute`] with a list of `stages` stages (a run with no stages to
+    /// tell gives 0); it gets a heading and up to [`STAGE_LINES`] lines while the
     /// chart and the quantities keep at least 8 rows.
     pub fn compute_with_stages(
         area: Rect,
@@ -71,7 +71,7 @@ impl DetailAreas {
         }
         let wanted_alerts = (alerts as u16).saturating_add(1).max(2);
         let alerts_h = (body_h / 4).clamp(3, 10).min(wanted_alerts).min(body_h);
-        let stages_h = if stages > 1 {
+        let stages_h = if stages > 0 {
             (stages.min(usize::from(STAGE_LINES)) as u16 + 1)
                 .min(body_h.saturating_sub(alerts_h + 8))
         } else {
