@@ -972,11 +972,16 @@ fn summary(run: &LiveRun, charted: Option<&Quantity>, now: f64) -> Vec<Item> {
             .and_then(|p| p.file_name())
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default();
-        let mut value = format!("{} of {}: {}", c.live() + 1, c.files().len(), escape(&name));
+        items.push(item(
+            "file",
+            format!("{}/{} {}", c.live() + 1, c.files().len(), escape(&name)),
+        ));
         if let Some(next) = c.awaited().and_then(|p| p.file_name()) {
-            value.push_str(&format!("; {} not yet", escape(&next.to_string_lossy())));
+            items.push(item(
+                "next",
+                format!("{} (awaited)", escape(&next.to_string_lossy())),
+            ));
         }
-        items.push(item("file", value));
     }
     items.push(item("follow", mode_text(run)));
     let age = run.last_row_arrival().map(|t| (now - t).max(0.0));
