@@ -130,19 +130,19 @@ impl StageHook {
             });
             return;
         }
-        let judged = match chain {
+        let list = match chain {
             Some(files) if files.names.len() > 1 => {
                 let c = Chain {
                     table: RunTable::default(),
                     file_first_segment: files.first_segment.clone(),
                     time_shift_ps: Vec::new(),
                 };
-                stages::judge(table, Some((&files.names, &c)), opts, &self.options)
+                stages::stage_list(table, Some((&files.names, &c)), opts, &self.options)
             }
-            _ => stages::judge(table, None, opts, &self.options),
+            _ => stages::stage_list(table, None, opts, &self.options),
         };
         self.latest = Some(LiveStages {
-            stages: judged.stages,
+            stages: list,
             rows_seen,
             rows_folded,
             final_judgement: ended,

@@ -235,10 +235,13 @@ mod tests {
         assert_eq!(d.stages.y + d.stages.height, d.alerts.y);
         assert_eq!(d.stages.width, 80);
         assert!(d.chart.height + d.sparks.height >= 8, "{d:?}");
+        // A single stage to tell (a minimization) gets a heading and its line.
         let one = DetailAreas::compute_with_stages(Rect::new(0, 0, 80, 24), 7, 0, 1, false);
-        assert_eq!(one.stages.height, 0);
+        assert_eq!(one.stages.height, 2);
+        let none = DetailAreas::compute_with_stages(Rect::new(0, 0, 80, 24), 7, 0, 0, false);
+        assert_eq!(none.stages.height, 0);
         assert_eq!(
-            one,
+            none,
             DetailAreas::compute(Rect::new(0, 0, 80, 24), 7, 0, false)
         );
     }
