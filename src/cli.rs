@@ -162,7 +162,9 @@ pub struct StageArgs {
     #[arg(long)]
     pub chain: bool,
     /// A minimization has converged once its force column stays at or below this value, in
-    /// the log's own force unit (default 1000).
+    /// kJ/mol/nm (default 1000), converted to the column's unit when its header states an
+    /// energy per length (kcal/mol/Å, eV/Å...); a column with no stated unit is compared
+    /// with the number as it is.
     #[arg(long, value_name = "FORCE")]
     pub min_force_tolerance: Option<f64>,
     /// Without a force column, a minimization has converged once its energy changes by at
