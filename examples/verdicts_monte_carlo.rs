@@ -201,14 +201,27 @@ fn main() {
         md,
         "- Runaway: growth is judged over windows of {:?} rows, each against the median and \
          robust SD of the rows before it; a window catches growth that is tenfold across it \
-         and still accelerating, e-folding times up to about 8, 43 and 217 rows. Slower growth \
-         is caught by the far rule once it has stayed {} robust SDs away for {} rows, about \
-         ln {} ≈ 3.9 e-folding times after it left the noise, whatever its rate: there is no \
-         smallest rate caught, only a delay that grows with the e-folding time.",
+         and still accelerating: e-folding times up to about {} rows (window − 1)/ln 10. That \
+         is the slowest growth caught: {} rows per e-folding time (a tenfold rise every {} \
+         rows). A far excursion ({} robust SDs of the rows just before it, for {} rows) is \
+         also a runaway; it does not catch slower growth, whose recent rows rise with it. One \
+         episode is one alert, cleared only after {} rows with no row flagged.",
         plateau::analysis::runaway_windows(20),
+        plateau::analysis::runaway_windows(20)
+            .iter()
+            .map(|w| format!("{:.0}", (*w as f64 - 1.0) / std::f64::consts::LN_10))
+            .collect::<Vec<_>>()
+            .join(", "),
+        format!(
+            "{:.0}",
+            (plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1] as f64
+                - 1.0)
+                / std::f64::consts::LN_10
+        ),
+        plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1] - 1,
         plateau::analysis::RUNAWAY_FAR_SIGMAS,
         plateau::analysis::RUNAWAY_FAR_ROWS,
-        plateau::analysis::RUNAWAY_FAR_SIGMAS
+        plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1],
     )
     .unwrap();
     writeln!(
@@ -218,11 +231,17 @@ fn main() {
          the window's own SD and N_eff) is at most {} of the tolerance. After a step of the \
          mean to twice the tolerance beyond the target (10 % of 100 K with the 5 K default), \
          the window mean passes tolerance + margin once about three quarters of the window \
-         are past the step, and the alert is raised a tenth of a window later: a delay of \
-         about 0.85 W rows (`tests/verdicts_regressions.rs` checks ≤ 1.5 W on the 100 K case).",
+         are past the step: a delay of about 0.8 W rows (`tests/verdicts_regressions.rs` \
+         checks ≤ 1.5 W on the 100 K case). A short window of W/{} rows with a margin of {} \
+         of its own standard errors sees a large excursion sooner (six tolerances: within \
+         W/4, checked on a noisy pressure). The alert is raised after a tenth of the short \
+         window and cleared after {} windows back inside the tolerance.",
         plateau::alert::OFF_TARGET_MIN_NEFF,
         plateau::alert::Thresholds::default().off_target_sigmas,
-        plateau::alert::OFF_TARGET_MARGIN_OF_TOLERANCE
+        plateau::alert::OFF_TARGET_MARGIN_OF_TOLERANCE,
+        plateau::alert::OFF_TARGET_SHORT_FRACTION,
+        plateau::alert::OFF_TARGET_SHORT_SIGMAS,
+        plateau::alert::OFF_TARGET_CLEAR_WINDOWS
     )
     .unwrap();
     std::fs::write(&out, md).unwrap();

@@ -104,6 +104,46 @@ fn pid_exit_ends_the_watch() {
     assert!(String::from_utf8_lossy(&out.stderr).contains("finished"));
 }
 
+/// Found by trying it: a writer that appends its last rows and exits at once left them
+/// unread (the watch ended at the next tick after the exit, before the follower had read
+/// them). Every row the writer wrote is counted.
+#[test]
+fn rows_written_just_before_the_writer_exits_are_all_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let source = dir.path().join("source.log");
+    let live = dir.path().join("live.log");
+    let rows = 300_000usize;
+    let mut text = String::from("step time(ps) temperature(K)\n");
+    for i in 0..rows {
+        text.push_str(&format!(
+            "{} {:.2} {:.3}\n",
+            i * 10,
+            i as f64 * 0.02,
+            300.0 + (i % 7) as f64 * 0.5
+        ));
+    }
+    std::fs::write(&source, text).unwrap();
+    std::fs::write(&live, "").unwrap();
+    // The writer: waits a second, appends everything in one go and exits.
+    let script = format!(
+        "sleep 1; cat '{}' >> '{}'",
+        source.display(),
+        live.display()
+    );
+    let mut child = Std::new("sh").args(["-c", &script]).spawn().unwrap();
+    let out = Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
+        .arg(child.id().to_string())
+        .arg(&live)
+        .timeout(Duration::from_secs(300))
+        .output()
+        .unwrap();
+    child.wait().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains(&format!("({rows} rows")), "{stderr}");
+}
+
 #[test]
 fn rows_appended_later_raise_alerts_while_following() {
     let dir = tempfile::tempdir().unwrap();

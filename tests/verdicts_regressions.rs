@@ -6,6 +6,8 @@
 //! - a stationary pressure (AR(1) noise, 20,000 rows) was called still changing;
 //! - a temperature leaving its 100 K target was flagged late (the margin of a short window
 //!   was wider than the tolerance);
+//! - a large pressure excursion of a noisy barostat was raised only after most of a long
+//!   window (the window that resolves half the tolerance is long when the noise is large);
 //! - a run with an uncleared critical non-finite alert was reported steady;
 //! - one blow-up raised many runaway alerts; a single 40-SD spike was called a runaway;
 //! - step and time counters under names that say nothing were analysed as quantities.
@@ -83,12 +85,13 @@ fn of_kind<'a>(alerts: &'a [Alert], kind: AlertKind, column: &str) -> Vec<&'a Al
 }
 
 /// An energy-like column named `c4` grows exponentially from −4100 to beyond 2·10¹⁰ with
-/// e-folding times of 60 and 300 rows (slow growth was never flagged before): one
-/// runaway alert, after the growth starts and long before the values reach 2·10¹⁰; the
-/// run is unstable.
+/// e-folding times of 60, 300 and 1000 rows (slow growth was never flagged before; growth
+/// with an e-folding time beyond about 220 rows was missed until the 2,500-row growth
+/// window): one runaway alert, after the growth starts and long before the values reach
+/// 2·10¹⁰; the run is unstable.
 #[test]
 fn exponential_growth_under_a_name_that_says_nothing_is_one_runaway() {
-    for (seed, tau) in [(11u64, 60.0f64), (12, 300.0)] {
+    for (seed, tau) in [(11u64, 60.0f64), (12, 300.0), (13, 1000.0)] {
         let mut rng = Rng::new(seed);
         let start = 3000usize;
         let grow_rows = (1e9f64.ln() * tau).ceil() as usize + 50;
@@ -255,6 +258,54 @@ fn temperature_leaving_its_100k_target_is_raised_in_time() {
             "seed {seed}: raised {} rows after the step, window {w} rows",
             raised - before
         );
+    }
+}
+
+/// A noisy pressure (SD 150 bar, φ = 0.5, g = 3) at its 1 bar target jumps by 300 bar (six
+/// tolerances) at row 8000 and stays there. The long window that resolves half the 50 bar
+/// tolerance is about 970 rows; the short window (an eighth of it, margin 4 SE) must see the
+/// jump within a quarter of the long window (before: about 290 rows, a third of it). One
+/// alert for the episode, with its peak at least the jump's size within the noise of a
+/// window mean, and no alert before the jump.
+#[test]
+fn a_large_pressure_excursion_is_raised_by_the_short_window() {
+    for seed in [71u64, 72, 73] {
+        let mut rng = Rng::new(seed);
+        let (before, n) = (8000usize, 12000usize);
+        let (step, time) = counters(n, 0.01);
+        let noise = ar1(&mut rng, n, 0.5);
+        let p: Vec<f64> = (0..n)
+            .map(|r| if r < before { 1.0 } else { 301.0 } + 150.0 * noise[r])
+            .collect();
+        let text = log("step time(ps) pressure(bar)", &[step, time, p]);
+        let th = Thresholds::default();
+        let opts = AnalysisOptions {
+            thresholds: th.clone(),
+            target_pressure: Some(Target::constant(1.0)),
+            ..AnalysisOptions::default()
+        };
+        let (_, alerts) = analyse(&text, opts);
+        let off = of_kind(&alerts, AlertKind::PressureOffTarget, "pressure");
+        assert_eq!(off.len(), 1, "seed {seed}: {off:#?}");
+        let raised = off[0].raised_row.unwrap() as usize;
+        let w = off_target_window_rows(
+            th.off_target_window,
+            3.0,
+            Some(150.0),
+            th.pressure_tolerance,
+            th.off_target_sigmas,
+        );
+        assert!(raised >= before, "seed {seed}: raised at {raised}");
+        assert!(
+            (raised - before) * 4 <= w,
+            "seed {seed}: raised {} rows after the jump; long window {w} rows",
+            raised - before
+        );
+        // Still on at the last row, its peak near the jump (a window mean of the noise).
+        assert_eq!(off[0].cleared_row, None, "seed {seed}");
+        let peak = off[0].peak.unwrap();
+        assert!(peak > 250.0 && peak < 420.0, "seed {seed}: peak {peak}");
+        assert_eq!(off[0].last_row, Some((n - 1) as u64), "seed {seed}");
     }
 }
 

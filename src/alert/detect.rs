@@ -4,8 +4,8 @@
 use std::ops::Range;
 
 use super::{
-    format_duration_ps, format_number, Alert, AlertEngine, AlertKind, RowLocator, Severity,
-    Sustain, Target,
+    format_duration_ps, format_number, Alert, AlertEngine, AlertKind, Measure, Observed,
+    RowLocator, Severity, Sustain, Target,
 };
 
 /// One column's data for the off-target test.
@@ -44,6 +44,8 @@ pub struct DriftEvidence<'a> {
     pub kt_per_ns_per_dof: Option<f64>,
     /// First row of the fit (the onset).
     pub from_row: usize,
+    /// Last row of the fit (the newest row analysed).
+    pub to_row: usize,
 }
 
 /// Evidence of the fluctuation-size test.
@@ -57,6 +59,8 @@ pub struct FluctuationEvidence<'a> {
     pub degrees_of_freedom: f64,
     /// First row of the tested part (the onset).
     pub from_row: usize,
+    /// Last row of the tested part (the newest row analysed).
+    pub to_row: usize,
 }
 
 /// Key used for run-wide alerts (no column).
@@ -108,20 +112,123 @@ pub fn off_target_window_rows(
     rows.max(min_rows.max(2))
 }
 
+/// Margin of the short off-target window, in its own standard errors (ours): wider than
+/// the long window's, because the short window is tested on more nearly independent
+/// stretches of a long run.
+pub const OFF_TARGET_SHORT_SIGMAS: f64 = 4.0;
+/// The short off-target window is this fraction of the long one (ours): a large excursion
+/// (several tolerances) is then seen in about this fraction of the long window's delay.
+pub const OFF_TARGET_SHORT_FRACTION: usize = 8;
+/// An off-target episode is cleared after its window mean has been back inside the
+/// tolerance for this many long windows (ours): a mean that crosses the threshold slowly,
+/// with noise, is one episode, not several.
+pub const OFF_TARGET_CLEAR_WINDOWS: u32 = 3;
+
+/// Sliding-window statistics of the off-target test at each row of `start..end`: the
+/// window mean, the mean target over the window and the standard error of the window mean
+/// (`None` while the window is incomplete, holds a written non-finite value, or has a
+/// value in fewer than half its rows). Sums are shifted by a reference value (no
+/// cancellation). O(rows).
+fn window_stats(
+    input: &OffTargetInput<'_>,
+    start: usize,
+    end: usize,
+    w: usize,
+    g: f64,
+) -> Vec<Option<(f64, f64, f64)>> {
+    let values = input.values;
+    let times = input.times;
+    let shift = values
+        .get(input.start_row..end)
+        .and_then(|v| v.iter().copied().find(|x| x.is_finite()))
+        .unwrap_or(0.0);
+    #[derive(Default)]
+    struct Sums {
+        sum: f64,
+        sum2: f64,
+        tsum: f64,
+        count: usize,
+        bad: usize,
+    }
+    let add = |acc: &mut Sums, i: usize, sign: f64| {
+        let v = values.get(i).copied().unwrap_or(f64::NAN);
+        let t = times.get(i).copied().unwrap_or(f64::NAN);
+        if crate::table::is_absent(v) {
+            return;
+        }
+        if v.is_finite() && t.is_finite() {
+            let d = v - shift;
+            acc.sum += sign * d;
+            acc.sum2 += sign * d * d;
+            acc.tsum += sign * input.target.value_at(t);
+            if sign > 0.0 {
+                acc.count += 1;
+            } else {
+                acc.count = acc.count.saturating_sub(1);
+            }
+        } else if sign > 0.0 {
+            acc.bad += 1;
+        } else {
+            acc.bad = acc.bad.saturating_sub(1);
+        }
+    };
+    let mut acc = Sums::default();
+    let mut stats: Vec<Option<(f64, f64, f64)>> = Vec::with_capacity(end.saturating_sub(start));
+    let first = start.saturating_sub(w - 1).max(input.start_row);
+    for i in first..start {
+        add(&mut acc, i, 1.0);
+    }
+    for r in start..end {
+        add(&mut acc, r, 1.0);
+        if r >= input.start_row + w {
+            add(&mut acc, r - w, -1.0);
+        }
+        let filled = r + 1 - input.start_row;
+        if filled < w || acc.bad > 0 || acc.count < 2 || 2 * acc.count < w {
+            stats.push(None);
+            continue;
+        }
+        let n = acc.count as f64;
+        let mean_d = acc.sum / n;
+        let var = ((acc.sum2 - n * mean_d * mean_d) / (n - 1.0)).max(0.0);
+        let se = (var * g / n).sqrt();
+        stats.push(Some((mean_d + shift, acc.tsum / n, se)));
+    }
+    stats
+}
+
+/// Simulated time spanned by `w` rows ending at row `end - 1`, ps.
+fn window_span_ps(times: &[f64], end: usize, w: usize) -> Option<f64> {
+    match (
+        times.get(end.checked_sub(1)?),
+        times.get((end - 1).saturating_sub(w - 1)),
+    ) {
+        (Some(a), Some(b)) if a.is_finite() && b.is_finite() && a > b => {
+            Some((a - b) * w as f64 / (w - 1).max(1) as f64)
+        }
+        _ => None,
+    }
+}
+
 impl AlertEngine {
     /// Off-target test over rows `rows`: at each row whose window (from `start_row` on) is
     /// complete, the window mean is compared with the mean target over the same rows. The
     /// window is [`off_target_window_rows`] rows (set in correlation times); its margin is
     /// `off_target_sigmas` standard errors of the window mean from the window's own SD and
-    /// N_eff = W/g. The condition turns on beyond tolerance + margin and off only back
-    /// inside the tolerance (hysteresis in value); raised after it held for a tenth of a
-    /// window (at least one row), cleared after it was off for one window. Rows without a value (absent) are left
-    /// out of a window; a written non-finite value makes its windows undecided.
+    /// N_eff = W/g. A short window ([`OFF_TARGET_SHORT_FRACTION`] of it, margin
+    /// [`OFF_TARGET_SHORT_SIGMAS`] of its own SEs) catches a large excursion sooner. The
+    /// alert is raised when either window mean has been beyond tolerance + its margin for
+    /// a tenth of the short window (at least one row), and cleared once the long window
+    /// mean has been back inside the tolerance for [`OFF_TARGET_CLEAR_WINDOWS`] long
+    /// windows in a row (hysteresis in value and in time). Rows without a
+    /// value (absent) are left out of a window; a written non-finite value makes its
+    /// windows undecided.
     ///
     /// Detection delay: after a step of the mean to twice the tolerance beyond the target
-    /// (10 % of 100 K with a 5 K tolerance), the window mean passes tolerance + margin once
-    /// about three quarters of the window are past the step; with the hold, about 0.85
-    /// windows (our derivation; measured in `tests/verdicts_regressions.rs`).
+    /// (10 % of 100 K with a 5 K tolerance), the long window mean passes tolerance + margin
+    /// once about three quarters of the window are past the step (our derivation; measured
+    /// in `tests/verdicts_regressions.rs`); a step of several tolerances is seen by the
+    /// short window within about an eighth of the long window.
     pub fn scan_off_target(
         &mut self,
         input: &OffTargetInput<'_>,
@@ -141,8 +248,15 @@ impl AlertEngine {
             input.tolerance,
             sigmas,
         );
+        // The short window keeps at least the least N_eff of the long one.
+        let min_short = (g * OFF_TARGET_MIN_NEFF).ceil() as usize;
+        let short = (w / OFF_TARGET_SHORT_FRACTION).max(min_short).max(2);
+        let short = (2 * short <= w).then_some(short);
         let wu = u32::try_from(w).unwrap_or(u32::MAX);
-        let sustain = Sustain::new((wu / 10).max(1), wu);
+        let hold = u32::try_from(short.unwrap_or(w) / 10)
+            .unwrap_or(u32::MAX)
+            .max(1);
+        let sustain = Sustain::new(hold, wu.saturating_mul(OFF_TARGET_CLEAR_WINDOWS));
         let values = input.values;
         let times = input.times;
         let start = rows.start.max(input.start_row);
@@ -150,85 +264,8 @@ impl AlertEngine {
         if start >= end {
             return 0;
         }
-        // Window statistics for each row, computed with sliding sums shifted by a
-        // reference value (keeps the sums small: no cancellation).
-        let shift = values
-            .get(input.start_row..end)
-            .and_then(|v| v.iter().copied().find(|x| x.is_finite()))
-            .unwrap_or(0.0);
-        let mut stats: Vec<Option<(f64, f64, f64)>> = Vec::with_capacity(end - start);
-        let mut sum = 0.0;
-        let mut sum2 = 0.0;
-        let mut tsum = 0.0;
-        let mut count = 0usize;
-        let mut bad = 0usize;
-        let first = start.saturating_sub(w - 1).max(input.start_row);
-        let add = |i: usize,
-                   sign: f64,
-                   sum: &mut f64,
-                   sum2: &mut f64,
-                   tsum: &mut f64,
-                   count: &mut usize,
-                   bad: &mut usize| {
-            let v = values.get(i).copied().unwrap_or(f64::NAN);
-            let t = times.get(i).copied().unwrap_or(f64::NAN);
-            if crate::table::is_absent(v) {
-                return;
-            }
-            if v.is_finite() && t.is_finite() {
-                let d = v - shift;
-                *sum += sign * d;
-                *sum2 += sign * d * d;
-                *tsum += sign * input.target.value_at(t);
-                if sign > 0.0 {
-                    *count += 1;
-                } else {
-                    *count = count.saturating_sub(1);
-                }
-            } else if sign > 0.0 {
-                *bad += 1;
-            } else {
-                *bad = bad.saturating_sub(1);
-            }
-        };
-        for i in first..start {
-            add(i, 1.0, &mut sum, &mut sum2, &mut tsum, &mut count, &mut bad);
-        }
-        for r in start..end {
-            add(r, 1.0, &mut sum, &mut sum2, &mut tsum, &mut count, &mut bad);
-            if r >= input.start_row + w {
-                add(
-                    r - w,
-                    -1.0,
-                    &mut sum,
-                    &mut sum2,
-                    &mut tsum,
-                    &mut count,
-                    &mut bad,
-                );
-            }
-            let filled = r + 1 - input.start_row;
-            // Decided when the window is complete, holds no written non-finite value and
-            // at least half its rows have a value.
-            if filled < w || bad > 0 || count < 2 || 2 * count < w {
-                stats.push(None);
-                continue;
-            }
-            let n = count as f64;
-            let mean_d = sum / n;
-            let var = ((sum2 - n * mean_d * mean_d) / (n - 1.0)).max(0.0);
-            let se = (var * g / n).sqrt();
-            stats.push(Some((mean_d + shift, tsum / n, se)));
-        }
-        let window_ps = match (
-            times.get(end - 1),
-            times.get((end - 1).saturating_sub(w - 1)),
-        ) {
-            (Some(a), Some(b)) if a.is_finite() && b.is_finite() && a > b => {
-                Some((a - b) * w as f64 / (w - 1).max(1) as f64)
-            }
-            _ => None,
-        };
+        let long_stats = window_stats(input, start, end, w, g);
+        let short_stats = short.map(|ws| window_stats(input, start, end, ws, g));
         let tolerance = input.tolerance;
         let kind = input.kind;
         let column = input.column;
@@ -237,34 +274,56 @@ impl AlertEngine {
             AlertKind::PressureOffTarget => "pressure",
             _ => "temperature",
         };
-        let stat_at = |r: usize| -> Option<(f64, f64, f64)> {
+        let at = |stats: &[Option<(f64, f64, f64)>], r: usize| -> Option<(f64, f64, f64)> {
             r.checked_sub(start)
                 .and_then(|i| stats.get(i).copied().flatten())
         };
+        let long_at = |r: usize| at(&long_stats, r);
+        let short_at = |r: usize| short_stats.as_deref().and_then(|s| at(s, r));
+        let beyond = |s: Option<(f64, f64, f64)>, k: f64| {
+            s.is_some_and(|(m, t, se)| (m - t).abs() > tolerance + k * se)
+        };
+        // Which window decides at row `r`: the long one when it is beyond, else the short.
+        let deciding = |r: usize| -> Option<(usize, f64, (f64, f64, f64))> {
+            if beyond(long_at(r), sigmas) {
+                long_at(r).map(|s| (w, sigmas, s))
+            } else if beyond(short_at(r), OFF_TARGET_SHORT_SIGMAS) {
+                short_at(r).map(|s| (short.unwrap_or(w), OFF_TARGET_SHORT_SIGMAS, s))
+            } else {
+                None
+            }
+        };
         let off = input.row_offset;
-        let mut on = self.is_active(kind, column);
         self.scan(
             kind,
             column,
             sustain,
             off + start..off + end,
-            |r| {
-                // A Schmitt trigger in value: on when the mean is beyond tolerance + margin,
-                // off only once it is back inside the tolerance, so a mean that crosses the
-                // threshold slowly (a slow ramp, with noise) is one episode, not many.
-                if let Some((m, t, se)) = stat_at(r - off) {
-                    let d = (m - t).abs();
-                    if d > tolerance + sigmas * se {
-                        on = true;
-                    } else if d <= tolerance {
-                        on = false;
+            |r, active| {
+                // Hysteresis in value: raised when a window mean is beyond tolerance + its
+                // margin; while raised, it holds as long as the long window mean is beyond
+                // the tolerance itself, so the clearing time counts only rows back inside
+                // the tolerance, and a mean that crosses the threshold slowly (a slow ramp,
+                // with noise) is one episode, not several.
+                if active {
+                    match long_at(r - off) {
+                        Some((m, t, _)) => (m - t).abs() > tolerance,
+                        None => true,
                     }
+                } else {
+                    deciding(r - off).is_some()
                 }
-                on
+            },
+            |_, r| {
+                let s = long_at(r - off).or_else(|| short_at(r - off));
+                s.map(|(m, t, _)| Measure::new(m, (m - t).abs()))
             },
             |since, now| {
-                let (m, t, se) = stat_at(now - off).unwrap_or((f64::NAN, f64::NAN, f64::NAN));
+                let (ww, k, (m, t, se)) = deciding(now - off)
+                    .or_else(|| long_at(now - off).map(|s| (w, sigmas, s)))
+                    .unwrap_or((w, sigmas, (f64::NAN, f64::NAN, f64::NAN)));
                 let direction = if m < t { "below" } else { "above" };
+                let window_ps = window_span_ps(times, end, ww);
                 Alert::new(
                     kind,
                     Severity::Warning,
@@ -272,14 +331,14 @@ impl AlertEngine {
                         "mean {name} over the last {} is {} {direction} its target {} \
                          (allowed {} + {} SE = {}); check the {} settings and coupling",
                         match window_ps {
-                            Some(ps) => format!("{} ({w} rows)", format_duration_ps(ps)),
-                            None => format!("{w} rows"),
+                            Some(ps) => format!("{} ({ww} rows)", format_duration_ps(ps)),
+                            None => format!("{ww} rows"),
                         },
                         format_number((m - t).abs(), unit),
                         format_number(t, unit),
                         format_number(tolerance, unit),
-                        format_number(sigmas, ""),
-                        format_number(tolerance + sigmas * se, unit),
+                        format_number(k, ""),
+                        format_number(tolerance + k * se, unit),
                         if name == "pressure" {
                             "barostat"
                         } else {
@@ -291,6 +350,7 @@ impl AlertEngine {
                 .value(m, unit)
                 .at(since, locator)
             },
+            locator,
         )
     }
 
@@ -343,20 +403,36 @@ impl AlertEngine {
             .at(ev.from_row, locator)
         };
         let sustain = Sustain::new(1, 3);
+        let at = Observed {
+            row: Some(ev.to_row),
+            measure: Some(Measure::new(ev.slope_per_ns, ev.slope_per_ns.abs())),
+            locator,
+        };
         match severity {
             Some(s) => {
-                let raised =
-                    self.evaluate(AlertKind::Drift, ev.column, sustain, index, true, || {
-                        make(s)
-                    });
+                let raised = self.evaluate(
+                    AlertKind::Drift,
+                    ev.column,
+                    sustain,
+                    index,
+                    true,
+                    at,
+                    || make(s),
+                );
                 if !raised {
                     self.escalate(AlertKind::Drift, ev.column, s, || make(s));
                 }
                 raised
             }
-            None => self.evaluate(AlertKind::Drift, ev.column, sustain, index, false, || {
-                make(Severity::Info)
-            }),
+            None => self.evaluate(
+                AlertKind::Drift,
+                ev.column,
+                sustain,
+                index,
+                false,
+                at,
+                || make(Severity::Info),
+            ),
         }
     }
 
@@ -370,12 +446,18 @@ impl AlertEngine {
         locator: &dyn RowLocator,
     ) -> bool {
         let sustain = Sustain::new(1, 3);
+        let at = Observed {
+            row: Some(ev.to_row),
+            measure: Some(Measure::new(ev.observed, (ev.observed - ev.expected).abs())),
+            locator,
+        };
         self.evaluate(
             AlertKind::FluctuationSize,
             ev.column,
             sustain,
             index,
             verdict_wrong,
+            at,
             || {
                 let (size, hint) = if ev.observed < ev.low {
                     (
@@ -423,12 +505,18 @@ impl AlertEngine {
         let limit = self.thresholds().stall_limit_seconds(median_gap_s);
         let waited = now_s - last_arrival_s;
         let stalled = waited.is_finite() && waited > limit;
+        let at = Observed {
+            row: last_row,
+            measure: Some(Measure::new(waited, waited)),
+            locator,
+        };
         self.evaluate(
             AlertKind::Stalled,
             RUN,
             Sustain::new(1, 1),
             index,
             stalled,
+            at,
             || {
                 let a = Alert::new(
                     AlertKind::Stalled,
@@ -491,12 +579,18 @@ impl AlertEngine {
             a.line = first_line;
             a
         };
+        let at = Observed {
+            row: None,
+            measure: None,
+            locator: &super::NoLocator,
+        };
         let raised = self.evaluate(
             AlertKind::SkippedLines,
             RUN,
             Sustain::new(1, 1),
             0,
             true,
+            at,
             make,
         );
         if !raised {
@@ -603,6 +697,7 @@ mod tests {
             stderr_per_ns: 10.0,
             kt_per_ns_per_dof: k,
             from_row: 20,
+            to_row: 90,
         };
         let mut e = AlertEngine::new(Thresholds::default());
         // Not significant (|b|/SE = 2): nothing, whatever its size.
@@ -614,9 +709,13 @@ mod tests {
         assert_eq!(e.alerts()[0].severity, Severity::Warning);
         assert_eq!(e.alerts()[0].row, Some(20));
         assert_eq!(e.alerts()[0].line, Some(21));
+        // One episode, one alert: escalated in place, its latest value and peak kept.
         assert!(!e.evaluate_drift(&ev(Some(0.2), 4000.0), 3, &loc));
-        assert_eq!(e.alerts().len(), 2);
-        assert_eq!(e.alerts()[1].severity, Severity::Critical);
+        assert_eq!(e.alerts().len(), 1);
+        assert_eq!(e.alerts()[0].severity, Severity::Critical);
+        assert_eq!(e.alerts()[0].row, Some(20));
+        assert_eq!(e.alerts()[0].peak, Some(4000.0));
+        assert_eq!(e.alerts()[0].last_row, Some(90));
         // Unnormalised but significant: info.
         let mut e = AlertEngine::new(Thresholds::default());
         assert!(e.evaluate_drift(&ev(None, 400.0), 0, &loc));
@@ -646,7 +745,7 @@ mod tests {
         e.evaluate_skipped(1, 1000, Some(17));
         assert_eq!(e.alerts().len(), 1);
         e.evaluate_skipped(30, 1000, Some(17));
-        assert_eq!(e.alerts().len(), 2);
-        assert_eq!(e.alerts()[1].severity, Severity::Warning);
+        assert_eq!(e.alerts().len(), 1);
+        assert_eq!(e.alerts()[0].severity, Severity::Warning);
     }
 }

@@ -79,18 +79,22 @@ impl Hysteresis {
     }
 
     /// Feeds `count` consecutive false observations at once: the same state as `count`
-    /// calls of `observe(_, false)` (a false observation never raises, and the only other
-    /// transition, clearing, leaves nothing to report). O(1).
-    pub fn observe_false_run(&mut self, count: u64) {
+    /// calls of `observe(_, false)` (a false observation never raises). O(1). Returns the
+    /// 0-based position within the run of the observation that cleared an active alert.
+    pub fn observe_false_run(&mut self, count: u64) -> Option<u64> {
         if count == 0 {
-            return;
+            return None;
         }
         self.true_run = 0;
-        let count = u32::try_from(count).unwrap_or(u32::MAX);
-        self.false_run = self.false_run.saturating_add(count);
+        let before = self.false_run;
+        let count32 = u32::try_from(count).unwrap_or(u32::MAX);
+        self.false_run = self.false_run.saturating_add(count32);
         if self.active && self.false_run >= self.sustain.clear_after {
             self.active = false;
+            let needed = self.sustain.clear_after.saturating_sub(before).max(1);
+            return Some(u64::from(needed) - 1);
         }
+        None
     }
 
     /// Feeds one observation made at `index` (a row, or an evaluation counter).

@@ -25,7 +25,8 @@ use serde::{Deserialize, Serialize};
 
 pub use detect::{
     off_target_window_rows, DriftEvidence, FluctuationEvidence, OffTargetInput,
-    OFF_TARGET_MARGIN_OF_TOLERANCE, OFF_TARGET_MAX_ROWS, OFF_TARGET_MIN_NEFF, RUN,
+    OFF_TARGET_CLEAR_WINDOWS, OFF_TARGET_MARGIN_OF_TOLERANCE, OFF_TARGET_MAX_ROWS,
+    OFF_TARGET_MIN_NEFF, OFF_TARGET_SHORT_FRACTION, OFF_TARGET_SHORT_SIGMAS, RUN,
 };
 pub use hysteresis::{Hysteresis, Sustain, Transition};
 pub use status::{RunStatus, StatusInputs};
@@ -158,6 +159,18 @@ pub struct Alert {
     /// Row at which the alert was raised (its condition sustained long enough); `row` is
     /// the first row of the episode.
     pub raised_row: Option<u64>,
+    /// The episode while it lasts (one alert per episode, updated, never raised again):
+    /// the last row at which its condition held.
+    pub last_row: Option<u64>,
+    /// The value at `last_row` (same unit as `value`).
+    pub latest: Option<f64>,
+    /// The value furthest from normal seen during the episode (same unit as `value`).
+    pub peak: Option<f64>,
+    /// Row at which the episode was cleared (its condition off for the clearing time);
+    /// `None` while it lasts.
+    pub cleared_row: Option<u64>,
+    /// Simulated time of `cleared_row`, ps.
+    pub cleared_time: Option<f64>,
 }
 
 impl Alert {
@@ -174,7 +187,36 @@ impl Alert {
             unit: None,
             message: message.into(),
             raised_row: None,
+            last_row: None,
+            latest: None,
+            peak: None,
+            cleared_row: None,
+            cleared_time: None,
         }
+    }
+
+    /// Whether the episode still lasts (raised and not cleared).
+    pub fn is_ongoing(&self) -> bool {
+        self.cleared_row.is_none()
+    }
+
+    /// The episode's course in words, for text output: peak, latest value and whether it
+    /// ended (empty when the alert has nothing more to say than its message).
+    pub fn episode_words(&self) -> String {
+        let unit = self.unit.as_deref().unwrap_or("");
+        let mut parts = Vec::new();
+        if let Some(p) = self.peak.filter(|p| Some(*p) != self.value) {
+            parts.push(format!("peak {}", format_number(p, unit)));
+        }
+        if let (Some(l), Some(r)) = (self.latest, self.last_row) {
+            if Some(r) != self.row && Some(l) != self.peak {
+                parts.push(format!("latest {} at row {r}", format_number(l, unit)));
+            }
+        }
+        if let Some(r) = self.cleared_row {
+            parts.push(format!("ended, cleared at row {r}"));
+        }
+        parts.join("; ")
     }
 
     /// Sets the column.
@@ -216,6 +258,23 @@ impl Alert {
         s.push_str(": ");
         s.push_str(&self.message);
         s
+    }
+
+    /// [`Alert::one_line`] with the episode's course appended (reports of a whole file:
+    /// an episode not cleared is said to be still on at the last row).
+    pub fn one_line_with_episode(&self) -> String {
+        let mut episode = self.episode_words();
+        if self.cleared_row.is_none() && self.raised_row.is_some() {
+            if !episode.is_empty() {
+                episode.push_str("; ");
+            }
+            episode.push_str("still on at the last row");
+        }
+        if episode.is_empty() {
+            self.one_line()
+        } else {
+            format!("{} [{episode}]", self.one_line())
+        }
     }
 }
 
@@ -312,8 +371,53 @@ type Key = (AlertKind, String);
 #[derive(Debug, Clone)]
 struct State {
     hysteresis: Hysteresis,
-    /// Index into `alerts` of the alert raised for the current episode.
+    /// Index into `alerts` of the alert raised for the current (or last) episode.
     raised: Option<usize>,
+    /// Size of the episode's peak so far (see [`Measure`]).
+    peak_size: f64,
+}
+
+/// What an observation measured while its condition held: the value shown (in the
+/// alert's unit) and how far from normal it is (any scale of the detector's own, larger is
+/// further); the largest size gives the episode's peak.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Measure {
+    pub value: f64,
+    pub size: f64,
+}
+
+impl Measure {
+    /// A value and its distance from normal.
+    pub fn new(value: f64, size: f64) -> Measure {
+        Measure { value, size }
+    }
+}
+
+/// One evaluation of a summary (drift fit, fluctuation test, stall check): the row it
+/// speaks for (the last row analysed), what it measured, and where rows sit.
+#[derive(Clone, Copy)]
+pub struct Observed<'a> {
+    pub row: Option<usize>,
+    pub measure: Option<Measure>,
+    pub locator: &'a dyn RowLocator,
+}
+
+/// What happened to an alert, in the order it happened (for printing as it happens).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Change {
+    /// The episode started: the alert is new.
+    Raised,
+    /// The episode grew worse: the alert's severity went up (same alert, updated).
+    Escalated,
+    /// The episode ended.
+    Cleared,
+}
+
+/// One change of one alert: `alert` indexes [`AlertEngine::alerts`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Notice {
+    pub alert: usize,
+    pub change: Change,
 }
 
 /// The hysteresis state of `(kind, column)`, new with `sustain` the first time.
@@ -328,17 +432,84 @@ fn state_of<'a>(
         .or_insert_with(|| State {
             hysteresis: Hysteresis::new(sustain),
             raised: None,
+            peak_size: f64::NEG_INFINITY,
         });
     state.hysteresis.set_sustain(sustain);
     state
 }
 
-/// The alert engine: per (kind, column) hysteresis states and the list of raised alerts.
+/// First row of the episode of `state` (`row` when it has none).
+fn episode_start(alerts: &[Alert], state: &State, row: usize) -> usize {
+    state
+        .raised
+        .and_then(|i| alerts.get(i))
+        .and_then(|a| a.row)
+        .and_then(|r| usize::try_from(r).ok())
+        .unwrap_or(row)
+}
+
+/// The episode of `state` goes on at `row`: its latest value and peak.
+fn update_episode(alerts: &mut [Alert], state: &mut State, row: usize, measure: Option<Measure>) {
+    let Some(alert) = state.raised.and_then(|i| alerts.get_mut(i)) else {
+        return;
+    };
+    alert.last_row = Some(row as u64);
+    if let Some(m) = measure {
+        alert.latest = Some(m.value);
+        if m.size.is_finite() && m.size >= state.peak_size {
+            state.peak_size = m.size;
+            alert.peak = Some(m.value);
+        }
+    }
+}
+
+/// The raised alert of a new episode of `state`.
+fn start_episode(
+    alerts: &mut Vec<Alert>,
+    notices: &mut Vec<Notice>,
+    state: &mut State,
+    mut alert: Alert,
+    raised_row: Option<usize>,
+) {
+    if let Some(r) = raised_row {
+        alert.raised_row = Some(r as u64);
+    }
+    state.raised = Some(alerts.len());
+    state.peak_size = f64::NEG_INFINITY;
+    notices.push(Notice {
+        alert: alerts.len(),
+        change: Change::Raised,
+    });
+    alerts.push(alert);
+}
+
+/// The episode of `state` ended at `row`.
+fn end_episode(
+    alerts: &mut [Alert],
+    notices: &mut Vec<Notice>,
+    state: &State,
+    row: Option<usize>,
+    locator: &dyn RowLocator,
+) {
+    let Some(i) = state.raised else { return };
+    if let Some(alert) = alerts.get_mut(i) {
+        alert.cleared_row = row.map(|r| r as u64);
+        alert.cleared_time = row.and_then(|r| locator.time(r)).filter(|t| t.is_finite());
+        notices.push(Notice {
+            alert: i,
+            change: Change::Cleared,
+        });
+    }
+}
+
+/// The alert engine: per (kind, column) hysteresis states and the list of raised alerts,
+/// one per episode: raised once, updated while it lasts, cleared when it ends.
 #[derive(Debug, Clone)]
 pub struct AlertEngine {
     thresholds: Thresholds,
     states: BTreeMap<Key, State>,
     alerts: Vec<Alert>,
+    notices: Vec<Notice>,
 }
 
 impl AlertEngine {
@@ -348,6 +519,7 @@ impl AlertEngine {
             thresholds,
             states: BTreeMap::new(),
             alerts: Vec::new(),
+            notices: Vec::new(),
         }
     }
 
@@ -356,9 +528,15 @@ impl AlertEngine {
         &self.thresholds
     }
 
-    /// Every alert raised so far, in the order raised.
+    /// Every alert raised so far, one per episode, in the order raised.
     pub fn alerts(&self) -> &[Alert] {
         &self.alerts
+    }
+
+    /// Every change of every alert (raised, escalated, cleared), in order: a live reader
+    /// keeps a cursor into it to print each change once.
+    pub fn notices(&self) -> &[Notice] {
+        &self.notices
     }
 
     /// Every alert raised so far, ordered by row (alerts without a row last), then kind;
@@ -398,36 +576,56 @@ impl AlertEngine {
         self.alerts.iter().map(|a| a.severity).max()
     }
 
-    /// Feeds the observations of rows `rows` for one (kind, column). `condition(row)` says
-    /// whether the condition holds at that row; `make(since, row)` builds the alert when it
-    /// is raised (`since` = first row of the sustained episode, `row` = the row at which the
+    /// Feeds the observations of rows `rows` for one (kind, column). `condition(row,
+    /// active)` says whether the condition holds at that row (`active`: whether the alert
+    /// is raised, for a condition with hysteresis in value); `measure(since, row)` what it measured there
+    /// (called only while an episode lasts, `since` its first row); `make(since, row)` builds the alert when it is
+    /// raised (`since` = first row of the sustained episode, `row` = the row at which the
     /// window was complete). Returns how many alerts were raised.
-    pub fn scan<C, M>(
+    #[allow(clippy::too_many_arguments)]
+    pub fn scan<C, V, M>(
         &mut self,
         kind: AlertKind,
         column: &str,
         sustain: Sustain,
         rows: Range<usize>,
         mut condition: C,
+        mut measure: V,
         mut make: M,
+        locator: &dyn RowLocator,
     ) -> usize
     where
-        C: FnMut(usize) -> bool,
+        C: FnMut(usize, bool) -> bool,
+        V: FnMut(usize, usize) -> Option<Measure>,
         M: FnMut(usize, usize) -> Alert,
     {
         let state = state_of(&mut self.states, kind, column, sustain);
         let mut raised = 0;
         for row in rows {
-            match state.hysteresis.observe(row as u64, condition(row)) {
+            let holds = condition(row, state.hysteresis.is_active());
+            match state.hysteresis.observe(row as u64, holds) {
                 Transition::Raised { since } => {
                     let since = usize::try_from(since).unwrap_or(row);
-                    state.raised = Some(self.alerts.len());
-                    let mut a = make(since, row);
-                    a.raised_row = Some(row as u64);
-                    self.alerts.push(a);
+                    let a = make(since, row);
+                    start_episode(&mut self.alerts, &mut self.notices, state, a, Some(row));
+                    let m = measure(episode_start(&self.alerts, state, row), row);
+                    update_episode(&mut self.alerts, state, row, m);
                     raised += 1;
                 }
-                Transition::Cleared | Transition::None => {}
+                Transition::Cleared => {
+                    end_episode(
+                        &mut self.alerts,
+                        &mut self.notices,
+                        state,
+                        Some(row),
+                        locator,
+                    );
+                }
+                Transition::None if holds && state.hysteresis.is_active() => {
+                    let m = measure(episode_start(&self.alerts, state, row), row);
+                    update_episode(&mut self.alerts, state, row, m);
+                }
+                Transition::None => {}
             }
         }
         raised
@@ -436,16 +634,20 @@ impl AlertEngine {
     /// As [`AlertEngine::scan`] with the condition true exactly at the rows of `flagged`
     /// (ascending; rows outside `rows` are ignored): the runs of false rows between them
     /// are fed at once, so the cost is O(flagged rows), not O(rows). Same alerts, same state.
-    pub fn scan_flagged<M>(
+    #[allow(clippy::too_many_arguments)]
+    pub fn scan_flagged<V, M>(
         &mut self,
         kind: AlertKind,
         column: &str,
         sustain: Sustain,
         rows: Range<usize>,
         flagged: impl IntoIterator<Item = usize>,
+        mut measure: V,
         mut make: M,
+        locator: &dyn RowLocator,
     ) -> usize
     where
+        V: FnMut(usize, usize) -> Option<Measure>,
         M: FnMut(usize, usize) -> Alert,
     {
         let state = state_of(&mut self.states, kind, column, sustain);
@@ -455,25 +657,52 @@ impl AlertEngine {
             if row < next || row >= rows.end {
                 continue;
             }
-            state.hysteresis.observe_false_run((row - next) as u64);
-            if let Transition::Raised { since } = state.hysteresis.observe(row as u64, true) {
-                let since = usize::try_from(since).unwrap_or(row);
-                state.raised = Some(self.alerts.len());
-                let mut a = make(since, row);
-                a.raised_row = Some(row as u64);
-                self.alerts.push(a);
-                raised += 1;
+            if let Some(at) = state.hysteresis.observe_false_run((row - next) as u64) {
+                let cleared = next + at as usize;
+                end_episode(
+                    &mut self.alerts,
+                    &mut self.notices,
+                    state,
+                    Some(cleared),
+                    locator,
+                );
+            }
+            match state.hysteresis.observe(row as u64, true) {
+                Transition::Raised { since } => {
+                    let since = usize::try_from(since).unwrap_or(row);
+                    let a = make(since, row);
+                    start_episode(&mut self.alerts, &mut self.notices, state, a, Some(row));
+                    let m = measure(episode_start(&self.alerts, state, row), row);
+                    update_episode(&mut self.alerts, state, row, m);
+                    raised += 1;
+                }
+                _ if state.hysteresis.is_active() => {
+                    let m = measure(episode_start(&self.alerts, state, row), row);
+                    update_episode(&mut self.alerts, state, row, m);
+                }
+                _ => {}
             }
             next = row + 1;
         }
-        state
+        if let Some(at) = state
             .hysteresis
-            .observe_false_run(rows.end.saturating_sub(next) as u64);
+            .observe_false_run(rows.end.saturating_sub(next) as u64)
+        {
+            let cleared = next + at as usize;
+            end_episode(
+                &mut self.alerts,
+                &mut self.notices,
+                state,
+                Some(cleared),
+                locator,
+            );
+        }
         raised
     }
 
     /// One observation of a summary (drift fit, fluctuation verdict, stall check) at
     /// evaluation index `index` (increasing). Returns true when an alert was raised.
+    #[allow(clippy::too_many_arguments)]
     pub fn evaluate<M>(
         &mut self,
         kind: AlertKind,
@@ -481,6 +710,7 @@ impl AlertEngine {
         sustain: Sustain,
         index: u64,
         condition: bool,
+        at: Observed<'_>,
         make: M,
     ) -> bool
     where
@@ -489,21 +719,43 @@ impl AlertEngine {
         let state = state_of(&mut self.states, kind, column, sustain);
         match state.hysteresis.observe(index, condition) {
             Transition::Raised { .. } => {
-                state.raised = Some(self.alerts.len());
-                self.alerts.push(make());
+                start_episode(&mut self.alerts, &mut self.notices, state, make(), None);
+                if let Some(r) = at.row {
+                    update_episode(&mut self.alerts, state, r, at.measure);
+                }
                 true
             }
-            Transition::Cleared | Transition::None => false,
+            Transition::Cleared => {
+                end_episode(
+                    &mut self.alerts,
+                    &mut self.notices,
+                    state,
+                    at.row,
+                    at.locator,
+                );
+                false
+            }
+            Transition::None => {
+                if let (true, true, Some(r)) = (condition, state.hysteresis.is_active(), at.row) {
+                    update_episode(&mut self.alerts, state, r, at.measure);
+                }
+                false
+            }
         }
     }
 
     /// Records an event alert (restart, skipped lines) that has no condition to sustain.
     pub fn push_event(&mut self, alert: Alert) {
+        self.notices.push(Notice {
+            alert: self.alerts.len(),
+            change: Change::Raised,
+        });
         self.alerts.push(alert);
     }
 
-    /// Upgrades the severity of the active alert of `kind` on `column` (a drift that grew
-    /// from warning to critical is one episode, reported once more at the higher level).
+    /// Raises the severity of the active alert of `kind` on `column` in place: a drift
+    /// that grew from warning to critical is one episode, one alert, whose severity and
+    /// message are brought up to date (and noticed once more, as [`Change::Escalated`]).
     pub fn escalate<M>(&mut self, kind: AlertKind, column: &str, severity: Severity, make: M)
     where
         M: FnOnce() -> Alert,
@@ -514,13 +766,18 @@ impl AlertEngine {
         if !state.hysteresis.is_active() {
             return;
         }
-        let current = state
-            .raised
-            .and_then(|i| self.alerts.get(i))
-            .map(|a| a.severity);
-        if current.is_some_and(|s| s < severity) {
-            state.raised = Some(self.alerts.len());
-            self.alerts.push(make());
+        let Some(i) = state.raised else { return };
+        let Some(alert) = self.alerts.get_mut(i) else {
+            return;
+        };
+        if alert.severity < severity {
+            let newer = make();
+            alert.severity = severity;
+            alert.message = newer.message;
+            self.notices.push(Notice {
+                alert: i,
+                change: Change::Escalated,
+            });
         }
     }
 
@@ -552,6 +809,8 @@ impl AlertEngine {
             sustain,
             rows.start + off..rows.end + off,
             nonfinite,
+            // A non-finite value has no size to compare: the episode keeps its last row.
+            |_, _| None,
             |since, _| {
                 let v = values.get(since - off).copied().unwrap_or(f64::NAN);
                 Alert::new(
@@ -567,6 +826,7 @@ impl AlertEngine {
                 .value(v, unit)
                 .at(since, locator)
             },
+            locator,
         )
     }
 }
@@ -639,11 +899,24 @@ mod tests {
     }
 
     #[test]
-    fn escalation_reports_higher_severity_once() {
+    fn escalation_updates_the_one_alert_of_the_episode() {
         let mut e = AlertEngine::new(Thresholds::default());
         let s = Sustain::new(1, 2);
-        let mk = |sev| move || Alert::new(AlertKind::Drift, sev, "drift");
-        assert!(e.evaluate(AlertKind::Drift, "c", s, 0, true, mk(Severity::Warning)));
+        let mk = |sev| move || Alert::new(AlertKind::Drift, sev, format!("drift {sev}"));
+        let at = |row| Observed {
+            row: Some(row),
+            measure: Some(Measure::new(row as f64, row as f64)),
+            locator: &NoLocator,
+        };
+        assert!(e.evaluate(
+            AlertKind::Drift,
+            "c",
+            s,
+            0,
+            true,
+            at(10),
+            mk(Severity::Warning)
+        ));
         e.escalate(
             AlertKind::Drift,
             "c",
@@ -656,8 +929,107 @@ mod tests {
             Severity::Critical,
             mk(Severity::Critical),
         );
-        assert_eq!(e.alerts().len(), 2);
+        assert_eq!(e.alerts().len(), 1);
         assert_eq!(e.worst(), Some(Severity::Critical));
+        assert_eq!(e.alerts()[0].message, "drift critical");
+        let changes: Vec<Change> = e.notices().iter().map(|n| n.change).collect();
+        assert_eq!(changes, [Change::Raised, Change::Escalated]);
+        // Still on: updated; then off twice: cleared at the evaluation's row.
+        e.evaluate(
+            AlertKind::Drift,
+            "c",
+            s,
+            1,
+            true,
+            at(20),
+            mk(Severity::Warning),
+        );
+        e.evaluate(
+            AlertKind::Drift,
+            "c",
+            s,
+            2,
+            false,
+            at(30),
+            mk(Severity::Warning),
+        );
+        e.evaluate(
+            AlertKind::Drift,
+            "c",
+            s,
+            3,
+            false,
+            at(40),
+            mk(Severity::Warning),
+        );
+        let a = &e.alerts()[0];
+        assert_eq!(
+            (a.last_row, a.latest, a.peak),
+            (Some(20), Some(20.0), Some(20.0))
+        );
+        assert_eq!(a.cleared_row, Some(40));
+        assert_eq!(e.notices().last().map(|n| n.change), Some(Change::Cleared));
+    }
+
+    #[test]
+    fn an_episode_keeps_its_peak_latest_value_and_end() {
+        // A flagged episode at rows 5..=9 with sizes rising then falling; cleared after
+        // 3 clean rows: rows 10, 11, 12 -> cleared at row 12.
+        let values = [
+            0.0, 0.0, 0.0, 0.0, 0.0, 3.0, 7.0, 9.0, 4.0, 2.0, 0.0, 0.0, 0.0, 0.0,
+        ];
+        let lines: Vec<u64> = (1..=14).collect();
+        let times: Vec<f64> = (0..14).map(|i| i as f64 * 0.5).collect();
+        let loc = locator(&lines, &times);
+        let mut whole = AlertEngine::new(Thresholds::default());
+        let measure = |_: usize, r: usize| Some(Measure::new(values[r], values[r]));
+        let make = |since: usize, _| {
+            Alert::new(AlertKind::Runaway, Severity::Critical, "up").at(since, &loc)
+        };
+        whole.scan_flagged(
+            AlertKind::Runaway,
+            "x",
+            Sustain::immediate(3),
+            0..14,
+            5..10,
+            measure,
+            make,
+            &loc,
+        );
+        assert_eq!(whole.alerts().len(), 1);
+        let a = &whole.alerts()[0];
+        assert_eq!(a.row, Some(5));
+        assert_eq!(a.peak, Some(9.0));
+        assert_eq!((a.last_row, a.latest), (Some(9), Some(2.0)));
+        assert_eq!((a.cleared_row, a.cleared_time), (Some(12), Some(6.0)));
+        // Fed in pieces, or row by row with `scan`: the same episode.
+        let mut parts = AlertEngine::new(Thresholds::default());
+        for chunk in [0..6, 6..11, 11..14] {
+            parts.scan_flagged(
+                AlertKind::Runaway,
+                "x",
+                Sustain::immediate(3),
+                chunk,
+                5..10,
+                measure,
+                make,
+                &loc,
+            );
+        }
+        let mut rows = AlertEngine::new(Thresholds::default());
+        rows.scan(
+            AlertKind::Runaway,
+            "x",
+            Sustain::immediate(3),
+            0..14,
+            |r, _| (5..10).contains(&r),
+            measure,
+            make,
+            &loc,
+        );
+        assert_eq!(whole.alerts(), parts.alerts());
+        assert_eq!(whole.alerts(), rows.alerts());
+        assert_eq!(whole.notices(), rows.notices());
     }
 
     #[test]

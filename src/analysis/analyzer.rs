@@ -320,6 +320,8 @@ impl Analyzer {
         };
         let loc = self.folding.locator(seg, si, a.first_row);
         let index = self.evaluation;
+        // The row each evaluation speaks for: the newest row analysed.
+        let last_row = (a.first_row + self.segment_total_rows(table, si)).saturating_sub(1);
         for c in &a.columns {
             if let Some(d) = c
                 .drift
@@ -333,6 +335,7 @@ impl Analyzer {
                     stderr_per_ns: d.stderr_per_ns,
                     kt_per_ns_per_dof: d.kt_per_ns_per_dof,
                     from_row: a.first_row + d.from_row,
+                    to_row: last_row,
                 };
                 self.engine.evaluate_drift(&ev, index, &loc);
             }
@@ -345,6 +348,7 @@ impl Analyzer {
                     high: f.high,
                     degrees_of_freedom: f.n_df,
                     from_row: a.first_row + row,
+                    to_row: last_row,
                 };
                 let wrong = f.verdict != FluctuationVerdict::Consistent;
                 self.engine.evaluate_fluctuation(&ev, wrong, index, &loc);

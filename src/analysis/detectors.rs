@@ -124,7 +124,7 @@ pub fn runaway_options(t: &Thresholds) -> RunawayOptions {
 /// growth is caught by the far rule once it has lasted [`RUNAWAY_FAR_ROWS`] rows beyond
 /// [`RUNAWAY_FAR_SIGMAS`] robust SDs, about 4 e-folding times after it left the noise,
 /// whatever the rate (common practice, no source).
-pub const RUNAWAY_SCALES: usize = 3;
+pub const RUNAWAY_SCALES: usize = 4;
 /// Ratio of successive runaway windows.
 pub const RUNAWAY_SCALE_FACTOR: usize = 5;
 /// Consecutive rows beyond [`RUNAWAY_FAR_SIGMAS`] that make a far excursion a runaway: a

@@ -5,11 +5,11 @@ use std::ops::Range;
 use super::parallel::{map_in_order, PARALLEL_MIN_VALUES};
 use super::present::Present;
 use super::{
-    analysed_count, beyond_context, observable, runaway_flags, runaway_options, spike_threshold,
-    time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan, TableLocator,
-    RUNAWAY_FAR_SIGMAS,
+    analysed_count, beyond_context, observable, runaway_flags, runaway_options, runaway_windows,
+    spike_threshold, time_values, Analyzer, BaselineCache, ColumnCursor, ColumnFlags, ScanPlan,
+    TableLocator, RUNAWAY_FAR_SIGMAS, RUNAWAY_SCALES,
 };
-use crate::alert::{AlertKind, OffTargetInput, Severity, Sustain};
+use crate::alert::{AlertKind, Measure, OffTargetInput, Severity, Sustain};
 use crate::mapping::Role;
 use crate::stats::{self, HampelOptions};
 use crate::table::{Column, RunTable, Segment};
@@ -211,6 +211,14 @@ impl Analyzer {
                     Sustain::immediate(clear),
                     offset + spike_start..offset + spike_end,
                     flagged.iter().map(|r| r + offset),
+                    |since, r| {
+                        // A spike's size: how far it is from the row before the episode.
+                        let v = values.get(r - offset).copied().filter(|v| v.is_finite())?;
+                        let before = since
+                            .checked_sub(offset + 1)
+                            .and_then(|i| values.get(i).copied());
+                        Some(Measure::new(v, before.map_or(0.0, |b| (v - b).abs())))
+                    },
                     |since, _| {
                         let v = values.get(since - offset).copied().unwrap_or(f64::NAN);
                         crate::alert::Alert::new(
@@ -228,6 +236,7 @@ impl Analyzer {
                         .value(v, &unit_s)
                         .at(since, &loc)
                     },
+                    &loc,
                 );
             }
             // Runaway growth.
@@ -334,14 +343,27 @@ impl Analyzer {
         offset: usize,
         loc: &TableLocator<'_>,
     ) {
-        let w = runaway_options(&self.opts.thresholds).window;
+        // One episode until no row was flagged for the longest growth window: a slow
+        // blow-up whose rows dip back into the noise for a while is still one episode.
+        let w0 = runaway_options(&self.opts.thresholds).window;
+        let w = runaway_windows(w0)[RUNAWAY_SCALES - 1];
         let unit_s = unit.to_string();
         self.engine.scan_flagged(
             AlertKind::Runaway,
             name,
-            Sustain::immediate(u32::try_from(w).unwrap_or(20)),
+            Sustain::immediate(u32::try_from(w).unwrap_or(u32::MAX)),
             offset + rows.start..offset + rows.end,
             flagged.iter().map(|p| p.0 + offset),
+            |since, r| {
+                // A runaway's size: how far it has gone from where the episode began (its
+                // non-finite rows are the non-finite alert's).
+                let v = values.get(r - offset).copied().filter(|v| v.is_finite())?;
+                let start = since
+                    .checked_sub(offset)
+                    .and_then(|i| values.get(i).copied())
+                    .unwrap_or(v);
+                Some(Measure::new(v, (v - start).abs()))
+            },
             |since, _| {
                 let x = values.get(since - offset).copied().unwrap_or(f64::NAN);
                 let rate = flagged
@@ -370,6 +392,7 @@ impl Analyzer {
                 .value(x, &unit_s)
                 .at(since, loc)
             },
+            loc,
         );
     }
 }

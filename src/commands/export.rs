@@ -7,7 +7,9 @@
 //! - CSV and TSV write a header line (`segment`, `line`, then each column as
 //!   `name (unit)`) before the first row of every segment; JSONL writes one object per row
 //!   with the keys `segment`, `line` and the column names. Non-finite values are written as
-//!   `nan`, `inf`, `-inf` (JSON: the strings `"nan"`, `"inf"`, `"-inf"`, per the Contract).
+//!   `nan`, `inf`, `-inf` (JSON: the strings `"nan"`, `"inf"`, `"-inf"`, per the Contract);
+//!   a value a row did not write (self-named rows, JSON objects missing a key) is an empty
+//!   field (JSON: `null`), never `nan`.
 //! - Rows are written once. When the step counter goes back (a restart), the rows it
 //!   replaces were already written; the new rows follow, with their step going back.
 //! - After truncation, rotation or re-creation the file is read from its start again: its
@@ -300,10 +302,15 @@ fn header(line: &mut String, format: ExportFormat, seg: &Segment) {
     line.push('\n');
 }
 
-/// A number as text that reads back to the same value; non-finite as `nan`, `inf`, `-inf`.
+/// A number as text that reads back to the same value; non-finite as `nan`, `inf`, `-inf`;
+/// an absent value (the row did not write this column) as an empty field (JSON: `null`).
 fn number(line: &mut String, v: f64, json: bool) {
     let q = if json { "\"" } else { "" };
-    if v.is_nan() {
+    if crate::table::is_absent(v) {
+        if json {
+            line.push_str("null");
+        }
+    } else if v.is_nan() {
         let _ = write!(line, "{q}nan{q}");
     } else if v.is_infinite() {
         let sign = if v < 0.0 { "-" } else { "" };
@@ -376,6 +383,11 @@ mod tests {
             s.push(' ');
         }
         assert_eq!(s, "nan \"nan\" inf \"inf\" -inf \"-inf\" ");
+        let mut absent = String::new();
+        number(&mut absent, crate::table::ABSENT, false);
+        absent.push('|');
+        number(&mut absent, crate::table::ABSENT, true);
+        assert_eq!(absent, "|null");
     }
 
     #[test]

@@ -12,7 +12,8 @@
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
-use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, SyncSender};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, SyncSender, TrySendError};
 use std::sync::Arc;
 use std::thread::{self, JoinHandle};
 use std::time::{Duration, Instant};
@@ -60,6 +61,8 @@ pub struct FollowSet {
     control: Sender<Control>,
     events: SyncSender<(SourceId, FollowEvent)>,
     driver: Option<JoinHandle<()>>,
+    /// Set when the set is stopped: the file thread gives up a send to a full channel.
+    stopping: Arc<AtomicBool>,
     next: u32,
     options: FollowOptions,
     clock: Arc<dyn Clock>,
@@ -82,7 +85,9 @@ impl FollowSet {
     ) -> Result<(Self, FollowReceiver), FollowError> {
         let (control, control_rx) = mpsc::channel();
         let (events, events_rx) = mpsc::sync_channel(options.channel_capacity.max(1));
-        let driver = Driver::new(options.clone(), control.clone(), control_rx, events.clone());
+        let stopping = Arc::new(AtomicBool::new(false));
+        let mut driver = Driver::new(options.clone(), control.clone(), control_rx, events.clone());
+        driver.stopping = Arc::clone(&stopping);
         let handle = thread::Builder::new()
             .name("plateau-follow".into())
             .spawn(move || driver.run())
@@ -92,6 +97,7 @@ impl FollowSet {
                 control,
                 events,
                 driver: Some(handle),
+                stopping,
                 next: 0,
                 options,
                 clock,
@@ -161,6 +167,9 @@ impl FollowSet {
     /// Stops the file thread and waits for it. Blocking sources end by themselves when
     /// their input ends or the receiver is dropped.
     pub fn stop(mut self) {
+        // The reader may have stopped reading with the channel full: the flag lets the
+        // thread give up its send, or the join below would wait for ever.
+        self.stopping.store(true, Ordering::Release);
         let _ = self.control.send(Control::Stop);
         if let Some(handle) = self.driver.take() {
             let _ = handle.join();
@@ -171,7 +180,30 @@ impl FollowSet {
 impl Drop for FollowSet {
     fn drop(&mut self) {
         // Not joined: the thread may be waiting for a full channel to be read.
+        self.stopping.store(true, Ordering::Release);
         let _ = self.control.send(Control::Stop);
+    }
+}
+
+/// Sends `item`, waiting while the channel is full, unless `stopping` is set: a reader
+/// that stops reading before it stops the set never leaves the file thread blocked on a
+/// full channel. `false` when the item was not sent (receiver gone, or stopping).
+fn send_unless_stopped<T>(out: &SyncSender<T>, item: T, stopping: &AtomicBool) -> bool {
+    let mut item = item;
+    let mut wait = Duration::from_micros(100);
+    loop {
+        match out.try_send(item) {
+            Ok(()) => return true,
+            Err(TrySendError::Disconnected(_)) => return false,
+            Err(TrySendError::Full(back)) => {
+                if stopping.load(Ordering::Acquire) {
+                    return false;
+                }
+                item = back;
+                thread::sleep(wait);
+                wait = (wait * 2).min(Duration::from_millis(5));
+            }
+        }
     }
 }
 
@@ -229,6 +261,8 @@ struct Driver {
     by_dir: HashMap<PathBuf, Vec<usize>>,
     outbox: Vec<(SourceId, FollowEvent)>,
     events: Vec<FollowEvent>,
+    /// Shared with the set: set when it is stopped.
+    stopping: Arc<AtomicBool>,
 }
 
 impl Driver {
@@ -257,6 +291,7 @@ impl Driver {
             by_dir: HashMap::new(),
             outbox: Vec::new(),
             events: Vec::new(),
+            stopping: Arc::new(AtomicBool::new(false)),
         }
     }
 
@@ -517,7 +552,7 @@ impl Driver {
     /// Sends queued events; `false` if the receiver is gone.
     fn flush(&mut self) -> bool {
         for item in self.outbox.drain(..) {
-            if self.out.send(item).is_err() {
+            if !send_unless_stopped(&self.out, item, &self.stopping) {
                 return false;
             }
         }
@@ -530,6 +565,7 @@ impl Driver {
             entries,
             events,
             out,
+            stopping,
             ..
         } = self;
         for entry in entries.iter_mut() {
@@ -541,7 +577,7 @@ impl Driver {
             for _ in 0..STEPS_PER_TURN {
                 let step = entry.source.step(events);
                 for event in events.drain(..) {
-                    if out.send((entry.id, event)).is_err() {
+                    if !send_unless_stopped(out, (entry.id, event), stopping) {
                         return false;
                     }
                 }
@@ -627,6 +663,36 @@ mod tests {
         let m = wait_for_mode(&rx, |m| matches!(m, WatchMode::PollingFallback { .. }));
         assert!(matches!(m, WatchMode::PollingFallback { reason, .. } if reason.contains("lost")));
         set.stop();
+    }
+
+    /// Found by the 30-minute soak: a reader that stops reading (its run is over) while the
+    /// channel is full, then stops the set, must not wait for ever on the file thread,
+    /// which was blocked sending to the full channel.
+    #[test]
+    fn stop_returns_while_the_channel_is_full() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("run.log");
+        let text: String = (0..200_000).map(|i| format!("{i} {i}.5\n")).collect();
+        std::fs::write(&p, text).unwrap();
+        let options = FollowOptions {
+            channel_capacity: 1,
+            ..FollowOptions::default()
+        };
+        let (mut set, rx) = FollowSet::start(options, Arc::new(SystemClock)).unwrap();
+        set.add_path(&p).unwrap();
+        // Read one event, then stop reading: the file thread fills the channel.
+        rx.recv_timeout(Duration::from_secs(20)).unwrap();
+        thread::sleep(Duration::from_millis(300));
+        let (done_tx, done_rx) = mpsc::channel();
+        thread::spawn(move || {
+            set.stop();
+            let _ = done_tx.send(());
+        });
+        assert!(
+            done_rx.recv_timeout(Duration::from_secs(20)).is_ok(),
+            "stop() did not return with the channel full"
+        );
+        drop(rx);
     }
 
     /// The inotify watch limit reported by the watcher switches to polling and names the limit.

@@ -382,6 +382,14 @@ impl LiveRun {
         }
     }
 
+    /// Every change of every alert (raised, escalated, cleared), in order.
+    pub fn notices(&self) -> &[crate::alert::Notice] {
+        match &self.analysing {
+            Some(a) => a.analyzer.engine().notices(),
+            None => &[],
+        }
+    }
+
     /// Wall-clock second of each alert in [`alerts`](Self::alerts) (the arrival of its row
     /// when known, else when it was raised); shorter when the last alerts are not timed yet.
     pub fn alert_times(&self) -> &[f64] {

@@ -15,7 +15,7 @@ use super::number;
 /// Version of the JSON layout. Raised when a key is removed or changes meaning; adding a
 /// key does not raise it. 3: `stages`; `segments` are the pieces analysed on their own
 /// (one per stage) and `columns` describe the last stage.
-pub const SCHEMA_VERSION: u32 = 3;
+pub const SCHEMA_VERSION: u32 = 4;
 
 /// How many skipped lines are listed in detail.
 pub const SKIPPED_DETAIL_LIMIT: usize = 100;
@@ -361,6 +361,21 @@ pub struct AlertRecord {
     /// Row at which the alert was raised (`row` is the episode's first row).
     #[serde(default)]
     pub raised_row: Option<u64>,
+    /// Last row at which the episode's condition held.
+    #[serde(default)]
+    pub last_row: Option<u64>,
+    /// The value at `last_row`.
+    #[serde(default, with = "number::opt")]
+    pub latest: Option<f64>,
+    /// The value furthest from normal during the episode.
+    #[serde(default, with = "number::opt")]
+    pub peak: Option<f64>,
+    /// Row at which the episode was cleared; null while it lasts.
+    #[serde(default)]
+    pub cleared_row: Option<u64>,
+    /// Simulated time of `cleared_row`, ps.
+    #[serde(default, with = "number::opt")]
+    pub cleared_time: Option<f64>,
 }
 
 impl From<&Alert> for AlertRecord {
@@ -376,6 +391,11 @@ impl From<&Alert> for AlertRecord {
             unit: a.unit.clone(),
             message: a.message.clone(),
             raised_row: a.raised_row,
+            last_row: a.last_row,
+            latest: a.latest,
+            peak: a.peak,
+            cleared_row: a.cleared_row,
+            cleared_time: a.cleared_time,
         }
     }
 }
@@ -394,6 +414,11 @@ impl AlertRecord {
             unit: self.unit.clone(),
             message: self.message.clone(),
             raised_row: self.raised_row,
+            last_row: self.last_row,
+            latest: self.latest,
+            peak: self.peak,
+            cleared_row: self.cleared_row,
+            cleared_time: self.cleared_time,
         }
     }
 }

@@ -385,7 +385,7 @@ fn render_text_raw(r: &Report) -> String {
     } else {
         let _ = writeln!(out, "alerts: {}", r.alerts.len());
         for a in &r.alerts {
-            let _ = writeln!(out, "  {}", a.to_alert().one_line());
+            let _ = writeln!(out, "  {}", a.to_alert().one_line_with_episode());
         }
     }
     out
@@ -453,20 +453,21 @@ fn render_markdown_raw(r: &Report) -> String {
     } else {
         let _ = writeln!(
             out,
-            "| severity | kind | column | line | row | time (ps) | message |"
+            "| severity | kind | column | line | row | time (ps) | message | course |"
         );
-        let _ = writeln!(out, "|---|---|---|---|---|---|---|");
+        let _ = writeln!(out, "|---|---|---|---|---|---|---|---|");
         for a in &r.alerts {
             let _ = writeln!(
                 out,
-                "| {} | {} | {} | {} | {} | {} | {} |",
+                "| {} | {} | {} | {} | {} | {} | {} | {} |",
                 a.severity.name(),
                 a.kind.name(),
                 md_escape(a.column.as_deref().unwrap_or("-")),
                 a.line.map(|l| l.to_string()).unwrap_or_else(|| "-".into()),
                 a.row.map(|l| l.to_string()).unwrap_or_else(|| "-".into()),
                 opt_number(a.time, ""),
-                md_escape(&a.message)
+                md_escape(&a.message),
+                md_escape(&a.to_alert().episode_words())
             );
         }
     }

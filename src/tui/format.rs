@@ -56,6 +56,27 @@ pub fn mean_error(mean: f64, error: Option<f64>) -> String {
     crate::report::value_with_error(mean, error)
 }
 
+/// `mean±error` for a narrow panel: as [`mean_error`] while that keeps the mean to at most
+/// five significant digits; a far smaller error (a drift measured to 10⁻⁶ of itself) gives
+/// the mean to four significant digits and the error to two.
+pub fn compact_mean_error(mean: f64, error: Option<f64>) -> String {
+    let full = mean_error(mean, error).replace(" ± ", "±");
+    let digits = full
+        .split('±')
+        .next()
+        .unwrap_or("")
+        .trim_start_matches(['-', '+', '0', '.'])
+        .chars()
+        .filter(char::is_ascii_digit)
+        .count();
+    match error.filter(|e| e.is_finite() && *e > 0.0) {
+        Some(e) if digits > 5 && mean.is_finite() => {
+            format!("{}±{e:.1e}", crate::alert::format_number(mean, ""))
+        }
+        _ => full,
+    }
+}
+
 /// A simulated time in ps, shown in ps, ns or µs.
 pub fn sim_time(ps: f64) -> String {
     let a = ps.abs();
@@ -201,6 +222,16 @@ pub fn fit_left(text: &str, width: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_tiny_error_does_not_stretch_the_mean() {
+        assert_eq!(compact_mean_error(0.500_001_2, Some(1.6e-6)), "0.5±1.6e-6");
+        assert_eq!(compact_mean_error(-2.345, Some(0.12)), "-2.35±0.12");
+        assert_eq!(
+            compact_mean_error(123.456_78, Some(0.000_4)),
+            "123.5±4.0e-4"
+        );
+    }
     use std::borrow::Cow;
 
     #[test]

@@ -139,7 +139,14 @@ fn alert_line(alert: &Alert, wall: Option<f64>, active: bool) -> AlertLine {
         row: alert.row,
         time: alert.time,
         wall,
-        message: escape(&alert.message).into_owned(),
+        message: {
+            let episode = alert.episode_words();
+            if episode.is_empty() {
+                escape(&alert.message).into_owned()
+            } else {
+                format!("{} [{episode}]", escape(&alert.message))
+            }
+        },
         active,
         also: 0,
     }
@@ -914,7 +921,7 @@ fn summary(run: &LiveRun, charted: Option<&Quantity>, now: f64) -> Vec<Item> {
                 format!(
                     "{}{} {}/ns",
                     if d.slope_per_ns >= 0.0 { "+" } else { "" },
-                    format::mean_error(d.slope_per_ns, Some(half)).replace(" ± ", "±"),
+                    format::compact_mean_error(d.slope_per_ns, Some(half)),
                     escape(&c.unit)
                 ),
             );

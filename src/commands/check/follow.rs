@@ -31,8 +31,9 @@ use std::path::PathBuf;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc::RecvTimeoutError;
 use std::sync::Arc;
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
+use crate::alert::Change;
 use crate::analysis::DEFAULT_KEEP_ROWS;
 use crate::cli::CheckArgs;
 use crate::config::Settings;
@@ -48,15 +49,36 @@ use super::{analysis_options, parse_until, Sinks, EXIT_ALERTS, EXIT_HEALTHY};
 /// How often the loop wakes up without data (stall checks, `--pid`).
 const TICK: Duration = Duration::from_millis(500);
 
-/// Prints the alerts a run raised since `emitted` of them were printed.
+/// After the `--pid` writer exits, following ends once no row arrived for this long
+/// (longer than the one-second stat heartbeat, so the last append is found even without a
+/// file event).
+const DRAIN_QUIET: Duration = Duration::from_millis(1500);
+
+/// Prints the alerts a run raised or escalated since `emitted` of its notices were
+/// handled (an escalated alert is printed again, at its new severity; a cleared one is
+/// not printed).
 fn emit_new(
     run: &LiveRun,
     emitted: &mut usize,
     sinks: &mut Sinks,
     out: &mut dyn Write,
 ) -> Result<(), Error> {
-    let new: Vec<_> = run.alerts().get(*emitted..).unwrap_or_default().to_vec();
-    *emitted += new.len();
+    let notices = run.notices();
+    if *emitted > notices.len() {
+        // The run started over (its file was replaced): its alerts are new ones.
+        *emitted = 0;
+    }
+    let mut changed: Vec<usize> = Vec::new();
+    for n in notices.get(*emitted..).unwrap_or_default() {
+        if n.change != Change::Cleared && !changed.contains(&n.alert) {
+            changed.push(n.alert);
+        }
+    }
+    *emitted = notices.len();
+    let new: Vec<_> = changed
+        .into_iter()
+        .filter_map(|i| run.alerts().get(i).cloned())
+        .collect();
     let job = run.spec().job.as_ref().map(|j| j.id.as_str());
     for a in &new {
         sinks.emit(out, &run.spec().label, job, a)?;
@@ -198,10 +220,17 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let mut emitted = vec![0usize; live.runs().len()];
     let mut errors = false;
     let interrupted = end_on_signals().map_err(Error::Output)?;
+    // When the writer (`--pid`) has exited: when it was seen gone, and when the last row
+    // arrived. Rows it wrote just before exiting are still read before the end.
+    let mut writer_gone: Option<Instant> = None;
+    let mut last_data = Instant::now();
     loop {
         let now = live::now_seconds();
         match rx.recv_timeout(TICK) {
             Ok((source, event)) => {
+                if matches!(event, crate::follow::FollowEvent::Data { .. }) {
+                    last_data = Instant::now();
+                }
                 if let Some((_, Happened::Error { path, message })) = live.apply(source, event, now)
                 {
                     let text = format!("{}: {message}", path.display());
@@ -232,7 +261,16 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 .iter()
                 .all(|r| live::reached(r.table(), u, settings.timestep_ps))
         });
-        let pid_gone = args.pid.is_some_and(|p| !live::process_alive(p));
+        if writer_gone.is_none() && args.pid.is_some_and(|p| !live::process_alive(p)) {
+            writer_gone = Some(Instant::now());
+            // Look at every file now rather than at the next heartbeat.
+            live.poll_now();
+        }
+        // The writer is gone and everything it wrote has been read: no row for a quiet
+        // spell longer than the stat heartbeat, counted from both its exit and the last row.
+        let pid_gone = writer_gone.is_some_and(|gone| {
+            gone.elapsed() >= DRAIN_QUIET && last_data.elapsed() >= DRAIN_QUIET
+        });
         let input_over = stdin_used && live.runs().iter().all(LiveRun::ended);
         let jobs_over = jobs.as_ref().is_some_and(JobFeed::nothing_left)
             && live.runs().iter().all(LiveRun::ended);

@@ -140,6 +140,8 @@ fn raw_environment(alert: &Alert, file: &str, job: Option<&str>) -> Vec<(&'stati
         ),
         ("PLATEAU_ALERT_TIME", num(alert.time)),
         ("PLATEAU_ALERT_VALUE", num(alert.value)),
+        ("PLATEAU_ALERT_LATEST", num(alert.latest)),
+        ("PLATEAU_ALERT_PEAK", num(alert.peak)),
         ("PLATEAU_ALERT_UNIT", alert.unit.clone().unwrap_or_default()),
         ("PLATEAU_ALERT_MESSAGE", alert.message.clone()),
         ("PLATEAU_ALERT_FILE", file.to_string()),
