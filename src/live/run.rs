@@ -310,6 +310,35 @@ impl LiveRun {
         self.stage_hook.as_ref()?.latest()
     }
 
+    /// Judges the stages of rows that came since the last judgement once no row came for
+    /// [`super::stages::QUIET_SECONDS`] (the list then shows every row read, not the rows
+    /// of the last tenth-more judgement). Returns whether it did.
+    fn judge_stages_when_quiet(&mut self, now: f64) -> bool {
+        let (Some(hook), Some(opts), Some(&last)) = (
+            &mut self.stage_hook,
+            &self.analysis_options,
+            self.arrivals.last(),
+        ) else {
+            return false;
+        };
+        if now - last < super::stages::QUIET_SECONDS {
+            return false;
+        }
+        let folded = self
+            .analysing
+            .as_ref()
+            .map_or(0, |a| a.analyzer.rows_forgotten());
+        let table = self.parser.table();
+        let seen = table.rows() as u64 + folded;
+        if hook.latest().is_some_and(|l| l.rows_seen == seen) {
+            return false;
+        }
+        let chain = self.chain.as_ref().map(|c| &c.layout);
+        hook.judge(table, chain, opts, folded, self.ended);
+        self.version += 1;
+        true
+    }
+
     /// Judges the stages when due (see [`super::stages`]).
     fn judge_stages(&mut self) {
         let (Some(hook), Some(opts)) = (&mut self.stage_hook, &self.analysis_options) else {
@@ -619,8 +648,9 @@ impl LiveRun {
     /// Judges stalled output at wall-clock second `now` (not once the input is over).
     /// Returns whether the alerts changed.
     pub fn check_stall(&mut self, now: f64) -> bool {
+        let restaged = self.judge_stages_when_quiet(now);
         if self.ended {
-            return false;
+            return restaged;
         }
         let rows = self.rows_seen();
         let last = self.arrivals.last().copied();

@@ -3,7 +3,8 @@
 //!
 //! The stage list is judged again when the rows seen grew by a tenth (at least
 //! [`MIN_NEW_ROWS`]) since the last judgement, as the run's full statistics are
-//! ([`crate::analysis::Analyzer`]), and always once the run is over: the work stays a small
+//! ([`crate::analysis::Analyzer`]), when no row came for [`QUIET_SECONDS`] after rows
+//! that were not judged yet, and always once the run is over: the work stays a small
 //! multiple of reading the rows once. Once older rows are folded away for memory, the plan
 //! is made on the rows kept, and [`LiveStages::rows_folded`] says how many came before them.
 //! While the plan finds one stage only (most runs), nothing more is done until the run is
@@ -15,6 +16,10 @@ use crate::table::RunTable;
 
 /// New rows, at least, before the stages are judged again.
 pub const MIN_NEW_ROWS: u64 = 50;
+
+/// Seconds without a new row after which the rows that came since the last judgement are
+/// judged too (so a quiet run's list covers every row read).
+pub const QUIET_SECONDS: f64 = 1.0;
 
 /// The stage list of a followed run, as last judged.
 #[derive(Debug, Clone, PartialEq)]

@@ -96,8 +96,7 @@ pub fn force_unit_kj_mol_nm(unit: &str) -> Option<f64> {
         .filter(|c| !matches!(c, ' ' | '·' | '*' | '⋅' | '(' | ')' | '[' | ']' | '^'))
         .collect::<String>()
         .to_lowercase()
-        .replace('−', "-")
-        .replace('⁻', "-")
+        .replace(['−', '⁻'], "-")
         .replace('¹', "1");
     let energies: [(&str, f64); 8] = [
         ("kj/mol", 1.0),
