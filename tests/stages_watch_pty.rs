@@ -38,6 +38,9 @@ fn watch_chain_lists_the_stages_and_moves_on_as_files_appear() {
         t.contains("stages · 2")
             && t.contains("file        2/5 heat.log")
             && t.contains("next        nvt.log (awaited)")
+            && t.contains("min.log (chain of 5)")
+            && t.contains("minimization")
+            && t.contains("heating")
     });
     let first = s.contents();
     assert!(first.contains("min.log (chain of 5)"), "{first}");
