@@ -36,6 +36,64 @@ fn standard_input_ends_the_watch_and_alerts_are_printed() {
     assert!(String::from_utf8_lossy(&out.stderr).contains("-: finished"));
 }
 
+/// Found by trying it: rows written as JSON objects, or behind a row tag with `|`
+/// between fields, piped into `check --follow -` gave 0 rows (the layout was guessed only
+/// for files, from their start), and `check --follow` never guessed a row tag even for a
+/// file. The layout is now guessed from the first lines that arrive, as `report -` does.
+#[test]
+fn standard_input_in_an_undescribed_layout_is_read() {
+    let mut json = String::new();
+    let mut tagged = String::from("# invented run\nDATA|step|time|temperature\n");
+    for i in 0..600 {
+        let t = 300.0 + (i % 5) as f64 * 0.3;
+        if i % 2 == 0 {
+            json.push_str(&format!(
+                "{{\"step\": {}, \"time\": {}, \"temperature\": {t}}}\n",
+                i * 10,
+                i as f64 * 0.02
+            ));
+        } else {
+            json.push_str(&format!("{{\"step\": {}, \"temperature\": {t}}}\n", i * 10));
+        }
+        tagged.push_str(&format!("DATA|{}|{}|{t}\n", i * 10, i as f64 * 0.02));
+        if i % 50 == 0 {
+            tagged.push_str("note: checkpoint written\n");
+        }
+    }
+    // The tagged log as a file: its row tag was not guessed while following (0 rows).
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("tagged.log");
+    std::fs::write(&file, &tagged).unwrap();
+    let mut child = Std::new("sleep").arg("1").spawn().unwrap();
+    let out = Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
+        .arg(child.id().to_string())
+        .arg(&file)
+        .timeout(Duration::from_secs(120))
+        .output()
+        .unwrap();
+    child.wait().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("finished (600 rows"), "{stderr}");
+    for text in [json, tagged] {
+        let out = Command::cargo_bin("plateau")
+            .unwrap()
+            .args(["check", "--follow", "-"])
+            .write_stdin(text.clone())
+            .timeout(Duration::from_secs(120))
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            stderr.contains("-: finished (600 rows"),
+            "{stderr}\n{}",
+            &text[..200]
+        );
+        assert_eq!(out.status.code(), Some(0), "{stderr}");
+    }
+}
+
 #[test]
 fn healthy_input_on_standard_input_exits_0() {
     let text = std::fs::read(fixture("healthy.log")).unwrap();

@@ -209,7 +209,7 @@ impl Live {
             label: spec.label.clone(),
             source,
         })?;
-        Ok(self.push_run(spec, parse, source, analysis))
+        Ok(self.push_run(spec, parse, source, analysis, false))
     }
 
     /// Follows a run whose source is handed over ready-made (a command's output, a
@@ -229,7 +229,7 @@ impl Live {
             })?;
         let parse = self.options.parse.clone();
         let analysis = self.options.analysis.clone();
-        Ok(self.push_run(spec, parse, id, analysis))
+        Ok(self.push_run(spec, parse, id, analysis, false))
     }
 
     fn push_run(
@@ -238,11 +238,18 @@ impl Live {
         parse: ParseOptions,
         source: SourceId,
         analysis: Option<AnalysisOptions>,
+        chain: bool,
     ) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
+        // Without a file to look at first, the layout is guessed from the first lines (a
+        // chain's layout was looked up in its first existing file).
+        let guess_from_lines = spec.source.path().is_none() && !chain;
         let mut run = LiveRun::new(id, spec, parse, analysis, self.options.keep_rows);
         run.set_stage_options(self.stage_options);
+        if guess_from_lines {
+            run.guess_layout_from_first_lines(self.options.guess_row_tag);
+        }
         self.runs.push(run);
         id
     }
@@ -287,7 +294,7 @@ impl Live {
         let Some((&head, rest)) = ids.split_first() else {
             return Err(LiveError::NeedsSource(spec.label));
         };
-        let run = self.push_run(spec, parse, head, analysis);
+        let run = self.push_run(spec, parse, head, analysis, true);
         for (i, id) in std::iter::once(head)
             .chain(rest.iter().copied())
             .enumerate()

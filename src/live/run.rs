@@ -111,6 +111,26 @@ pub enum Happened {
     Mode(WatchMode),
 }
 
+/// The first lines of a source whose layout is still to be guessed.
+#[derive(Debug, Clone)]
+struct PendingLayout {
+    bytes: Vec<u8>,
+    lines: usize,
+    /// Arrival second of the first of them.
+    since: f64,
+    /// Whether the row tag may be guessed too.
+    guess_row_tag: bool,
+}
+
+/// Lines of a source without a file that are looked at before its layout is guessed
+/// (enough for the separator and the row tag, see `parse::sniff`) ...
+const PENDING_LAYOUT_LINES: usize = 200;
+/// ... or bytes ...
+const PENDING_LAYOUT_BYTES: usize = 64 * 1024;
+/// ... or seconds after the first line, whichever comes first (a slow writer's rows are
+/// not held back longer).
+const PENDING_LAYOUT_SECONDS: f64 = 2.0;
+
 /// The analysing part of a run (absent for runs that are only parsed, as `export` does).
 #[derive(Debug, Clone)]
 struct Analysing {
@@ -135,6 +155,9 @@ pub struct LiveRun {
     feed: Feed,
     /// Rows arrived since the last analysis.
     dirty: bool,
+    /// A source with no file to look at first (standard input, a command's output): its
+    /// first lines wait here until its layout is guessed from them.
+    pending_layout: Option<PendingLayout>,
     /// The run is known to be over (its input ended).
     ended: bool,
     /// Wall-clock second of each alert (the arrival of its row when known, else when it
@@ -223,6 +246,7 @@ impl LiveRun {
             history: History::default(),
             feed: Feed::default(),
             dirty: false,
+            pending_layout: None,
             ended: false,
             alert_times: Vec::new(),
             version: 0,
@@ -534,8 +558,55 @@ impl LiveRun {
         self.feed.notice(now, text);
     }
 
+    /// Guesses the layout (separator, row tag, self-named rows) from the first lines that
+    /// arrive, as `report` does from the start of a file: for a source with no file to
+    /// look at beforehand (standard input, a command's output). The options given
+    /// explicitly stay as they are.
+    pub fn guess_layout_from_first_lines(&mut self, guess_row_tag: bool) {
+        if self.parser.table().rows() == 0 {
+            self.pending_layout = Some(PendingLayout {
+                bytes: Vec::new(),
+                lines: 0,
+                since: f64::NAN,
+                guess_row_tag,
+            });
+        }
+    }
+
+    /// Guesses the layout from the lines held back and feeds them.
+    fn settle_layout(&mut self, arrival: f64) {
+        let Some(pending) = self.pending_layout.take() else {
+            return;
+        };
+        let mut guess = crate::parse::sniff::sniff_layout(&pending.bytes, &self.parse);
+        if !pending.guess_row_tag {
+            guess.row_tag = None;
+        }
+        guess.apply(&mut self.parse);
+        self.parser = LogParser::new(self.parse.clone());
+        self.push_lines(&pending.bytes, arrival);
+    }
+
     /// Feeds complete lines that arrived at wall-clock second `arrival`.
     pub fn push_lines(&mut self, bytes: &[u8], arrival: f64) {
+        if let Some(pending) = &mut self.pending_layout {
+            if pending.bytes.is_empty() {
+                pending.since = arrival;
+            }
+            pending.bytes.extend_from_slice(bytes);
+            pending.lines += bytes.iter().filter(|&&b| b == b'\n').count();
+            let waited = arrival - pending.since;
+            if pending.lines >= PENDING_LAYOUT_LINES
+                || pending.bytes.len() >= PENDING_LAYOUT_BYTES
+                || waited >= PENDING_LAYOUT_SECONDS
+            {
+                self.settle_layout(arrival);
+            } else {
+                self.feed.last_data = Some(arrival);
+                self.version += 1;
+            }
+            return;
+        }
         self.parser.feed(bytes);
         if let Some(chain) = &mut self.chain {
             chain.shift_times(&mut self.parser, false);
@@ -555,6 +626,10 @@ impl LiveRun {
 
     /// The input is over: an unfinished last line is ignored, the run is finished.
     pub fn finish(&mut self) {
+        if self.pending_layout.is_some() {
+            let at = self.feed.last_data.unwrap_or_else(super::now_seconds);
+            self.settle_layout(at);
+        }
         self.parser.finish();
         self.ended = true;
         self.dirty = true;
@@ -592,6 +667,13 @@ impl LiveRun {
     pub fn analyse(&mut self) -> bool {
         if self.chain.is_some() {
             self.advance_chain(super::now_seconds(), false);
+        }
+        // Lines held back for the layout guess wait at most a couple of seconds.
+        if let Some(p) = &self.pending_layout {
+            let now = super::now_seconds();
+            if !p.bytes.is_empty() && now - p.since >= PENDING_LAYOUT_SECONDS {
+                self.settle_layout(now);
+            }
         }
         if !self.dirty {
             return false;

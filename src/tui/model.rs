@@ -141,10 +141,11 @@ fn alert_line(alert: &Alert, wall: Option<f64>, active: bool) -> AlertLine {
         wall,
         message: {
             let episode = alert.episode_words();
+            // The course first: a long message is cut at the panel's edge.
             if episode.is_empty() {
                 escape(&alert.message).into_owned()
             } else {
-                format!("{} [{episode}]", escape(&alert.message))
+                format!("[{episode}] {}", escape(&alert.message))
             }
         },
         active,

@@ -188,7 +188,7 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
         analysis: Some(opts),
         keep_rows,
         follow: follow.clone(),
-        guess_row_tag: false,
+        guess_row_tag: settings.parse.row_tag.is_none(),
     };
     let clock = Arc::new(SystemClock);
     let (mut live, rx) =
