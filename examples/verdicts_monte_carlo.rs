@@ -202,7 +202,7 @@ fn main() {
         "- Runaway: growth is judged over windows of {:?} rows, each against the median and \
          robust SD of the rows before it; a window catches growth that is tenfold across it \
          and still accelerating: e-folding times up to about {} rows (window − 1)/ln 10. That \
-         is the slowest growth caught: {} rows per e-folding time (a tenfold rise every {} \
+         is the slowest growth caught: {:.0} rows per e-folding time (a tenfold rise every {} \
          rows). A far excursion ({} robust SDs of the rows just before it, for {} rows) is \
          also a runaway; it does not catch slower growth, whose recent rows rise with it. One \
          episode is one alert, cleared only after {} rows with no row flagged.",
@@ -212,12 +212,9 @@ fn main() {
             .map(|w| format!("{:.0}", (*w as f64 - 1.0) / std::f64::consts::LN_10))
             .collect::<Vec<_>>()
             .join(", "),
-        format!(
-            "{:.0}",
-            (plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1] as f64
-                - 1.0)
-                / std::f64::consts::LN_10
-        ),
+        (plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1] as f64
+            - 1.0)
+            / std::f64::consts::LN_10,
         plateau::analysis::runaway_windows(20)[plateau::analysis::RUNAWAY_SCALES - 1] - 1,
         plateau::analysis::RUNAWAY_FAR_SIGMAS,
         plateau::analysis::RUNAWAY_FAR_ROWS,

@@ -155,11 +155,16 @@ pub struct ReportArgs {
 #[derive(Debug, Clone, Default, Args)]
 pub struct StageArgs {
     /// Read the files as consecutive stages of one system, in the order given (time may
-    /// continue from file to file or restart in each).
+    /// continue from file to file or restart in each). Following (`check --follow`,
+    /// `watch`), the earlier files are read as they are, the last existing one is
+    /// followed, and a later one that does not exist yet is waited for: following moves on
+    /// to it once it appears.
     #[arg(long)]
     pub chain: bool,
     /// A minimization has converged once its force column stays at or below this value, in
-    /// the log's own force unit (default 1000).
+    /// kJ/mol/nm (default 1000), converted to the column's unit when its header states an
+    /// energy per length (kcal/mol/Å, eV/Å...); a column with no stated unit is compared
+    /// with the number as it is.
     #[arg(long, value_name = "FORCE")]
     pub min_force_tolerance: Option<f64>,
     /// Without a force column, a minimization has converged once its energy changes by at
@@ -347,6 +352,9 @@ pub struct WatchArgs {
     /// Targets and thresholds.
     #[command(flatten)]
     pub alerts: AlertArgs,
+    /// Stages: chains of logs and minimization tolerances.
+    #[command(flatten)]
+    pub stages: StageArgs,
     /// Check the files by polling instead of file events (network filesystems: NFS,
     /// Lustre, GPFS).
     #[arg(long)]

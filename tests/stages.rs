@@ -289,3 +289,39 @@ fn cli_chain_and_its_usage_error() {
         String::from_utf8_lossy(&out.stdout)
     );
 }
+
+/// A force column known only by its unit (kcal/mol/Å, no force word in its name): found,
+/// and the default tolerance (1000 kJ mol⁻¹ nm⁻¹, common practice) converted to its unit
+/// (1 kcal/mol/Å = 41.84 kJ mol⁻¹ nm⁻¹: thermochemical calorie, NIST SP 811, exact). The
+/// planted force decays as f0·exp(−s/λ) in kJ mol⁻¹ nm⁻¹, so it meets 1000 at
+/// s = λ·ln(f0/1000); compared in the column's own unit without conversion it would meet
+/// the tolerance far earlier.
+#[test]
+fn a_force_column_found_by_its_unit_gets_the_tolerance_in_that_unit() {
+    let (f0, lambda, every) = (2.0e5_f64, 200.0_f64, 10u64);
+    let mut text = String::from("# step  potential[kJ/mol]  maxF[kcal/mol/Å]\n");
+    for i in 0..150u64 {
+        let s = (i * every) as f64;
+        let decay = (-s / lambda).exp();
+        let e = -4.6e4 + 3.0e4 * decay;
+        let f = f0 * decay / 41.84;
+        text.push_str(&format!("{:>8}  {e:>14.4}  {f:>12.6}\n", i * every));
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let path = write(&dir, "min.log", &text);
+    let r = report(&[path], &AlertArgs::default());
+    assert_eq!(r.stages.len(), 1, "{:#?}", r.stages);
+    let m = r.stages[0].minimization.as_ref().unwrap();
+    assert_eq!(m.force_column.as_deref(), Some("maxF"));
+    assert!(
+        (m.force_tolerance - 1000.0 / 41.84).abs() < 1e-9,
+        "{}",
+        m.force_tolerance
+    );
+    let truth = lambda * (f0 / 1000.0).ln();
+    let step = m.converged_step.unwrap();
+    assert!(
+        (step - truth).abs() <= every as f64,
+        "converged at step {step}, planted {truth}"
+    );
+}

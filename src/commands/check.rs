@@ -306,11 +306,6 @@ pub fn run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
                 .to_string(),
         ));
     }
-    if args.follow && args.stages.chain {
-        return Err(Error::Usage(
-            "--chain reads finished logs; it does not combine with --follow yet".to_string(),
-        ));
-    }
     if args.follow {
         return follow::follow_run(args, out);
     }

@@ -80,10 +80,11 @@ pub fn analyse_run(
     let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
     let staged = if tables.len() == 1 {
         let table = tables.pop().unwrap_or_default();
-        stages::judge(&table, None, &opts, &sopts)
+        stages::judge_owned(table, None, &opts, &sopts)
     } else {
-        let chain = chain::join(tables);
-        stages::judge(&chain.table, Some((&names, &chain)), &opts, &sopts)
+        let mut chain = chain::join(tables);
+        let table = std::mem::take(&mut chain.table);
+        stages::judge_owned(table, Some((&names, &chain)), &opts, &sopts)
     };
     let statistics = t1.elapsed().as_secs_f64();
     let bytes = files

@@ -61,9 +61,16 @@ pub fn run(args: &WatchArgs) -> Result<u8, Error> {
     let clock = Arc::new(SystemClock);
     let (mut live, rx) =
         Live::start(options, clock.clone()).map_err(|e| Error::Usage(e.to_string()))?;
-    for arg in &args.files {
-        live.add_argument(arg)
+    live.set_stage_options(super::report::stage_options(&args.stages)?);
+    if args.stages.chain {
+        super::check::follow::chain_files(&args.files)?;
+        live.add_chain(&args.files)
             .map_err(|e| Error::Usage(e.to_string()))?;
+    } else {
+        for arg in &args.files {
+            live.add_argument(arg)
+                .map_err(|e| Error::Usage(e.to_string()))?;
+        }
     }
     // The commands die with plateau (see follow::CommandSource); nothing to end here.
     sources::start_commands(&mut live, &commands, &follow, clock.clone())?;

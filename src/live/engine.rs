@@ -10,6 +10,7 @@ use crate::follow::{
     Clock, FollowError, FollowEvent, FollowOptions, FollowReceiver, FollowSet, Source, SourceId,
 };
 use crate::parse::ParseOptions;
+use crate::stages::StageOptions;
 
 use super::run::{Happened, LiveRun};
 use super::{sniff_layout, RunId, RunSource, RunSpec};
@@ -49,6 +50,9 @@ pub enum LiveError {
     /// A run whose source must be handed over with `Live::add_source`.
     #[error("{0}: this source is handed over ready-made (Live::add_source)")]
     NeedsSource(String),
+    /// `--chain` with no file.
+    #[error("--chain needs at least one log file")]
+    EmptyChain,
     /// A glob pattern that does not parse.
     #[error("'{pattern}' is not a valid file pattern: {message}")]
     Pattern { pattern: String, message: String },
@@ -72,6 +76,10 @@ pub struct Live {
     paths: HashSet<PathBuf>,
     stdin_taken: bool,
     patterns: Vec<Pattern>,
+    /// How stages are judged (minimization tolerances), for every run.
+    stage_options: StageOptions,
+    /// Sources that are a file of a chain: their place in it.
+    chain_files: HashMap<SourceId, usize>,
 }
 
 impl std::fmt::Debug for Live {
@@ -107,6 +115,8 @@ impl Live {
                 paths: HashSet::new(),
                 stdin_taken: false,
                 patterns: Vec::new(),
+                stage_options: StageOptions::default(),
+                chain_files: HashMap::new(),
             },
             rx,
         ))
@@ -115,6 +125,15 @@ impl Live {
     /// The options in use.
     pub fn options(&self) -> &LiveOptions {
         &self.options
+    }
+
+    /// Judges the stages of every run, now and later, with `options` (minimization
+    /// tolerances; the defaults otherwise).
+    pub fn set_stage_options(&mut self, options: StageOptions) {
+        self.stage_options = options;
+        for run in &mut self.runs {
+            run.set_stage_options(options);
+        }
     }
 
     /// Every run, in the order added (a [`RunId`] indexes this slice).
@@ -190,7 +209,7 @@ impl Live {
             label: spec.label.clone(),
             source,
         })?;
-        Ok(self.push_run(spec, parse, source, analysis))
+        Ok(self.push_run(spec, parse, source, analysis, false))
     }
 
     /// Follows a run whose source is handed over ready-made (a command's output, a
@@ -210,7 +229,7 @@ impl Live {
             })?;
         let parse = self.options.parse.clone();
         let analysis = self.options.analysis.clone();
-        Ok(self.push_run(spec, parse, id, analysis))
+        Ok(self.push_run(spec, parse, id, analysis, false))
     }
 
     fn push_run(
@@ -219,17 +238,74 @@ impl Live {
         parse: ParseOptions,
         source: SourceId,
         analysis: Option<AnalysisOptions>,
+        chain: bool,
     ) -> RunId {
         let id = RunId(self.runs.len());
         self.sources.insert(source, id);
-        // Without a file to look at first, the layout is guessed from the first lines.
-        let guess_from_lines = spec.source.path().is_none();
+        // Without a file to look at first, the layout is guessed from the first lines (a
+        // chain's layout was looked up in its first existing file).
+        let guess_from_lines = spec.source.path().is_none() && !chain;
         let mut run = LiveRun::new(id, spec, parse, analysis, self.options.keep_rows);
+        run.set_stage_options(self.stage_options);
         if guess_from_lines {
             run.guess_layout_from_first_lines(self.options.guess_row_tag);
         }
         self.runs.push(run);
         id
+    }
+
+    /// Follows `files` as one run: consecutive stages of one system, in the order given
+    /// (`--chain`; see [`super::chain`]). The run is named after the first file; files
+    /// that do not exist yet are waited for.
+    pub fn add_chain(&mut self, files: &[PathBuf]) -> Result<RunId, LiveError> {
+        let Some(first) = files.first() else {
+            return Err(LiveError::EmptyChain);
+        };
+        let mut parse = self.options.parse.clone();
+        if let Some(path) = files.iter().find(|p| p.is_file()) {
+            if let Some(mut guess) = sniff_layout(path, &parse) {
+                if !self.options.guess_row_tag {
+                    guess.row_tag = None;
+                }
+                guess.apply(&mut parse);
+            }
+        }
+        let mut spec = RunSpec::new(RunSource::Other(format!(
+            "a chain of {} files",
+            files.len()
+        )));
+        spec.label = match files.len() {
+            1 => first.display().to_string(),
+            n => format!("{} (chain of {n})", first.display()),
+        };
+        let mut ids = Vec::with_capacity(files.len());
+        for p in files {
+            let id = self
+                .set
+                .add_path(p.clone())
+                .map_err(|source| LiveError::Add {
+                    label: p.display().to_string(),
+                    source,
+                })?;
+            self.paths.insert(p.clone());
+            ids.push(id);
+        }
+        let analysis = self.options.analysis.clone();
+        let Some((&head, rest)) = ids.split_first() else {
+            return Err(LiveError::NeedsSource(spec.label));
+        };
+        let run = self.push_run(spec, parse, head, analysis, true);
+        for (i, id) in std::iter::once(head)
+            .chain(rest.iter().copied())
+            .enumerate()
+        {
+            self.sources.insert(id, run);
+            self.chain_files.insert(id, i);
+        }
+        if let Some(r) = self.runs.get_mut(run.0) {
+            r.set_chain(files.to_vec());
+        }
+        Ok(run)
     }
 
     /// Follows what a command-line argument names: `-` (standard input), a glob pattern
@@ -285,7 +361,10 @@ impl Live {
     ) -> Option<(RunId, Happened)> {
         let id = *self.sources.get(&source)?;
         let run = self.runs.get_mut(id.0)?;
-        Some((id, run.apply(event, now)))
+        match self.chain_files.get(&source) {
+            Some(&i) => Some((id, run.apply_chain(i, event, now))),
+            None => Some((id, run.apply(event, now))),
+        }
     }
 
     /// Analyses every run that has new rows. Returns those runs.

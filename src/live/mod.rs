@@ -11,6 +11,10 @@
 //!   events routed to their run, glob patterns that find more runs as files appear.
 //! - [`bound_memory`] (`memory.rs`): folding the oldest rows past the memory cap.
 //! - [`History`] (`history.rs`): min/max/mean buckets of forgotten rows, for charts.
+//! - [`LiveStages`] (`stages.rs`): the run's stage list, judged as `report` judges a
+//!   finished file, again after every tenth more rows and once at the end.
+//! - [`ChainFollow`] (`chain.rs`): a chain of files (`--chain`) followed as one run, one
+//!   file live at a time, the next one waited for; time continued as `report --chain` does.
 //! - `end.rs`: when following can end (`--until` reached, `--pid` exited).
 //!
 //! Driving it (no thread of its own: the caller decides where it runs):
@@ -25,22 +29,26 @@
 //! }
 //! ```
 
+mod chain;
 mod end;
 mod engine;
 mod history;
 mod memory;
 mod run;
 mod source;
+mod stages;
 
 use std::path::Path;
 use std::time::{SystemTime, UNIX_EPOCH};
 
+pub use chain::{ChainFollow, QUIET_SECONDS};
 pub use end::{process_alive, reached};
 pub use engine::{is_pattern, Live, LiveError, LiveOptions, Pattern};
 pub use history::{Bucket, Envelope, History, SeriesView, HISTORY_BUCKETS};
 pub use memory::{bound_memory, bound_memory_with_history, folding_note};
 pub use run::{Feed, Happened, LiveRun, Notice, Presence};
 pub use source::{RunId, RunJob, RunSource, RunSpec};
+pub use stages::{ChainFiles, LiveStages, MIN_NEW_ROWS};
 
 /// Seconds since the Unix epoch (0 for a time before it).
 pub fn seconds(t: SystemTime) -> f64 {

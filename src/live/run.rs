@@ -15,9 +15,12 @@ use crate::parse::{LogParser, ParseOptions};
 use crate::report::{build_report, Report, SourceInfo};
 use crate::table::RunTable;
 
+use super::chain::{ChainFollow, Route};
 use super::history::SeriesView;
 use super::memory::{bound_memory_with_history, folding_note};
+use super::stages::{LiveStages, StageHook};
 use super::{History, RunId, RunSpec};
+use crate::stages::StageOptions;
 
 /// Recent notable follower events kept per run (truncation, rotation, errors...).
 const NOTICES_KEPT: usize = 20;
@@ -162,6 +165,33 @@ pub struct LiveRun {
     alert_times: Vec<f64>,
     /// Bumped on every change a viewer may want to redraw for.
     version: u64,
+    /// The stage list, judged as the rows come (analysed runs only).
+    stage_hook: Option<StageHook>,
+    /// The files of a chain (`--chain`), one live at a time.
+    chain: Option<ChainFollow>,
+}
+
+/// What an event kept aside for a later file of a chain would do (nothing yet).
+fn happened_of(event: &FollowEvent) -> Happened {
+    match event {
+        FollowEvent::Data {
+            first_line, lines, ..
+        } => Happened::Lines {
+            first_line: *first_line,
+            lines: *lines,
+        },
+        FollowEvent::Truncated { dropped } => Happened::Truncated { dropped: *dropped },
+        FollowEvent::Rotated { dropped } => Happened::Rotated { dropped: *dropped },
+        FollowEvent::Deleted { dropped } => Happened::Deleted { dropped: *dropped },
+        FollowEvent::Waiting => Happened::Waiting,
+        FollowEvent::Appeared => Happened::Appeared,
+        FollowEvent::EndOfInput { dropped } => Happened::Ended { dropped: *dropped },
+        FollowEvent::Error { path, message } => Happened::Error {
+            path: path.clone(),
+            message: message.clone(),
+        },
+        FollowEvent::Mode(m) => Happened::Mode(m.clone()),
+    }
 }
 
 fn describe_dropped(dropped: Option<Partial>) -> String {
@@ -197,6 +227,9 @@ impl LiveRun {
         analysis: Option<AnalysisOptions>,
         keep_rows: usize,
     ) -> LiveRun {
+        let stage_hook = analysis
+            .is_some()
+            .then(|| StageHook::new(StageOptions::default()));
         LiveRun {
             id,
             spec,
@@ -217,6 +250,132 @@ impl LiveRun {
             ended: false,
             alert_times: Vec::new(),
             version: 0,
+            stage_hook,
+            chain: None,
+        }
+    }
+
+    /// Makes this run a chain of `files` (consecutive stages of one system, in order; see
+    /// [`super::chain`]); the events of file `i` are handed over with
+    /// [`apply_chain`](Self::apply_chain).
+    pub fn set_chain(&mut self, files: Vec<PathBuf>) {
+        self.chain = Some(ChainFollow::new(files));
+    }
+
+    /// The chain this run follows, if it is one.
+    pub fn chain(&self) -> Option<&ChainFollow> {
+        self.chain.as_ref()
+    }
+
+    /// Hands one follower event of file `index` of the chain to the run (a run that is no
+    /// chain takes it as [`apply`](Self::apply) does).
+    pub fn apply_chain(&mut self, index: usize, event: FollowEvent, now: f64) -> Happened {
+        let Some(chain) = &mut self.chain else {
+            return self.apply(event, now);
+        };
+        let happened = happened_of(&event);
+        let out = match chain.route(index, event, now) {
+            Route::Live(event) => self.apply(event, now),
+            Route::KeptAside => happened,
+            Route::Late(name) => {
+                self.feed.notice(
+                    now,
+                    format!("{name} grew after following moved past it; its new rows are not read"),
+                );
+                self.version += 1;
+                happened
+            }
+            Route::Ignored => happened,
+        };
+        self.advance_chain(now, false);
+        out
+    }
+
+    /// Moves a chain on to its next files while they are ready (`force`: every file seen
+    /// to exist, at the end of following).
+    fn advance_chain(&mut self, now: f64, force: bool) {
+        loop {
+            let Some(chain) = &mut self.chain else {
+                return;
+            };
+            let quiet = self.feed.last_data.map(|t| now - t);
+            if !chain.ready_to_move(self.feed.bytes_read, quiet, force) {
+                return;
+            }
+            let kept = chain.move_on(&mut self.parser);
+            let name = chain
+                .live_file()
+                .map(|p| p.display().to_string())
+                .unwrap_or_default();
+            let (k, n) = (chain.live() + 1, chain.files().len());
+            self.feed.bytes_read = 0;
+            self.feed.size = None;
+            self.feed.presence = Presence::Reading;
+            self.feed
+                .notice(now, format!("now reading {name} (file {k} of {n})"));
+            self.dirty = true;
+            self.version += 1;
+            for (event, at) in kept {
+                self.apply(event, at);
+            }
+        }
+    }
+
+    /// Judges the stages with `options` (minimization tolerances) instead of the defaults.
+    pub fn set_stage_options(&mut self, options: StageOptions) {
+        if self.stage_hook.is_some() {
+            self.stage_hook = Some(StageHook::new(options));
+        }
+    }
+
+    /// The stage list as last judged (none before the first rows were analysed, and for
+    /// runs that are only parsed).
+    pub fn stages(&self) -> Option<&LiveStages> {
+        self.stage_hook.as_ref()?.latest()
+    }
+
+    /// Judges the stages of rows that came since the last judgement once no row came for
+    /// [`super::stages::QUIET_SECONDS`] (the list then shows every row read, not the rows
+    /// of the last tenth-more judgement). Returns whether it did.
+    fn judge_stages_when_quiet(&mut self, now: f64) -> bool {
+        let (Some(hook), Some(opts), Some(&last)) = (
+            &mut self.stage_hook,
+            &self.analysis_options,
+            self.arrivals.last(),
+        ) else {
+            return false;
+        };
+        if now - last < super::stages::QUIET_SECONDS {
+            return false;
+        }
+        let folded = self
+            .analysing
+            .as_ref()
+            .map_or(0, |a| a.analyzer.rows_forgotten());
+        let table = self.parser.table();
+        let seen = table.rows() as u64 + folded;
+        if hook.latest().is_some_and(|l| l.rows_seen == seen) {
+            return false;
+        }
+        let chain = self.chain.as_ref().map(|c| &c.layout);
+        hook.judge(table, chain, opts, folded, self.ended);
+        self.version += 1;
+        true
+    }
+
+    /// Judges the stages when due (see [`super::stages`]).
+    fn judge_stages(&mut self) {
+        let (Some(hook), Some(opts)) = (&mut self.stage_hook, &self.analysis_options) else {
+            return;
+        };
+        let folded = self
+            .analysing
+            .as_ref()
+            .map_or(0, |a| a.analyzer.rows_forgotten());
+        let table = self.parser.table();
+        if hook.due(table.rows() as u64 + folded, self.ended) {
+            let chain = self.chain.as_ref().map(|c| &c.layout);
+            hook.judge(table, chain, opts, folded, self.ended);
         }
     }
 
@@ -338,7 +497,11 @@ impl LiveRun {
                 let at = super::seconds(arrival);
                 self.feed.presence = Presence::Reading;
                 self.feed.bytes_read += bytes.len() as u64;
-                if let Some(path) = self.spec.source.path() {
+                let path = match &self.chain {
+                    Some(c) => c.live_file().map(|p| p.as_path()),
+                    None => self.spec.source.path(),
+                };
+                if let Some(path) = path {
                     self.feed.size = std::fs::metadata(path).ok().map(|m| m.len());
                 }
                 self.push_lines(&bytes, at);
@@ -459,6 +622,9 @@ impl LiveRun {
             return;
         }
         self.parser.feed(bytes);
+        if let Some(chain) = &mut self.chain {
+            chain.shift_times(&mut self.parser, false);
+        }
         let rows = self.parser.table().rows();
         if self.arrivals.len() > rows {
             // A restart cut rows: their arrivals go too.
@@ -495,6 +661,9 @@ impl LiveRun {
             a.analyzer = Analyzer::new(opts.clone());
             a.latest = None;
         }
+        if let Some(h) = &mut self.stage_hook {
+            *h = StageHook::new(h.options());
+        }
         self.version += 1;
     }
 
@@ -510,6 +679,9 @@ impl LiveRun {
     /// Brings the analysis up to date if rows arrived since the last one, then folds the
     /// oldest rows past the memory cap. Returns whether an analysis ran.
     pub fn analyse(&mut self) -> bool {
+        if self.chain.is_some() {
+            self.advance_chain(super::now_seconds(), false);
+        }
         self.settle_layout_if_due(super::now_seconds());
         if !self.dirty {
             return false;
@@ -526,6 +698,10 @@ impl LiveRun {
         );
         a.latest = Some(analysis);
         time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.judge_stages();
+        let Some(a) = &mut self.analysing else {
+            return false;
+        };
         bound_memory_with_history(
             &mut self.parser,
             &mut a.analyzer,
@@ -540,6 +716,12 @@ impl LiveRun {
     /// The final analysis once following is over: the remaining rows are judged as a
     /// finished file's would be.
     pub fn conclude(&mut self) -> Option<&RunAnalysis> {
+        if self.chain.is_some() {
+            self.advance_chain(super::now_seconds(), true);
+            if let Some(chain) = &mut self.chain {
+                chain.shift_times(&mut self.parser, true);
+            }
+        }
         self.parser.finish();
         self.ended = true;
         let a = self.analysing.as_mut()?;
@@ -548,15 +730,17 @@ impl LiveRun {
             .update(self.parser.table(), true, Some(&self.arrivals), true);
         a.latest = Some(analysis);
         time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.judge_stages();
         self.version += 1;
-        a.latest.as_ref()
+        self.analysis()
     }
 
     /// Judges stalled output at wall-clock second `now` (not once the input is over).
     /// Returns whether the alerts changed.
     pub fn check_stall(&mut self, now: f64) -> bool {
+        let restaged = self.judge_stages_when_quiet(now);
         if self.ended {
-            return false;
+            return restaged;
         }
         let rows = self.rows_seen();
         let last = self.arrivals.last().copied();

@@ -255,6 +255,25 @@ impl LogParser {
         }
     }
 
+    /// The table, to change in place (a chain being followed shifts the times of a file
+    /// whose time restarts; see `live::chain`).
+    pub fn table_mut(&mut self) -> &mut RunTable {
+        &mut self.table
+    }
+
+    /// Ends the current file and goes on with the next file of a chain (consecutive
+    /// stages of one system, each file a log of its own): the input so far is finished as
+    /// [`finish`](Self::finish) does, and the next file's rows start a segment of their
+    /// own (its header is looked for afresh) with line numbers counted from 1 again, as
+    /// when each file is read on its own and the tables joined (`stages::chain::join`).
+    pub fn new_file(&mut self) {
+        self.finish();
+        self.current = None;
+        self.clear_candidates();
+        self.skip_lf = false;
+        self.lines_done = 0;
+    }
+
     /// Starts over with an empty table and the same options (a truncated or re-created
     /// file is read again from its start).
     pub fn reset(&mut self) {

@@ -205,17 +205,97 @@ fn equilibration_verdict(a: &RunAnalysis, unstable: bool) -> (String, String) {
     (v.to_string(), format!("{d}; status {}", a.status.name()))
 }
 
+/// The files of a chain: their names and where each file's segments begin (`None` for
+/// one log).
+pub type ChainFiles<'a> = Option<(&'a [String], &'a super::chain::Chain)>;
+
 /// Cuts `table` into stages, analyses them and gives each its kind and verdict. `files`:
 /// the chain's file names and the index of each file's first segment (`None` for one log).
 pub fn judge(
     table: &RunTable,
-    files: Option<(&[String], &super::chain::Chain)>,
+    files: ChainFiles<'_>,
     opts: &AnalysisOptions,
     sopts: &StageOptions,
 ) -> StagedRun {
+    let (pieces, split) = cut(table, files, sopts);
+    let judged = judge_pieces(split.as_ref().unwrap_or(table), &pieces, files, opts);
+    judged.into_run(split.unwrap_or_else(|| table.clone()))
+}
+
+/// [`judge`] on a table handed over: when every stage is a whole segment (one log of one
+/// stage, most runs) the table is kept as it is, not copied.
+pub fn judge_owned(
+    table: RunTable,
+    files: ChainFiles<'_>,
+    opts: &AnalysisOptions,
+    sopts: &StageOptions,
+) -> StagedRun {
+    let (pieces, split) = cut(&table, files, sopts);
+    let judged = judge_pieces(split.as_ref().unwrap_or(&table), &pieces, files, opts);
+    judged.into_run(split.unwrap_or(table))
+}
+
+/// The stage list alone (a followed run's: see `live::stages`), with no copy of the table
+/// when every stage is a whole segment.
+pub fn stage_list(
+    table: &RunTable,
+    files: ChainFiles<'_>,
+    opts: &AnalysisOptions,
+    sopts: &StageOptions,
+) -> Vec<StageRecord> {
+    let (pieces, split) = cut(table, files, sopts);
+    judge_pieces(split.as_ref().unwrap_or(table), &pieces, files, opts).stages
+}
+
+/// The stage pieces of `table`, and the table with one segment per piece when that is not
+/// the table itself (`None`: every piece is a whole segment, in order).
+fn cut(
+    table: &RunTable,
+    files: ChainFiles<'_>,
+    sopts: &StageOptions,
+) -> (Vec<Piece>, Option<RunTable>) {
     let file_starts = files.map(|(_, c)| c.file_starts()).unwrap_or_default();
     let pieces = super::plan(table, &file_starts, sopts);
-    let staged = super::split_table(table, &pieces);
+    let whole = pieces.len() == table.segments.len()
+        && pieces.iter().enumerate().all(|(i, p)| {
+            p.segment == i
+                && p.rows.start == 0
+                && table
+                    .segments
+                    .get(i)
+                    .is_some_and(|s| p.rows.end == s.rows())
+        });
+    let split = (!whole).then(|| super::split_table(table, &pieces));
+    (pieces, split)
+}
+
+/// What judging gives, before the table is attached.
+struct Judged {
+    stages: Vec<StageRecord>,
+    analysis: RunAnalysis,
+    alerts: Vec<Alert>,
+    all_alerts: Vec<Alert>,
+}
+
+impl Judged {
+    fn into_run(self, table: RunTable) -> StagedRun {
+        StagedRun {
+            table,
+            stages: self.stages,
+            analysis: self.analysis,
+            alerts: self.alerts,
+            all_alerts: self.all_alerts,
+        }
+    }
+}
+
+/// Judges the stages of `staged`: one segment per piece of `pieces`.
+fn judge_pieces(
+    staged: &RunTable,
+    pieces: &[Piece],
+    files: ChainFiles<'_>,
+    opts: &AnalysisOptions,
+) -> Judged {
     let directed: Vec<usize> = pieces
         .iter()
         .enumerate()
@@ -225,14 +305,14 @@ pub fn judge(
     let mut top = opts.clone();
     top.directed_segments = directed.clone();
     let mut analyzer = Analyzer::new(top);
-    let analysis = analyzer.update(&staged, true, None, false);
+    let analysis = analyzer.update(staged, true, None, false);
     let alerts = analyzer.engine().alerts_by_row();
     let all_alerts = analyzer.engine().alerts().to_vec();
 
     let mut stages = Vec::new();
     let mut first_row = 0u64;
     let last = staged.segments.len().saturating_sub(1);
-    for (i, (seg, p)) in staged.segments.iter().zip(&pieces).enumerate() {
+    for (i, (seg, p)) in staged.segments.iter().zip(pieces).enumerate() {
         let rows = seg.rows() as u64;
         let times = time_values(seg);
         let file = files.and_then(|(names, chain)| {
@@ -334,8 +414,7 @@ pub fn judge(
         stages.push(rec);
         first_row += rows;
     }
-    StagedRun {
-        table: staged,
+    Judged {
         stages,
         analysis,
         alerts,

@@ -8,8 +8,9 @@
 //! Convergence (defaults common practice, no source; both overridable with
 //! `--min-force-tolerance` and `--min-energy-tolerance`):
 //! - with a force column, converged from the first row after which the force stays at or
-//!   below [`DEFAULT_FORCE_TOLERANCE`] (in the log's own force unit; 1000 kJ mol⁻¹ nm⁻¹ is a
-//!   common tolerance before dynamics);
+//!   below [`DEFAULT_FORCE_TOLERANCE`] (1000 kJ mol⁻¹ nm⁻¹, a common tolerance before
+//!   dynamics; converted to the column's unit when its header states an energy per length
+//!   such as kcal/mol/Å or eV/Å, compared as it is otherwise);
 //! - without one, converged from the first row after which the energy changes by at most
 //!   [`DEFAULT_ENERGY_TOLERANCE`] of its size per step.
 //!
@@ -20,8 +21,13 @@
 
 use serde::{Deserialize, Serialize};
 
-/// Default force tolerance, in the log's force unit (common practice, no source).
+/// Default force tolerance, kJ mol⁻¹ nm⁻¹ (common practice, no source); converted to the
+/// force column's unit when its header states one ([`force_unit_kj_mol_nm`]), compared as
+/// it is with a column of no stated unit.
 pub const DEFAULT_FORCE_TOLERANCE: f64 = 1000.0;
+
+/// Bohr radius in nm (CODATA 2018: 5.29177210903(80)e-11 m; value from memory).
+pub const BOHR_NM: f64 = 0.052_917_721_090_3;
 /// Default energy tolerance: relative change per step (common practice, no source).
 pub const DEFAULT_ENERGY_TOLERANCE: f64 = 1e-6;
 /// A stalled descent: the force is still this many times the tolerance (common practice,
@@ -75,6 +81,61 @@ pub fn force_kind(name: &str) -> Option<ForceKind> {
     } else {
         ForceKind::Max
     })
+}
+
+/// How many kJ mol⁻¹ nm⁻¹ one unit of a force column is, when the unit (as written in the
+/// header: `kJ/mol/nm`, `kJ mol-1 nm-1`, `kJ/(mol·nm)`, `kcal/mol/Å`, `kcal/mol/A`, `eV/Å`,
+/// `eV/nm`, `Hartree/Bohr`, any case) is an energy per length; `None` otherwise. Factors
+/// from the exact constants of [`crate::units::constants`] (the Bohr radius: CODATA 2018).
+pub fn force_unit_kj_mol_nm(unit: &str) -> Option<f64> {
+    use crate::units::constants::{
+        AVOGADRO_PER_MOL, CALORIE_J, ELECTRONVOLT_KJ_PER_MOL, HARTREE_J,
+    };
+    let t: String = unit
+        .chars()
+        .filter(|c| !matches!(c, ' ' | '·' | '*' | '⋅' | '(' | ')' | '[' | ']' | '^'))
+        .collect::<String>()
+        .to_lowercase()
+        .replace(['−', '⁻'], "-")
+        .replace('¹', "1");
+    let energies: [(&str, f64); 8] = [
+        ("kj/mol", 1.0),
+        ("kjmol-1", 1.0),
+        ("kcal/mol", CALORIE_J),
+        ("kcalmol-1", CALORIE_J),
+        ("ev", ELECTRONVOLT_KJ_PER_MOL),
+        ("hartree", HARTREE_J * AVOGADRO_PER_MOL / 1000.0),
+        ("eh", HARTREE_J * AVOGADRO_PER_MOL / 1000.0),
+        ("ha", HARTREE_J * AVOGADRO_PER_MOL / 1000.0),
+    ];
+    let lengths: [(&str, f64); 5] = [
+        ("nm", 1.0),
+        ("å", 0.1),
+        ("angstrom", 0.1),
+        ("a", 0.1),
+        ("bohr", BOHR_NM),
+    ];
+    for (e, kj) in energies {
+        let Some(rest) = t.strip_prefix(e) else {
+            continue;
+        };
+        for (l, nm) in lengths {
+            let per_length = [
+                format!("/{l}"),
+                format!("{l}-1"),
+                // `kJ/(mol nm)`: the length inside the denominator.
+                if e.contains('/') {
+                    l.to_string()
+                } else {
+                    format!("/{l}")
+                },
+            ];
+            if per_length.iter().any(|p| rest == p) {
+                return Some(kj / nm);
+            }
+        }
+    }
+    None
 }
 
 /// True when `energy` goes down: at least [`MIN_ROWS`] finite values, lower at the end
@@ -329,5 +390,57 @@ mod tests {
         assert_eq!(force_kind("max_force"), Some(ForceKind::Max));
         assert_eq!(force_kind("rms-force"), Some(ForceKind::Rms));
         assert_eq!(force_kind("potential"), None);
+    }
+}
+
+#[cfg(test)]
+mod force_unit_tests {
+    use super::*;
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-12 * b.abs()
+    }
+
+    #[test]
+    fn energies_per_length_in_kj_per_mol_nm() {
+        // 1 kcal = 4.184 kJ (thermochemical calorie, NIST SP 811, exact); 1 Å = 0.1 nm.
+        for u in [
+            "kcal/mol/Å",
+            "kcal/mol/A",
+            "kcal/(mol·Å)",
+            "KCAL/MOL/ANGSTROM",
+        ] {
+            assert!(
+                close(force_unit_kj_mol_nm(u).unwrap(), 41.84),
+                "{u}: {:?}",
+                force_unit_kj_mol_nm(u)
+            );
+        }
+        for u in [
+            "kJ/mol/nm",
+            "kJ mol-1 nm-1",
+            "kJ/(mol nm)",
+            "kJ mol^-1 nm^-1",
+            "kJ mol⁻¹ nm⁻¹",
+        ] {
+            assert_eq!(force_unit_kj_mol_nm(u), Some(1.0), "{u}");
+        }
+        // 1 eV per particle = e·N_A/1000 kJ/mol = 96.4853321233100184 kJ/mol (SI 2019 exact).
+        assert!(close(
+            force_unit_kj_mol_nm("eV/Å").unwrap(),
+            964.853_321_233_100_2
+        ));
+        assert!(close(
+            force_unit_kj_mol_nm("eV/nm").unwrap(),
+            96.485_332_123_310_02
+        ));
+        // The atomic unit of force, E_h/a_0 = 8.2387234983e-8 N (CODATA 2018, from memory):
+        // per mole, 8.2387234983e-8 N × N_A = 4.96147e4 kJ mol⁻¹ nm⁻¹.
+        let au = 8.238_723_498_3e-8 * 6.022_140_76e23 * 1e-3 * 1e-9;
+        let got = force_unit_kj_mol_nm("Hartree/Bohr").unwrap();
+        assert!((got - au).abs() <= 1e-9 * au, "{got} vs {au}");
+        for u in ["kJ/mol", "K", "bar", "nm", "kJ/mol/ps", "eV", "count"] {
+            assert_eq!(force_unit_kj_mol_nm(u), None, "{u}");
+        }
     }
 }

@@ -37,7 +37,9 @@ use serde::{Deserialize, Serialize};
 use crate::mapping::Role;
 use crate::table::{Column, RunTable, Segment};
 
-pub use judge::{judge, HeatingRecord, MinimizationRecord, StageRecord, StagedRun};
+pub use judge::{
+    judge, judge_owned, stage_list, HeatingRecord, MinimizationRecord, StageRecord, StagedRun,
+};
 pub use minimization::{ForceKind, MinVerdict, Tolerances};
 pub use ramp::Ramp;
 
@@ -155,10 +157,37 @@ fn energy_column(seg: &Segment) -> Option<&Column> {
         .find_map(|r| seg.column(r))
 }
 
+/// The force column: known by its name, else by its unit (an energy per length; RMS when
+/// its name says so).
 fn force_column(seg: &Segment) -> Option<(ForceKind, &Column)> {
     seg.columns
         .iter()
         .find_map(|c| minimization::force_kind(&c.spec.name).map(|k| (k, c)))
+        .or_else(|| {
+            seg.columns.iter().find_map(|c| {
+                let unit = c.spec.header_unit.as_deref()?;
+                minimization::force_unit_kj_mol_nm(unit)?;
+                let rms = c.spec.name.to_ascii_lowercase().contains("rms");
+                Some((if rms { ForceKind::Rms } else { ForceKind::Max }, c))
+            })
+        })
+}
+
+/// The tolerances for a force column: the force tolerance (kJ mol⁻¹ nm⁻¹) in the column's
+/// unit when its header states one.
+fn tolerances_for(c: &Column, tol: Tolerances) -> Tolerances {
+    match c
+        .spec
+        .header_unit
+        .as_deref()
+        .and_then(minimization::force_unit_kj_mol_nm)
+    {
+        Some(kj_per_unit) if kj_per_unit > 0.0 => Tolerances {
+            force: tol.force / kj_per_unit,
+            ..tol
+        },
+        _ => tol,
+    }
 }
 
 fn ensemble_column(seg: &Segment) -> Option<&Column> {
@@ -231,7 +260,11 @@ fn piece(
             if force.is_some() || minimization::descends(energy) {
                 let steps = seg.column(Role::Step).map(|c| slice(c, &rows));
                 let f = force.map(|(k, c)| (k, slice(c, &rows)));
-                p.minimization = minimization::judge(energy, steps, f, opts.tolerances);
+                let tol = match force {
+                    Some((_, c)) => tolerances_for(c, opts.tolerances),
+                    None => opts.tolerances,
+                };
+                p.minimization = minimization::judge(energy, steps, f, tol);
                 p.conditions = None;
             }
         }

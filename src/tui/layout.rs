@@ -7,6 +7,9 @@ use ratatui::layout::Rect;
 pub const MIN_WIDTH: u16 = 40;
 pub const MIN_HEIGHT: u16 = 10;
 
+/// Stage lines shown at most (the current stage is always among them).
+pub const STAGE_LINES: u16 = 5;
+
 /// Width of a chart's value labels (left of the plot).
 pub const Y_LABEL_WIDTH: u16 = 9;
 
@@ -25,6 +28,8 @@ pub struct DetailAreas {
     pub chart: Rect,
     pub sparks: Rect,
     pub summary: Rect,
+    /// The stage list of a staged run, across the whole width above the alerts.
+    pub stages: Rect,
     pub alerts: Rect,
     pub footer: Rect,
 }
@@ -33,6 +38,19 @@ impl DetailAreas {
     /// Areas for `area`, with `others` quantities besides the charted one and `alerts`
     /// alerts to list; `chart_only` gives the whole body to the chart.
     pub fn compute(area: Rect, others: usize, alerts: usize, chart_only: bool) -> DetailAreas {
+        DetailAreas::compute_with_stages(area, others, alerts, 0, chart_only)
+    }
+
+    /// [`DetailAreas::compute`] with a list of `stages` stages (a run with no stages to
+    /// tell gives 0); it gets a heading and up to [`STAGE_LINES`] lines while the
+    /// chart and the quantities keep at least 8 rows.
+    pub fn compute_with_stages(
+        area: Rect,
+        others: usize,
+        alerts: usize,
+        stages: usize,
+        chart_only: bool,
+    ) -> DetailAreas {
         let row = |y: u16, h: u16| Rect::new(area.x, area.y + y, area.width, h);
         let h = area.height;
         let header = row(0, 1.min(h));
@@ -53,10 +71,16 @@ impl DetailAreas {
         }
         let wanted_alerts = (alerts as u16).saturating_add(1).max(2);
         let alerts_h = (body_h / 4).clamp(3, 10).min(wanted_alerts).min(body_h);
+        let stages_h = if stages > 0 {
+            (stages.min(usize::from(STAGE_LINES)) as u16 + 1)
+                .min(body_h.saturating_sub(alerts_h + 8))
+        } else {
+            0
+        };
         let sparks_h = (others as u16)
             .min(6)
-            .min(body_h.saturating_sub(alerts_h + 8));
-        let top_h = body_h.saturating_sub(alerts_h);
+            .min(body_h.saturating_sub(alerts_h + stages_h + 8));
+        let top_h = body_h.saturating_sub(alerts_h + stages_h);
         let summary_w = match area.width {
             0..=63 => 0,
             64..=109 => 34,
@@ -66,7 +90,8 @@ impl DetailAreas {
         let chart = Rect::new(area.x, body.y, left_w, top_h.saturating_sub(sparks_h));
         let sparks = Rect::new(area.x, chart.y + chart.height, left_w, sparks_h);
         let summary = Rect::new(area.x + left_w, body.y, summary_w, top_h);
-        let alerts = Rect::new(area.x, body.y + top_h, area.width, alerts_h);
+        let stages = Rect::new(area.x, body.y + top_h, area.width, stages_h);
+        let alerts = Rect::new(area.x, body.y + top_h + stages_h, area.width, alerts_h);
         DetailAreas {
             header,
             verdict,
@@ -74,6 +99,7 @@ impl DetailAreas {
             chart,
             sparks,
             summary,
+            stages,
             alerts,
             footer,
         }
@@ -104,6 +130,8 @@ pub struct OverviewColumns {
     pub progress: u16,
     pub speed: u16,
     pub age: u16,
+    /// The current stage of staged runs (0: no stage column).
+    pub stage: u16,
     pub alert: u16,
 }
 
@@ -127,7 +155,23 @@ impl OverviewColumns {
             progress,
             speed,
             age,
+            stage: 0,
             alert: width.saturating_sub(used),
+        }
+    }
+
+    /// The same with a stage column taken from the newest alert's (when some run is
+    /// staged): 10 wide below 100 columns (short words), else 20; none when the alert
+    /// would keep fewer than 12.
+    pub fn with_stage(self) -> OverviewColumns {
+        let want = if self.speed == 0 { 10 } else { 20 };
+        if self.alert < want + 12 {
+            return self;
+        }
+        OverviewColumns {
+            stage: want,
+            alert: self.alert - want,
+            ..self
         }
     }
 }
@@ -141,22 +185,34 @@ mod tests {
         for w in [1u16, 20, 40, 63, 64, 80, 120, 250] {
             for h in [1u16, 2, 3, 5, 10, 24, 40, 80] {
                 let area = Rect::new(0, 0, w, h);
-                for chart_only in [false, true] {
-                    let d = DetailAreas::compute(area, 7, 30, chart_only);
+                for (chart_only, stages) in [(false, 0), (true, 0), (false, 5), (false, 9)] {
+                    let d = DetailAreas::compute_with_stages(area, 7, 30, stages, chart_only);
                     for r in [
-                        d.header, d.verdict, d.title, d.chart, d.sparks, d.summary, d.alerts,
-                        d.footer,
+                        d.header, d.verdict, d.title, d.chart, d.sparks, d.summary, d.stages,
+                        d.alerts, d.footer,
                     ] {
                         assert_eq!(area.union(r), area, "{r:?} outside {area:?}");
                     }
                     let p = plot_area(d.chart);
                     assert_eq!(area.union(p), area);
                 }
-                let c = OverviewColumns::for_width(w);
-                if w >= MIN_WIDTH {
-                    assert!(
-                        c.status + c.name + c.spark + c.progress + c.speed + c.age + c.alert <= w
-                    );
+                for c in [
+                    OverviewColumns::for_width(w),
+                    OverviewColumns::for_width(w).with_stage(),
+                ] {
+                    if w >= MIN_WIDTH {
+                        assert!(
+                            c.status
+                                + c.name
+                                + c.spark
+                                + c.progress
+                                + c.speed
+                                + c.age
+                                + c.stage
+                                + c.alert
+                                <= w
+                        );
+                    }
                 }
             }
         }
@@ -170,5 +226,23 @@ mod tests {
         assert_eq!(d.summary.width, 34);
         assert!(d.alerts.height >= 4);
         assert_eq!(d.footer.y, 23);
+    }
+
+    #[test]
+    fn a_stage_list_takes_room_above_the_alerts_and_leaves_the_chart_8_rows() {
+        let d = DetailAreas::compute_with_stages(Rect::new(0, 0, 80, 24), 7, 0, 5, false);
+        assert_eq!(d.stages.height, 6, "{d:?}");
+        assert_eq!(d.stages.y + d.stages.height, d.alerts.y);
+        assert_eq!(d.stages.width, 80);
+        assert!(d.chart.height + d.sparks.height >= 8, "{d:?}");
+        // A single stage to tell (a minimization) gets a heading and its line.
+        let one = DetailAreas::compute_with_stages(Rect::new(0, 0, 80, 24), 7, 0, 1, false);
+        assert_eq!(one.stages.height, 2);
+        let none = DetailAreas::compute_with_stages(Rect::new(0, 0, 80, 24), 7, 0, 0, false);
+        assert_eq!(none.stages.height, 0);
+        assert_eq!(
+            none,
+            DetailAreas::compute(Rect::new(0, 0, 80, 24), 7, 0, false)
+        );
     }
 }

@@ -11,6 +11,7 @@ use crate::analysis::{ColumnAnalysis, RunAnalysis};
 use crate::follow::WatchMode;
 use crate::live::{Bucket, LiveRun, Pattern, Presence, RunId, RunSource, SeriesView};
 use crate::mapping::Role;
+use crate::stages::{StageKind, StageRecord};
 use crate::stats::{Equilibration, FluctuationVerdict};
 
 use super::app::{App, ChartView, Screen};
@@ -224,7 +225,91 @@ pub struct RunLine {
     pub newest_alert: Option<AlertLine>,
     pub active_alerts: usize,
     pub worst_active: Option<Severity>,
+    /// The stage being written, for a run cut into stages.
+    pub stage: Option<StageCell>,
     rank: (u8, u8),
+}
+
+/// The stage a staged run is in, as the overview shows it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct StageCell {
+    pub kind: StageKind,
+    /// 1-based position, and how many stages there are so far.
+    pub number: usize,
+    pub of: usize,
+}
+
+/// One stage of the selected run, as listed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StageLine {
+    pub number: usize,
+    pub kind: StageKind,
+    /// "constant volume" or "constant pressure", when known.
+    pub conditions: Option<&'static str>,
+    /// Rows through the run (first, last), 0-based.
+    pub rows: (u64, u64),
+    /// Simulated time span, ps.
+    pub times: Option<(f64, f64)>,
+    /// The file of a chain it comes from (escaped; the name only).
+    pub file: Option<String>,
+    /// The verdict word (converged, followed-ramp, equilibrated...).
+    pub verdict: String,
+    /// Bad news is flagged with its severity.
+    pub flag: Option<Severity>,
+    /// The stage being written.
+    pub current: bool,
+}
+
+/// How bad a stage verdict is (none for good news).
+pub fn verdict_flag(verdict: &str) -> Option<Severity> {
+    match verdict {
+        "unstable" => Some(Severity::Critical),
+        "off-ramp" | "energy-rises" | "stalled" | "not-converged" => Some(Severity::Warning),
+        "not-yet" | "too-short" => Some(Severity::Info),
+        _ => None,
+    }
+}
+
+fn stage_line(s: &StageRecord, current: bool) -> StageLine {
+    StageLine {
+        number: s.index as usize + 1,
+        kind: s.kind,
+        conditions: s.conditions.map(|c| c.words()),
+        rows: (s.first_row, (s.first_row + s.rows).saturating_sub(1)),
+        times: s.start_time.zip(s.end_time),
+        file: s.file.as_deref().map(|f| {
+            let name = f.rsplit('/').next().unwrap_or(f);
+            escape(name).into_owned()
+        }),
+        verdict: escape(&s.verdict).into_owned(),
+        flag: verdict_flag(&s.verdict),
+        current,
+    }
+}
+
+/// The stages of a run cut into more than one, and the note on rows folded away.
+fn stage_lines(run: &LiveRun) -> (Vec<StageLine>, Option<String>) {
+    let Some(st) = run.stages().filter(|s| s.staged()) else {
+        return (Vec::new(), None);
+    };
+    let last = st.stages.len().saturating_sub(1);
+    let lines = st
+        .stages
+        .iter()
+        .enumerate()
+        .map(|(i, s)| stage_line(s, i == last && !run.ended()))
+        .collect();
+    (lines, st.folding_note())
+}
+
+fn stage_cell(run: &LiveRun) -> Option<StageCell> {
+    let st = run.stages().filter(|s| s.staged())?;
+    let cur = st.current()?;
+    Some(StageCell {
+        kind: cur.kind,
+        number: cur.index as usize + 1,
+        of: st.stages.len(),
+    })
 }
 
 /// How a quantity's equilibration stands.
@@ -333,6 +418,10 @@ pub struct Detail {
     pub total_alerts: usize,
     /// The latest things the follower said (truncated, deleted...), newest last.
     pub notices: Vec<(f64, String)>,
+    /// The stages, when the run is cut into more than one.
+    pub stages: Vec<StageLine>,
+    /// Said when the stages were judged on the rows kept only.
+    pub stages_note: Option<String>,
 }
 
 /// What one frame shows.
@@ -702,6 +791,20 @@ fn last_time(run: &LiveRun) -> Option<f64> {
 
 /// The answer to "has it equilibrated?" in one sentence.
 fn verdict(run: &LiveRun) -> (String, Option<Severity>) {
+    // A run cut into stages: the verdict of the stage being written (the run's own
+    // statistics mix the stages of its last segment).
+    if let Some(st) = run.stages().filter(|s| s.staged()) {
+        if let Some(cur) = st.current() {
+            let text = format!(
+                "{} (stage {}/{}): {}",
+                cur.kind.name(),
+                cur.index + 1,
+                st.stages.len(),
+                escape(&cur.detail)
+            );
+            return (text, verdict_flag(&cur.verdict));
+        }
+    }
     let Some((segment, a)) = segment_of(run) else {
         return match run.feed().presence {
             Presence::Waiting => ("waiting for the file to appear".into(), None),
@@ -871,6 +974,23 @@ fn summary(run: &LiveRun, charted: Option<&Quantity>, now: f64) -> Vec<Item> {
             ),
         ));
     }
+    if let Some(c) = run.chain() {
+        let name = c
+            .live_file()
+            .and_then(|p| p.file_name())
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        items.push(item(
+            "file",
+            format!("{}/{} {}", c.live() + 1, c.files().len(), escape(&name)),
+        ));
+        if let Some(next) = c.awaited().and_then(|p| p.file_name()) {
+            items.push(item(
+                "next",
+                format!("{} (awaited)", escape(&next.to_string_lossy())),
+            ));
+        }
+    }
     items.push(item("follow", mode_text(run)));
     let age = run.last_row_arrival().map(|t| (now - t).max(0.0));
     let mut last = item(
@@ -947,6 +1067,7 @@ fn run_line(run: &LiveRun, now: f64, spark_cells: usize) -> RunLine {
         newest_alert: newest,
         active_alerts: active.len(),
         worst_active,
+        stage: stage_cell(run),
         rank: (
             condition.rank().min(alert_rank),
             worst_active.map_or(3, |s| 2 - s as u8),
@@ -956,10 +1077,12 @@ fn run_line(run: &LiveRun, now: f64, spark_cells: usize) -> RunLine {
 
 fn detail(run: &LiveRun, app: &App, order: &[RunId], size: Rect, now: f64) -> Detail {
     let all_alerts = alert_lines(run);
-    let areas = DetailAreas::compute(
+    let (stages, stages_note) = stage_lines(run);
+    let areas = DetailAreas::compute_with_stages(
         size,
         analysed_columns(run).len().saturating_sub(1),
         all_alerts.len(),
+        stages.len(),
         app.chart_only,
     );
     let mut qs = quantities(run, usize::from(layout::spark_width(areas.sparks.width)));
@@ -1005,6 +1128,8 @@ fn detail(run: &LiveRun, app: &App, order: &[RunId], size: Rect, now: f64) -> De
             .iter()
             .map(|n| (n.at, escape(&n.text).into_owned()))
             .collect(),
+        stages,
+        stages_note,
     }
 }
 

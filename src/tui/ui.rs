@@ -17,6 +17,7 @@ use super::panels::header::{DetailHeader, OverviewHeader};
 use super::panels::help::HelpPanel;
 use super::panels::overview::OverviewTable;
 use super::panels::quantities::QuantityLines;
+use super::panels::stages::StageList;
 use super::panels::summary::SummaryPanel;
 use super::theme::Theme;
 
@@ -28,10 +29,11 @@ pub struct Dashboard<'a> {
 }
 
 fn draw_detail(d: &Detail, s: &Snapshot, theme: &Theme, area: Rect, buf: &mut Buffer) {
-    let areas = DetailAreas::compute(
+    let areas = DetailAreas::compute_with_stages(
         area,
         d.quantities.len().saturating_sub(1),
         d.alerts.len(),
+        d.stages.len(),
         s.chart_only,
     );
     DetailHeader {
@@ -75,6 +77,12 @@ fn draw_detail(d: &Detail, s: &Snapshot, theme: &Theme, area: Rect, buf: &mut Bu
             theme,
         }
         .render(areas.summary, buf);
+        StageList {
+            stages: &d.stages,
+            note: d.stages_note.as_deref(),
+            theme,
+        }
+        .render(areas.stages, buf);
         AlertList {
             alerts: &d.alerts,
             active: d.active_alerts,

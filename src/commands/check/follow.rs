@@ -102,6 +102,51 @@ fn run_name(run: &LiveRun) -> String {
     }
 }
 
+/// The files of `--chain` when following: log files (no standard input), at least one.
+pub fn chain_files(files: &[PathBuf]) -> Result<(), Error> {
+    if files.is_empty() {
+        return Err(Error::Usage(
+            "--chain needs the log files of the stages, in order".to_string(),
+        ));
+    }
+    if let Some(f) = files
+        .iter()
+        .find(|f| f.as_os_str() == "-" || live::is_pattern(f))
+    {
+        return Err(Error::Usage(format!(
+            "--chain follows named files in order; '{}' is not one (no standard input or \
+             patterns in a chain)",
+            f.display()
+        )));
+    }
+    Ok(())
+}
+
+/// The stages of a run in the closing line (`; stages: minimization converged, ...`), when
+/// there is more than one; with the file being read for a chain.
+fn stage_summary(run: &LiveRun) -> String {
+    let mut out = String::new();
+    if let Some(st) = run.stages().filter(|s| s.stages.len() > 1) {
+        let list: Vec<String> = st
+            .stages
+            .iter()
+            .map(|s| format!("{} {}", s.kind.name(), s.verdict))
+            .collect();
+        out.push_str(&format!("; stages: {}", list.join(", ")));
+        if let Some(note) = st.folding_note() {
+            out.push_str(&format!(" ({note})"));
+        }
+    }
+    if let Some(c) = run.chain() {
+        out.push_str(&format!(
+            "; read up to file {} of {}",
+            c.live() + 1,
+            c.files().len()
+        ));
+    }
+    out
+}
+
 /// SIGINT, SIGTERM and SIGHUP end the watch with its summary (the flag is set); a second
 /// one ends the process at once (exit code 128 + the signal), as the user expects of a
 /// second Ctrl-C.
@@ -148,10 +193,17 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
     let clock = Arc::new(SystemClock);
     let (mut live, rx) =
         Live::start(options, clock.clone()).map_err(|e| Error::Usage(e.to_string()))?;
-    for path in &args.files {
-        let source = RunSource::from_argument(path);
-        live.add(RunSpec::new(source))
+    live.set_stage_options(super::super::report::stage_options(&args.stages)?);
+    if args.stages.chain {
+        chain_files(&args.files)?;
+        live.add_chain(&args.files)
             .map_err(|e| Error::Usage(e.to_string()))?;
+    } else {
+        for path in &args.files {
+            let source = RunSource::from_argument(path);
+            live.add(RunSpec::new(source))
+                .map_err(|e| Error::Usage(e.to_string()))?;
+        }
     }
     let controls = sources::start_commands(&mut live, &commands, &follow, clock.clone())?;
     let mut jobs = match discovery {
@@ -252,12 +304,13 @@ pub fn follow_run(args: &CheckArgs, out: &mut dyn Write) -> Result<u8, Error> {
             .count();
         if let Some(status) = status {
             eprintln!(
-                "{}: {} ({} rows, {} alerts, {failing} at or above {})",
+                "{}: {} ({} rows, {} alerts, {failing} at or above {}{})",
                 crate::text::escape_control(&run_name(run)),
                 status,
                 run.rows_seen(),
                 run.alerts().len(),
-                sinks.fail_at
+                sinks.fail_at,
+                stage_summary(run)
             );
         }
         if failing > 0 {

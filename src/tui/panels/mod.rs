@@ -7,6 +7,7 @@ pub mod header;
 pub mod help;
 pub mod overview;
 pub mod quantities;
+pub mod stages;
 pub mod summary;
 
 /// The eight heights of a sparkline cell, lowest first.

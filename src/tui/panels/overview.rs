@@ -15,6 +15,7 @@ use super::super::theme::{severity_marker, Theme};
 use super::header::condition_text;
 use super::sparkline;
 use crate::live::RunId;
+use crate::stages::StageKind;
 
 /// The table of runs.
 #[derive(Debug, Clone, Copy)]
@@ -66,6 +67,25 @@ fn alert_text(line: &RunLine, width: usize) -> String {
     }
 }
 
+/// The stage a staged run is in: its kind (a short word in a narrow column) and its
+/// place among the stages so far; `-` for a run of one stage.
+fn stage_text(line: &RunLine, width: u16) -> String {
+    let Some(st) = line.stage else {
+        return "-".into();
+    };
+    let kind = if width >= 18 {
+        st.kind.name()
+    } else {
+        match st.kind {
+            StageKind::Minimization => "min",
+            StageKind::Heating => "heat",
+            StageKind::Equilibration => "equil",
+            StageKind::Production => "prod",
+        }
+    };
+    format!("{kind} {}/{}", st.number, st.of)
+}
+
 /// The run's name in a cell `width` wide: the end of its label (the file name matters
 /// most); a batch job's log shows the job's id and name first, then the file's name.
 fn name_text(line: &RunLine, width: usize) -> String {
@@ -87,6 +107,9 @@ impl OverviewTable<'_> {
             Span::styled(cell(" STATUS", cols.status), t.label()),
             Span::styled(cell("RUN", cols.name), t.label()),
         ];
+        if cols.stage > 0 {
+            spans.push(Span::styled(cell("STAGE", cols.stage), t.label()));
+        }
         if cols.spark > 0 {
             spans.push(Span::styled(cell("TREND", cols.spark), t.label()));
         }
@@ -111,6 +134,12 @@ impl OverviewTable<'_> {
             ),
             Span::styled(name_text(line, usize::from(cols.name)), Style::new()),
         ];
+        if cols.stage > 0 {
+            spans.push(Span::styled(
+                cell(&stage_text(line, cols.stage), cols.stage),
+                t.value(),
+            ));
+        }
         if cols.spark > 0 {
             let s = sparkline(&line.spark);
             spans.push(Span::styled(cell(&s, cols.spark), t.data()));
@@ -148,7 +177,10 @@ impl Widget for &OverviewTable<'_> {
         if area.height == 0 {
             return;
         }
-        let cols = OverviewColumns::for_width(area.width);
+        let mut cols = OverviewColumns::for_width(area.width);
+        if self.snapshot.runs.iter().any(|r| r.stage.is_some()) {
+            cols = cols.with_stage();
+        }
         self.heading(&cols)
             .render(Rect::new(area.x, area.y, area.width, 1), buf);
         let rows = usize::from(area.height - 1);

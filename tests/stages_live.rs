@@ -1,0 +1,274 @@
+//! Stages of a followed run: the invented five-stage preparation (src/scenario/stages.rs)
+//! followed as it is written, its stage list judged as the rows come, and at its end the
+//! same list as `plateau report` gives for the finished file. Waits on conditions with a
+//! generous timeout; nothing asserts on timing.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // test helpers
+
+use std::path::Path;
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+use plateau::analysis::AnalysisOptions;
+use plateau::cli::{AlertArgs, InputArgs, StageArgs};
+use plateau::commands::check::analysis_options;
+use plateau::commands::report::analyse_run;
+use plateau::config::Settings;
+use plateau::follow::{FollowOptions, SystemClock};
+use plateau::live::{self, Live, LiveOptions, LiveRun, RunId, RunSource, RunSpec};
+use plateau::parse::ParseOptions;
+use plateau::scenario::stages::{five_stage_logs, StagePlan};
+use plateau::stages::{StageKind, StageRecord};
+
+const PATIENCE: Duration = Duration::from_secs(30);
+
+fn opts(dir: &Path) -> AnalysisOptions {
+    let settings = Settings::resolve(&InputArgs::default(), dir).unwrap();
+    analysis_options(&settings, &AlertArgs::default()).unwrap()
+}
+
+fn report_stages(files: &[std::path::PathBuf]) -> Vec<StageRecord> {
+    analyse_run(
+        files,
+        &InputArgs::default(),
+        &AlertArgs::default(),
+        &StageArgs::default(),
+    )
+    .unwrap()
+    .0
+    .stages
+}
+
+fn kinds(stages: &[StageRecord]) -> Vec<StageKind> {
+    stages.iter().map(|s| s.kind).collect()
+}
+
+/// The one-log preparation fed by hand in uneven chunks (lines cut anywhere), analysed
+/// after each: the current stage follows the writing, and the final list is the report's.
+#[test]
+fn a_followed_staged_log_ends_with_the_reports_stage_list() {
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("prep.log");
+    std::fs::write(&path, &logs.one_log).unwrap();
+    let expected = report_stages(std::slice::from_ref(&path));
+    assert_eq!(expected.len(), 5, "{expected:#?}");
+
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(path.clone())),
+        ParseOptions::default(),
+        Some(opts(dir.path())),
+        1_000_000,
+    );
+    let bytes = logs.one_log.as_bytes();
+    let mut at = 0usize;
+    let mut chunk = 977usize;
+    let mut seen_current: Vec<StageKind> = Vec::new();
+    while at < bytes.len() {
+        let end = (at + chunk).min(bytes.len());
+        run.push_lines(&bytes[at..end], 1_800_000_000.0 + at as f64 * 1e-4);
+        run.analyse();
+        if let Some(k) = run.stages().and_then(|s| s.current()).map(|s| s.kind) {
+            if seen_current.last() != Some(&k) {
+                seen_current.push(k);
+            }
+        }
+        at = end;
+        chunk = chunk * 7 % 4099 + 300;
+    }
+    // While written, the run was seen in its minimization, then heating, then later stages.
+    assert_eq!(seen_current.first(), Some(&StageKind::Minimization));
+    assert!(
+        seen_current.contains(&StageKind::Heating),
+        "{seen_current:?}"
+    );
+    run.conclude();
+    let live = run.stages().unwrap();
+    assert!(live.final_judgement);
+    assert_eq!(live.rows_folded, 0);
+    assert_eq!(
+        serde_json::to_value(&live.stages).unwrap(),
+        serde_json::to_value(&expected).unwrap()
+    );
+}
+
+/// The same through the live engine, from a file on disk: a real follower, the report's list.
+#[test]
+fn the_live_engine_judges_a_file_it_follows() {
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("prep.log");
+    std::fs::write(&path, &logs.one_log).unwrap();
+    let expected = report_stages(std::slice::from_ref(&path));
+    let options = LiveOptions {
+        parse: ParseOptions::default(),
+        analysis: Some(opts(dir.path())),
+        keep_rows: 1_000_000,
+        follow: FollowOptions::default(),
+        guess_row_tag: false,
+    };
+    let (mut live, rx) = Live::start(options, Arc::new(SystemClock)).unwrap();
+    live.add_argument(&path).unwrap();
+    let rows = logs.truth.rows as u64;
+    let deadline = Instant::now() + PATIENCE;
+    while live.runs()[0].rows_seen() < rows {
+        let left = deadline.saturating_duration_since(Instant::now());
+        let (source, event) = rx.recv_timeout(left).expect("all rows read");
+        live.apply(source, event, live::now_seconds());
+        live.analyse();
+    }
+    let mut runs = live.stop();
+    let run = &mut runs[0];
+    assert!(run.stages().is_some());
+    run.conclude();
+    let got = &run.stages().unwrap().stages;
+    assert_eq!(kinds(got), kinds(&expected));
+    assert_eq!(
+        serde_json::to_value(got).unwrap(),
+        serde_json::to_value(&expected).unwrap()
+    );
+}
+
+const NAMES: [&str; 5] = ["min.log", "heat.log", "nvt.log", "npt.log", "prod.log"];
+
+/// Writes the chain's files one after another, each in pieces of 40 lines with a short
+/// pause (a simulation writing its stages), the next file created once the previous is
+/// complete.
+fn write_chain_slowly(dir: std::path::PathBuf, files: [String; 5]) -> std::thread::JoinHandle<()> {
+    use std::io::Write;
+    std::thread::spawn(move || {
+        for (name, text) in NAMES.iter().zip(files) {
+            let mut f = std::fs::File::create(dir.join(name)).unwrap();
+            let lines: Vec<&str> = text.split_inclusive('\n').collect();
+            for piece in lines.chunks(40) {
+                f.write_all(piece.concat().as_bytes()).unwrap();
+                f.flush().unwrap();
+                std::thread::sleep(Duration::from_millis(15));
+            }
+            std::thread::sleep(Duration::from_millis(150));
+        }
+    })
+}
+
+/// A chain followed through the live engine while a writer thread writes its stage files
+/// one after another (later files do not exist when following starts): one run, the
+/// files read in order, and at the end the stage list of `report --chain` on the finished
+/// files, times continued across the files as report continues them.
+#[test]
+fn a_chain_followed_while_written_ends_with_report_chains_stage_list() {
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let files: Vec<std::path::PathBuf> = NAMES.iter().map(|n| dir.path().join(n)).collect();
+    let options = LiveOptions {
+        parse: ParseOptions::default(),
+        analysis: Some(opts(dir.path())),
+        keep_rows: 1_000_000,
+        follow: FollowOptions::default(),
+        guess_row_tag: false,
+    };
+    let (mut live, rx) = Live::start(options, Arc::new(SystemClock)).unwrap();
+    let id = live.add_chain(&files).unwrap();
+    assert_eq!(live.runs().len(), 1);
+    let writer = write_chain_slowly(dir.path().to_path_buf(), logs.chain.clone());
+    let rows = logs.truth.rows as u64;
+    let deadline = Instant::now() + PATIENCE;
+    let mut live_files = Vec::new();
+    loop {
+        let run = live.run(id).unwrap();
+        let at = run.chain().unwrap().live();
+        if live_files.last() != Some(&at) {
+            live_files.push(at);
+        }
+        if run.rows_seen() >= rows && at == 4 {
+            break;
+        }
+        let left = deadline.saturating_duration_since(Instant::now());
+        assert!(!left.is_zero(), "not all rows read: {:?}", live.run(id));
+        if let Ok((source, event)) = rx.recv_timeout(left.min(Duration::from_millis(200))) {
+            live.apply(source, event, live::now_seconds());
+        }
+        live.analyse();
+    }
+    writer.join().unwrap();
+    // Following went through the files in order.
+    assert_eq!(live_files, vec![0, 1, 2, 3, 4]);
+    let mut runs = live.stop();
+    let run = &mut runs[0];
+    run.conclude();
+    assert_eq!(run.rows_seen(), rows);
+    let expected = report_stages(&files);
+    let got = &run.stages().unwrap().stages;
+    assert_eq!(kinds(got), kinds(&expected), "{got:#?}");
+    assert_eq!(
+        serde_json::to_value(got).unwrap(),
+        serde_json::to_value(&expected).unwrap()
+    );
+}
+
+/// `check --follow --chain` while the stage files are written: it follows to the last
+/// file, ends when the `--pid` process exits, and its closing line lists the stages with
+/// the verdicts `check --chain` gives on the finished files.
+#[test]
+fn check_follow_chain_lists_the_stages_of_check_chain() {
+    use std::process::{Command as Std, Stdio};
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let files: Vec<std::path::PathBuf> = NAMES.iter().map(|n| dir.path().join(n)).collect();
+    let mut job = Std::new("sleep").arg("600").spawn().unwrap();
+    let bin = assert_cmd::cargo::cargo_bin("plateau");
+    let follower = Std::new(&bin)
+        .args([
+            "check",
+            "--follow",
+            "--chain",
+            "--stall-after",
+            "1h",
+            "--pid",
+        ])
+        .arg(job.id().to_string())
+        .args(&files)
+        .current_dir(dir.path())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(Duration::from_millis(300));
+    let writer = write_chain_slowly(dir.path().to_path_buf(), logs.chain.clone());
+    writer.join().unwrap();
+    // Let the follower read the last rows before the job ends.
+    std::thread::sleep(Duration::from_millis(2500));
+    job.kill().unwrap();
+    job.wait().unwrap();
+    let out = follower.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr).into_owned();
+    let finished = Std::new(&bin)
+        .args(["check", "--chain"])
+        .args(&files)
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    let stages_of = |text: &str| -> String {
+        let line = text
+            .lines()
+            .find(|l| l.contains("; stages: "))
+            .unwrap_or_else(|| panic!("no stage list in {text}"));
+        let list = line.split("; stages: ").nth(1).unwrap();
+        list.split(';')
+            .next()
+            .unwrap()
+            .trim_end_matches(')')
+            .to_string()
+    };
+    let want = stages_of(&String::from_utf8_lossy(&finished.stderr));
+    assert_eq!(stages_of(&stderr), want, "{stderr}");
+    assert!(
+        want.starts_with("minimization converged, heating followed-ramp"),
+        "{want}"
+    );
+    assert!(stderr.contains("read up to file 5 of 5"), "{stderr}");
+    assert!(
+        stderr.contains(&format!("{} (chain of 5)", files[0].display())),
+        "{stderr}"
+    );
+}
