@@ -77,6 +77,30 @@ pub fn spike_threshold(sigmas: f64, tests: usize) -> f64 {
     sigmas.max(z.min(8.0))
 }
 
+/// Whether `part` holds a stretch of identical consecutive values covering at least a
+/// quarter of it (and at least 10 rows): a column that was constant (the volume before a
+/// barostat starts, a box held fixed) is in that part, so its robust spread says nothing
+/// about the values that follow. A change there is a new stage, not a spike or a blow-up
+/// (stages are cut and judged in `stages`). Noisy values, even rounded, do not repeat that
+/// long. O(part).
+pub fn has_constant_stretch(part: &[f64]) -> bool {
+    let need = (part.len() / 4).max(10);
+    let mut run = 0usize;
+    let mut last = f64::NAN;
+    for &v in part {
+        if v == last {
+            run += 1;
+            if run >= need {
+                return true;
+            }
+        } else {
+            run = 1;
+            last = v;
+        }
+    }
+    false
+}
+
 /// Second spike test: the value must also lie `sigmas` robust SDs of its wider context
 /// (the 2·[`SPIKE_CONTEXT_ROWS`] rows around it) from the Hampel window's median. The MAD of
 /// 2k+1 = 21 correlated rows is itself noisy (relative error about a quarter), so the
@@ -100,6 +124,13 @@ pub(super) fn beyond_context(values: &[f64], i: usize, k: usize, sigmas: f64) ->
         .copied()
         .filter(|v| v.is_finite())
         .collect();
+    // A context that was constant for a while: a stage change, judged elsewhere.
+    let before = values
+        .get(i.saturating_sub(SPIKE_CONTEXT_ROWS)..i)
+        .unwrap_or(&[]);
+    if has_constant_stretch(before) {
+        return false;
+    }
     match (stats::median(&window), stats::robust_sd(&context)) {
         (Some(m), Some(sd)) => (x - m).abs() > sigmas * sd,
         _ => false,
@@ -234,6 +265,15 @@ pub(super) fn runaway_flags(
             // when constant pressure starts) is a stage change, not a blow-up. Growth is
             // judged again once the reference part varies.
             if base.scale <= f64::EPSILON * base.median.abs().max(1.0) {
+                continue;
+            }
+            // Likewise a reference part that was constant for a while (the column varies
+            // only since a stage change inside it).
+            let base_end = (r + 1 - w) / RUNAWAY_BASELINE_STEP * RUNAWAY_BASELINE_STEP;
+            let reference = values
+                .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
+                .unwrap_or(&[]);
+            if has_constant_stretch(reference) {
                 continue;
             }
             let dev = (x - base.median).abs();
