@@ -364,12 +364,21 @@ fn judge_pieces(
             match &rec.heating {
                 Some(h) if h.followed => {
                     rec.verdict = "followed-ramp".into();
-                    rec.detail = format!(
-                        "followed the {} ramp {} (mean offset {} K)",
-                        h.schedule,
-                        h.inferred_schedule,
-                        crate::alert::format_number(h.mean_offset, "")
-                    );
+                    // Against its own fitted ramp the mean offset is zero by construction:
+                    // say the rate instead.
+                    rec.detail = if h.schedule == "inferred" {
+                        format!(
+                            "followed the inferred ramp {} ({} K/ps)",
+                            h.inferred_schedule,
+                            crate::alert::format_number(h.rate_k_per_ps, "")
+                        )
+                    } else {
+                        format!(
+                            "followed the given schedule (fitted ramp {}; mean offset {} K)",
+                            h.inferred_schedule,
+                            crate::report::value_with_error(h.mean_offset, h.offset_sem)
+                        )
+                    };
                 }
                 Some(h) => {
                     rec.verdict = "off-ramp".into();
