@@ -27,6 +27,17 @@ fn opts(dir: &Path) -> AnalysisOptions {
     analysis_options(&settings, &AlertArgs::default()).unwrap()
 }
 
+/// Following options for the stage tests: every row kept (no folding).
+fn live_options(dir: &Path) -> LiveOptions {
+    LiveOptions {
+        parse: ParseOptions::default(),
+        analysis: Some(opts(dir)),
+        keep_rows: 1_000_000,
+        follow: FollowOptions::default(),
+        guess_row_tag: false,
+    }
+}
+
 fn report_stages(files: &[std::path::PathBuf]) -> Vec<StageRecord> {
     analyse_run(
         files,
@@ -101,13 +112,7 @@ fn the_live_engine_judges_a_file_it_follows() {
     let path = dir.path().join("prep.log");
     std::fs::write(&path, &logs.one_log).unwrap();
     let expected = report_stages(std::slice::from_ref(&path));
-    let options = LiveOptions {
-        parse: ParseOptions::default(),
-        analysis: Some(opts(dir.path())),
-        keep_rows: 1_000_000,
-        follow: FollowOptions::default(),
-        guess_row_tag: false,
-    };
+    let options = live_options(dir.path());
     let (mut live, rx) = Live::start(options, Arc::new(SystemClock)).unwrap();
     live.add_argument(&path).unwrap();
     let rows = logs.truth.rows as u64;
@@ -160,13 +165,7 @@ fn a_chain_followed_while_written_ends_with_report_chains_stage_list() {
     let logs = five_stage_logs(&StagePlan::default());
     let dir = tempfile::tempdir().unwrap();
     let files: Vec<std::path::PathBuf> = NAMES.iter().map(|n| dir.path().join(n)).collect();
-    let options = LiveOptions {
-        parse: ParseOptions::default(),
-        analysis: Some(opts(dir.path())),
-        keep_rows: 1_000_000,
-        follow: FollowOptions::default(),
-        guess_row_tag: false,
-    };
+    let options = live_options(dir.path());
     let (mut live, rx) = Live::start(options, Arc::new(SystemClock)).unwrap();
     let id = live.add_chain(&files).unwrap();
     assert_eq!(live.runs().len(), 1);

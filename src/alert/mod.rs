@@ -463,6 +463,16 @@ fn update_episode(alerts: &mut [Alert], state: &mut State, row: usize, measure: 
     }
 }
 
+/// The episode of `state` goes on at `row`, with what `measure(since, row)` measured
+/// there (`since`: the episode's first row).
+fn go_on<V>(alerts: &mut [Alert], state: &mut State, row: usize, measure: &mut V)
+where
+    V: FnMut(usize, usize) -> Option<Measure>,
+{
+    let m = measure(episode_start(alerts, state, row), row);
+    update_episode(alerts, state, row, m);
+}
+
 /// The raised alert of a new episode of `state`.
 fn start_episode(
     alerts: &mut Vec<Alert>,
@@ -608,8 +618,7 @@ impl AlertEngine {
                     let since = usize::try_from(since).unwrap_or(row);
                     let a = make(since, row);
                     start_episode(&mut self.alerts, &mut self.notices, state, a, Some(row));
-                    let m = measure(episode_start(&self.alerts, state, row), row);
-                    update_episode(&mut self.alerts, state, row, m);
+                    go_on(&mut self.alerts, state, row, &mut measure);
                     raised += 1;
                 }
                 Transition::Cleared => {
@@ -622,8 +631,7 @@ impl AlertEngine {
                     );
                 }
                 Transition::None if holds && state.hysteresis.is_active() => {
-                    let m = measure(episode_start(&self.alerts, state, row), row);
-                    update_episode(&mut self.alerts, state, row, m);
+                    go_on(&mut self.alerts, state, row, &mut measure);
                 }
                 Transition::None => {}
             }
@@ -672,13 +680,11 @@ impl AlertEngine {
                     let since = usize::try_from(since).unwrap_or(row);
                     let a = make(since, row);
                     start_episode(&mut self.alerts, &mut self.notices, state, a, Some(row));
-                    let m = measure(episode_start(&self.alerts, state, row), row);
-                    update_episode(&mut self.alerts, state, row, m);
+                    go_on(&mut self.alerts, state, row, &mut measure);
                     raised += 1;
                 }
                 _ if state.hysteresis.is_active() => {
-                    let m = measure(episode_start(&self.alerts, state, row), row);
-                    update_episode(&mut self.alerts, state, row, m);
+                    go_on(&mut self.alerts, state, row, &mut measure);
                 }
                 _ => {}
             }
