@@ -473,6 +473,22 @@ where
     update_episode(alerts, state, row, m);
 }
 
+/// Feeds `count` rows without the condition from row `from` on at once; the episode ends
+/// at the row whose observation clears it.
+fn quiet_rows(
+    alerts: &mut [Alert],
+    notices: &mut Vec<Notice>,
+    state: &mut State,
+    from: usize,
+    count: usize,
+    locator: &dyn RowLocator,
+) {
+    if let Some(at) = state.hysteresis.observe_false_run(count as u64) {
+        let cleared = from + usize::try_from(at).unwrap_or(usize::MAX - from);
+        end_episode(alerts, notices, state, Some(cleared), locator);
+    }
+}
+
 /// The raised alert of a new episode of `state`.
 fn start_episode(
     alerts: &mut Vec<Alert>,
@@ -665,16 +681,15 @@ impl AlertEngine {
             if row < next || row >= rows.end {
                 continue;
             }
-            if let Some(at) = state.hysteresis.observe_false_run((row - next) as u64) {
-                let cleared = next + at as usize;
-                end_episode(
-                    &mut self.alerts,
-                    &mut self.notices,
-                    state,
-                    Some(cleared),
-                    locator,
-                );
-            }
+            let quiet = row - next;
+            quiet_rows(
+                &mut self.alerts,
+                &mut self.notices,
+                state,
+                next,
+                quiet,
+                locator,
+            );
             match state.hysteresis.observe(row as u64, true) {
                 Transition::Raised { since } => {
                     let since = usize::try_from(since).unwrap_or(row);
@@ -690,19 +705,15 @@ impl AlertEngine {
             }
             next = row + 1;
         }
-        if let Some(at) = state
-            .hysteresis
-            .observe_false_run(rows.end.saturating_sub(next) as u64)
-        {
-            let cleared = next + at as usize;
-            end_episode(
-                &mut self.alerts,
-                &mut self.notices,
-                state,
-                Some(cleared),
-                locator,
-            );
-        }
+        let quiet = rows.end.saturating_sub(next);
+        quiet_rows(
+            &mut self.alerts,
+            &mut self.notices,
+            state,
+            next,
+            quiet,
+            locator,
+        );
         raised
     }
 
