@@ -213,8 +213,11 @@ fn baseline_for(
     match *entry {
         Some((end, b)) if end == base_end => b,
         _ => {
+            // A reference part that was constant for a while has no baseline either: the
+            // column varies only since a stage change inside it.
             let b = values
                 .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
+                .filter(|part| !has_constant_stretch(part))
                 .and_then(|part| stats::Baseline::from_slice_with(part, scratch));
             *entry = Some((base_end, b));
             b
@@ -265,15 +268,6 @@ pub(super) fn runaway_flags(
             // when constant pressure starts) is a stage change, not a blow-up. Growth is
             // judged again once the reference part varies.
             if base.scale <= f64::EPSILON * base.median.abs().max(1.0) {
-                continue;
-            }
-            // Likewise a reference part that was constant for a while (the column varies
-            // only since a stage change inside it).
-            let base_end = (r + 1 - w) / RUNAWAY_BASELINE_STEP * RUNAWAY_BASELINE_STEP;
-            let reference = values
-                .get(base_end.saturating_sub(RUNAWAY_BASELINE_ROWS)..base_end)
-                .unwrap_or(&[]);
-            if has_constant_stretch(reference) {
                 continue;
             }
             let dev = (x - base.median).abs();
