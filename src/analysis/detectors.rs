@@ -181,14 +181,46 @@ pub fn runaway_lookback(w0: usize) -> usize {
 /// A runaway baseline cache: (end row within segment, baseline).
 pub(super) type BaselineEntry = Option<(usize, Option<stats::Baseline>)>;
 
+/// Baselines kept per column, by their end row: every window reads the same baselines,
+/// each one [`RUNAWAY_BASELINE_STEP`] rows apart, the shortest window first and the
+/// longest (2,480 rows later with the default windows) last, so that 32 slots compute each
+/// baseline once. Longer windows than the default recompute some (same results).
+pub(super) const BASELINE_SLOTS: usize = 32;
+
 /// Per-column state of the runaway detector between updates.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub(super) struct RunawayState {
-    /// Per window: the last baseline computed.
-    pub(super) baselines: [BaselineEntry; RUNAWAY_SCALES],
+    /// Baselines computed, in slot `(end / RUNAWAY_BASELINE_STEP) % BASELINE_SLOTS`.
+    pub(super) baselines: [BaselineEntry; BASELINE_SLOTS],
     /// The baseline of the runaway episode in progress: rows that stay beyond
     /// `min_sigmas` robust SDs of it (or turn non-finite) continue the episode.
     pub(super) episode: Option<stats::Baseline>,
+}
+
+impl RunawayState {
+    /// The cached baselines after `drop` rows were forgotten from the segment's front: a
+    /// multiple of the baseline step keeps them (renumbered); any other drop forgets them.
+    pub(super) fn forget_rows(&mut self, drop: usize) {
+        let old = std::mem::take(&mut self.baselines);
+        if !drop.is_multiple_of(RUNAWAY_BASELINE_STEP) {
+            return;
+        }
+        for (end, b) in old.into_iter().flatten() {
+            let Some(end) = end.checked_sub(drop) else {
+                continue;
+            };
+            if let Some(slot) = self.baselines.get_mut(baseline_slot(end)) {
+                if slot.is_none_or(|(kept, _)| kept < end) {
+                    *slot = Some((end, b));
+                }
+            }
+        }
+    }
+}
+
+/// The cache slot of the baseline that ends at row `end`.
+fn baseline_slot(end: usize) -> usize {
+    (end / RUNAWAY_BASELINE_STEP) % BASELINE_SLOTS
 }
 
 /// The state handed to a scan (copied in and out of the column's cursor).
@@ -202,7 +234,7 @@ fn baseline_for(
     values: &[f64],
     r: usize,
     w: usize,
-    entry: &mut BaselineEntry,
+    cache: &mut [BaselineEntry; BASELINE_SLOTS],
     scratch: &mut Vec<f64>,
 ) -> Option<stats::Baseline> {
     let first = (r + 1).checked_sub(w)?;
@@ -210,6 +242,7 @@ fn baseline_for(
     if base_end < RUNAWAY_BASELINE_STEP {
         return None;
     }
+    let entry = cache.get_mut(baseline_slot(base_end))?;
     match *entry {
         Some((end, b)) if end == base_end => b,
         _ => {
@@ -257,10 +290,7 @@ pub(super) fn runaway_flags(
             continue;
         }
         for (k, &w) in windows.iter().enumerate() {
-            let Some(entry) = state.baselines.get_mut(k) else {
-                break;
-            };
-            let Some(base) = baseline_for(values, r, w, entry, &mut scratch) else {
+            let Some(base) = baseline_for(values, r, w, &mut state.baselines, &mut scratch) else {
                 continue;
             };
             // A constant reference part (its scale is only the floor) has no spread to

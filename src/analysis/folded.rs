@@ -459,17 +459,7 @@ impl Analyzer {
             for cursor in self.cursors.get_mut(si).into_iter().flatten() {
                 // A multiple of the baseline step keeps the cached baseline's rows; any
                 // other drop (earlier segments, already scanned) recomputes it.
-                let state = &mut cursor.baseline;
-                for entry in state.baselines.iter_mut() {
-                    *entry = match *entry {
-                        Some((end, b))
-                            if end >= drop && drop.is_multiple_of(RUNAWAY_BASELINE_STEP) =>
-                        {
-                            Some((end - drop, b))
-                        }
-                        _ => None,
-                    };
-                }
+                cursor.baseline.forget_rows(drop);
             }
         }
         Some(keep)
