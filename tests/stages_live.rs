@@ -271,3 +271,156 @@ fn check_follow_chain_lists_the_stages_of_check_chain() {
         "{stderr}"
     );
 }
+
+/// The run's onset row (through the run) and each analysed column's production mean and
+/// count, as a finished file's report gives them for its last stage.
+fn production_of(a: &plateau::analysis::RunAnalysis) -> (Option<usize>, Vec<(String, f64, usize)>) {
+    let onset = a
+        .equilibration
+        .and_then(|e| e.row())
+        .map(|r| a.first_row + r);
+    let columns = a
+        .columns
+        .iter()
+        .filter_map(|c| {
+            let p = c.production.as_ref()?;
+            Some((c.name.clone(), p.mean, p.count))
+        })
+        .collect();
+    (onset, columns)
+}
+
+/// Follows `log` as it is written (uneven chunks), keeping at most `keep_rows` rows, and
+/// returns the run once concluded.
+fn follow_in_chunks(path: &Path, log: &str, keep_rows: usize) -> LiveRun {
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(path.to_path_buf())),
+        ParseOptions::default(),
+        Some(opts(path.parent().unwrap())),
+        keep_rows,
+    );
+    let bytes = log.as_bytes();
+    let (mut at, mut chunk) = (0usize, 977usize);
+    while at < bytes.len() {
+        let end = (at + chunk).min(bytes.len());
+        run.push_lines(&bytes[at..end], 1_800_000_000.0 + at as f64 * 1e-4);
+        run.analyse();
+        at = end;
+        chunk = chunk * 7 % 4099 + 300;
+    }
+    run.conclude();
+    run
+}
+
+/// A followed one-log preparation: its statistics are those of the production stage
+/// alone, as `report` gives them (onset, mean and count of every column), not of the
+/// stages before it in the same segment.
+#[test]
+fn a_followed_preparation_has_the_production_statistics_of_report() {
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("prep.log");
+    std::fs::write(&path, &logs.one_log).unwrap();
+    let (_, staged, _) = analyse_run(
+        std::slice::from_ref(&path),
+        &InputArgs::default(),
+        &AlertArgs::default(),
+        &StageArgs::default(),
+    )
+    .unwrap();
+    let expected = production_of(&staged.analysis);
+    let production = staged.stages.last().unwrap();
+    assert_eq!(production.kind, StageKind::Production);
+    assert_eq!(production.first_row as usize, logs.truth.production_row);
+
+    let run = follow_in_chunks(&path, &logs.one_log, 1_000_000);
+    let live = run.analysis().unwrap();
+    let got = production_of(live);
+    let onset = got.0.expect("an onset");
+    assert!(
+        onset >= logs.truth.production_row,
+        "onset {onset} before production"
+    );
+    assert_eq!(got.0, expected.0);
+    assert_eq!(got.1.len(), expected.1.len());
+    for ((name, mean, count), (ename, emean, ecount)) in got.1.iter().zip(&expected.1) {
+        assert_eq!((name, count), (ename, ecount));
+        assert!(
+            (mean - emean).abs() <= 1e-9 * emean.abs().max(1.0),
+            "{name}: {mean} vs {emean}"
+        );
+    }
+}
+
+/// The same preparation with a long production, followed under a small memory cap: the
+/// stages before the rows kept are still listed (as judged before they were folded), the
+/// list is the report's, and the production statistics leave out everything before
+/// production: the mean and count are exact once folded (analysis::folded), the onset is
+/// on block means.
+#[test]
+fn a_folded_preparation_keeps_its_stages_and_its_production_statistics() {
+    let plan = StagePlan {
+        prod_rows: 9_000,
+        ..StagePlan::default()
+    };
+    let logs = five_stage_logs(&plan);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("prep.log");
+    std::fs::write(&path, &logs.one_log).unwrap();
+    let (_, staged, _) = analyse_run(
+        std::slice::from_ref(&path),
+        &InputArgs::default(),
+        &AlertArgs::default(),
+        &StageArgs::default(),
+    )
+    .unwrap();
+    let (expected_onset, expected) = production_of(&staged.analysis);
+
+    let keep = plateau::fold::MIN_KEEP_ROWS;
+    let run = follow_in_chunks(&path, &logs.one_log, keep);
+    let stages = run.stages().unwrap();
+    assert!(stages.rows_folded > 0, "not folded: {stages:?}");
+    assert_eq!(kinds(&stages.stages), kinds(&staged.stages));
+    for (got, want) in stages.stages.iter().zip(&staged.stages) {
+        assert_eq!(got.first_row, want.first_row, "{got:#?}");
+        assert_eq!(got.rows, want.rows, "{got:#?}");
+    }
+    let live = run.analysis().unwrap();
+    assert!(live.folding.is_some());
+    let (onset, got) = production_of(live);
+    let onset = onset.expect("an onset");
+    assert!(
+        onset >= logs.truth.production_row,
+        "onset {onset} before production"
+    );
+    let expected_onset = expected_onset.unwrap();
+    // Searched on block means once folded (analysis::folded): the same plateau, within ten
+    // blocks of the report's onset.
+    let block = live.folding.as_ref().unwrap().block_rows;
+    assert!(
+        onset.abs_diff(expected_onset) <= 10 * block,
+        "onset {onset} vs {expected_onset} (blocks of {block})"
+    );
+    let sem_of = |a: &plateau::analysis::RunAnalysis, name: &str| {
+        let p = a
+            .columns
+            .iter()
+            .find(|c| c.name == name)?
+            .production
+            .as_ref()?;
+        p.sem_block.or(p.sem_from_g)
+    };
+    for (name, mean, count) in &got {
+        let (_, emean, _) = expected.iter().find(|e| &e.0 == name).unwrap();
+        // Only production rows are in it, and its mean is the report's within the
+        // report's standard error (3 SE).
+        assert!(*count <= plan.prod_rows, "{name}: {count} rows");
+        if let Some(se) = sem_of(&staged.analysis, name) {
+            assert!(
+                (mean - emean).abs() <= 3.0 * se + 1e-12,
+                "{name}: {mean} vs {emean} ± {se}"
+            );
+        }
+    }
+}

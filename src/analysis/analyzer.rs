@@ -34,6 +34,9 @@ pub struct Analyzer {
     pub(super) skipped_seen: u64,
     /// Rows forgotten and folded (bounded memory while following).
     pub(super) folding: folded::FoldState,
+    /// Segment and row (from the segment's start, forgotten rows included) where the stage
+    /// being written starts: the full statistics leave out the rows before it.
+    pub(super) stage_start: Option<(usize, usize)>,
 }
 
 impl Analyzer {
@@ -52,7 +55,36 @@ impl Analyzer {
             cached: None,
             skipped_seen: 0,
             folding: folded::FoldState::default(),
+            stage_start: None,
         }
+    }
+
+    /// Cuts the full statistics at the start of the stage being written: row `row` of
+    /// segment `segment` (numbered from the segment's start, forgotten rows included), as a
+    /// finished file's report cuts them at its last stage. `None`, or row 0: the whole
+    /// segment. The per-row detectors are not cut. The statistics are computed again at the
+    /// next update when the start moved. Returns whether it moved.
+    pub fn set_stage_start(&mut self, start: Option<(usize, usize)>) -> bool {
+        let start = start.filter(|&(_, row)| row > 0);
+        if start == self.stage_start {
+            return false;
+        }
+        self.stage_start = start;
+        self.full_at = None;
+        self.folding.restart_summaries_at(start);
+        true
+    }
+
+    /// The stage start within segment `si`, when the stage does not start with it.
+    pub(super) fn stage_start_in(&self, si: usize) -> Option<usize> {
+        self.stage_start
+            .filter(|&(seg, row)| seg == si && row > 0)
+            .map(|(_, row)| row)
+    }
+
+    /// Rows of segment `si` forgotten from the table's front so far (folded for memory).
+    pub fn segment_rows_forgotten(&self, si: usize) -> usize {
+        self.forgotten_rows(si)
     }
 
     /// The alert engine (alerts raised so far).

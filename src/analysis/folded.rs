@@ -53,6 +53,12 @@ use super::{
 /// Folded blocks kept per column: at most `keep_rows / BLOCKS_DIVISOR`.
 const BLOCKS_DIVISOR: usize = 8;
 
+/// The capacity given to a folded series under a cap of `keep_rows` rows: a series keeps at
+/// most a quarter of its capacity as blocks, `keep_rows / BLOCKS_DIVISOR`.
+fn blocks_cap(keep_rows: usize) -> usize {
+    (keep_rows / BLOCKS_DIVISOR) * 4
+}
+
 /// Statistics that are approximate once a run is folded (the JSON names of the report).
 pub const APPROXIMATE_WHEN_FOLDED: [&str; 10] = [
     "equilibration",
@@ -106,6 +112,9 @@ struct FoldedSegment {
     segment: usize,
     columns: Vec<FoldedSeries>,
     lines: FoldedSeries,
+    /// Row (from the segment's start) of the first row in the summaries: the start of the
+    /// stage being written (rows before it are forgotten unfolded), else 0.
+    from: usize,
     /// Rows folded into the summaries (the stable part before a blow-up).
     folded: usize,
     /// Rows (from the segment's start) known to be before any blow-up: the runaway check
@@ -118,6 +127,22 @@ struct FoldedSegment {
 }
 
 impl FoldedSegment {
+    /// Empty summaries of segment `segment` (`columns` columns, `blocks_cap` blocks each)
+    /// from row `from` on.
+    fn empty(segment: usize, columns: usize, blocks_cap: usize, from: usize) -> FoldedSegment {
+        FoldedSegment {
+            segment,
+            columns: (0..columns)
+                .map(|_| FoldedSeries::with_cap(blocks_cap))
+                .collect(),
+            lines: FoldedSeries::with_cap(blocks_cap),
+            from,
+            folded: 0,
+            clean_until: 0,
+            stable_end: None,
+        }
+    }
+
     /// End of the stable part within the kept rows (`forgotten` rows before them).
     fn stable_kept(&self, seg: &Segment, forgotten: usize, opts: &AnalysisOptions) -> usize {
         match self.stable_end {
@@ -137,6 +162,34 @@ pub(super) struct FoldState {
 }
 
 impl FoldState {
+    /// Makes the summaries of the folded segment start at a new stage start (`None`: the
+    /// segment's start): empty again from that row, or from the first kept row when the
+    /// start was already forgotten (its rows are then left out, not mixed with the stage
+    /// before). Summaries that already start there, or that cannot reach back to an earlier
+    /// start, are kept.
+    pub(super) fn restart_summaries_at(&mut self, start: Option<(usize, usize)>) {
+        let Some(f) = self.last.as_mut() else {
+            return;
+        };
+        let row = match start {
+            Some((seg, row)) if seg == f.segment => row,
+            Some(_) => return,
+            None => 0,
+        };
+        let forgotten = self.forgotten.get(f.segment).copied().unwrap_or(0);
+        let from = row.max(forgotten);
+        if from == f.from || (row < f.from && f.folded > 0) {
+            return;
+        }
+        let cap = blocks_cap(self.keep_rows.unwrap_or(DEFAULT_KEEP_ROWS));
+        let fresh = FoldedSegment::empty(f.segment, f.columns.len(), cap, from);
+        *f = FoldedSegment {
+            clean_until: f.clean_until,
+            stable_end: f.stable_end,
+            ..fresh
+        };
+    }
+
     /// The locator for rows of segment `si` (row `first_row` is its first row).
     pub(super) fn locator<'a>(
         &'a self,
@@ -350,7 +403,7 @@ impl RowLocator for FoldedLocator<'_> {
             return self.kept.line(row);
         }
         let (f, _) = self.folded?;
-        let r = row.checked_sub(self.segment_first_row)?;
+        let r = row.checked_sub(self.segment_first_row + f.from)?;
         block_start(&f.lines, r, f.folded).map(|l| l as u64)
     }
     fn time(&self, row: usize) -> Option<f64> {
@@ -358,7 +411,7 @@ impl RowLocator for FoldedLocator<'_> {
             return self.kept.time(row);
         }
         let (f, time_column) = self.folded?;
-        let r = row.checked_sub(self.segment_first_row)?;
+        let r = row.checked_sub(self.segment_first_row + f.from)?;
         block_start(f.columns.get(time_column?)?, r, f.folded)
     }
 }
@@ -403,23 +456,18 @@ impl Analyzer {
         let keep = rows - fold;
 
         // The last segment's values go into the summaries (the stable part only).
+        let stage_start = self.stage_start_in(last).unwrap_or(0);
         let state = &mut self.folding;
-        if state.last.as_ref().is_none_or(|f| f.segment != last) {
-            let blocks_cap = (keep_rows / BLOCKS_DIVISOR) * 4;
-            state.last = Some(FoldedSegment {
-                segment: last,
-                columns: seg
-                    .columns
-                    .iter()
-                    .map(|_| FoldedSeries::with_cap(blocks_cap))
-                    .collect(),
-                lines: FoldedSeries::with_cap(blocks_cap),
-                folded: 0,
-                clean_until: 0,
-                stable_end: None,
-            });
-        }
         let forgotten = state.forgotten.get(last).copied().unwrap_or(0);
+        if state.last.as_ref().is_none_or(|f| f.segment != last) {
+            let from = stage_start.max(forgotten);
+            state.last = Some(FoldedSegment::empty(
+                last,
+                seg.columns.len(),
+                blocks_cap(keep_rows),
+                from,
+            ));
+        }
         if let Some(f) = state.last.as_mut() {
             let stable = f.stable_kept(seg, forgotten, &self.opts);
             if stable < rows {
@@ -427,15 +475,23 @@ impl Analyzer {
             } else {
                 f.clean_until = forgotten + rows;
             }
-            // Only while every forgotten row was folded (no blow-up among them).
-            if f.folded == forgotten {
-                let n = fold.min(stable);
+            // Only while every forgotten row from the summaries' first row on was folded (no
+            // blow-up among them); rows before that first row (an earlier stage) are not.
+            let n = fold.min(stable);
+            let skip = f.from.saturating_sub(forgotten).min(n);
+            if f.from + f.folded == forgotten + skip {
                 for (series, column) in f.columns.iter_mut().zip(&seg.columns) {
-                    series.fold_values(column.values().get(..n).unwrap_or_default());
+                    series.fold_values(column.values().get(skip..n).unwrap_or_default());
                 }
-                let lines: Vec<f64> = seg.lines.iter().take(n).map(|l| l as f64).collect();
+                let lines: Vec<f64> = seg
+                    .lines
+                    .iter()
+                    .skip(skip)
+                    .take(n - skip)
+                    .map(|l| l as f64)
+                    .collect();
                 f.lines.fold_values(&lines);
-                f.folded += n;
+                f.folded += n - skip;
             }
         }
         state.keep_rows = Some(keep_rows);
@@ -494,6 +550,9 @@ impl Analyzer {
 
     /// The full statistics of segment `si`: from the folded view when it was folded, else
     /// [`Analyzer::full`] (with rows numbered after the forgotten rows of earlier segments).
+    ///
+    /// With a stage start in the segment ([`Analyzer::set_stage_start`]), only the rows from
+    /// it on are analysed, and the rows found are still numbered from the segment's start.
     pub(super) fn full_view(
         &self,
         table: &RunTable,
@@ -501,9 +560,28 @@ impl Analyzer {
         known: Option<&[Option<ColumnFlags>]>,
     ) -> RunAnalysis {
         let before: usize = (0..si).map(|j| self.forgotten_rows(j)).sum();
-        match self.folding.last.as_ref().filter(|f| f.segment == si) {
-            Some(f) => self.folded_full(table, si, f),
-            None => {
+        let forgotten = self.forgotten_rows(si);
+        let stage_start = self.stage_start_in(si);
+        let folded = self.folding.last.as_ref().filter(|f| f.segment == si);
+        // The stage starts within the kept rows, and no row of it is folded.
+        let cut =
+            stage_start.filter(|&start| start > forgotten && folded.is_none_or(|f| f.folded == 0));
+        match (folded, cut, table.segments.get(si)) {
+            (_, Some(start), Some(seg)) if start - forgotten < seg.rows() => {
+                let first_row: usize = before
+                    + table
+                        .segments
+                        .iter()
+                        .take(si)
+                        .map(Segment::rows)
+                        .sum::<usize>();
+                let stage = crate::stages::sub_segment(seg, &(start - forgotten..seg.rows()));
+                let mut a = self.full_segment(&stage, si, first_row, None);
+                shift_rows(&mut a, start);
+                a
+            }
+            (Some(f), _, _) => self.folded_full(table, si, f),
+            _ => {
                 let mut a = self.full(table, si, known);
                 a.first_row += before;
                 a
@@ -518,6 +596,9 @@ impl Analyzer {
         let first_row: usize = (0..si).map(|j| self.segment_total_rows(table, j)).sum();
         let forgotten = self.forgotten_rows(si);
         let kept_stable = f.stable_kept(seg, forgotten, &self.opts);
+        // Rows below are numbered from the summaries' first row (`f.from`, the start of the
+        // stage being written), then shifted to the segment's numbering at the end.
+        let folded_rows = forgotten.saturating_sub(f.from);
         let kept_part = |values: &'_ [f64]| -> Vec<f64> {
             let end = first_nonfinite(values).min(kept_stable);
             values.get(..end).unwrap_or_default().to_vec()
@@ -548,7 +629,7 @@ impl Analyzer {
                     None => (None, None, None, None),
                 };
                 ColumnAnalysis {
-                    count: forgotten + values.len(),
+                    count: folded_rows + values.len(),
                     equilibration,
                     mser,
                     production,
@@ -563,7 +644,7 @@ impl Analyzer {
 
         let (run_eq, from) = run_onset(&columns);
         let run_row = run_eq.and_then(|e| e.row());
-        let kept_from = |row: usize| row.saturating_sub(forgotten);
+        let kept_from = |row: usize| row.saturating_sub(folded_rows);
 
         // Ensemble: from the recent rows after the onset.
         let ensemble = match self.opts.ensemble {
@@ -679,7 +760,7 @@ impl Analyzer {
         }
 
         let block_rows = f.columns.first().map_or(1, FoldedSeries::block_len);
-        RunAnalysis {
+        let mut a = RunAnalysis {
             segment: si,
             first_row,
             columns,
@@ -698,6 +779,34 @@ impl Analyzer {
                 full_resolution_from_row: (first_row + forgotten) as u64,
                 approximate: APPROXIMATE_WHEN_FOLDED.to_vec(),
             }),
+        };
+        shift_rows(&mut a, f.from);
+        a
+    }
+}
+
+/// Adds `by` to every row an analysis found (onsets, MSER, production, drift), for an
+/// analysis made on a part of a segment that starts `by` rows into it.
+fn shift_rows(a: &mut RunAnalysis, by: usize) {
+    if by == 0 {
+        return;
+    }
+    let shift = |e: &mut Option<Equilibration>| {
+        if let Some(Equilibration::Onset { row, .. }) = e {
+            *row += by;
+        }
+    };
+    shift(&mut a.equilibration);
+    for c in &mut a.columns {
+        shift(&mut c.equilibration);
+        if let Some(m) = c.mser.as_mut() {
+            m.row += by;
+        }
+        if let Some(p) = c.production.as_mut() {
+            p.first_row += by;
+        }
+        if let Some(d) = c.drift.as_mut() {
+            d.from_row += by;
         }
     }
 }

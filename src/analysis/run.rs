@@ -31,6 +31,18 @@ impl Analyzer {
             return empty_analysis(si + 1);
         };
         let first_row: usize = table.segments.iter().take(si).map(Segment::rows).sum();
+        self.full_segment(seg, si, first_row, known)
+    }
+
+    /// [`Analyzer::full`] on `seg`, segment `si` of its table, whose first row is row
+    /// `first_row` through the run (a stage cut from a segment is analysed as one).
+    pub(super) fn full_segment(
+        &self,
+        seg: &Segment,
+        si: usize,
+        first_row: usize,
+        known: Option<&[Option<ColumnFlags>]>,
+    ) -> RunAnalysis {
         let parallel = seg.rows() >= PARALLEL_MIN_VALUES / 4;
         // The statistics describe the run before it blew up: rows from the first non-finite
         // value or runaway growth in any analysed column on are left out.

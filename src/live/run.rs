@@ -217,6 +217,13 @@ fn time_new_alerts(analyzer: &Analyzer, arrivals: &[f64], times: &mut Vec<f64>) 
     }
 }
 
+/// Rows folded away so far from the front of each segment of `table`.
+fn forgotten_by_segment(analysing: Option<&Analysing>, table: &RunTable) -> Vec<usize> {
+    (0..table.segments.len())
+        .map(|si| analysing.map_or(0, |a| a.analyzer.segment_rows_forgotten(si)))
+        .collect()
+}
+
 impl LiveRun {
     /// A run read with `parse`, analysed with `analysis` (if given), keeping at most
     /// `keep_rows` rows at full resolution once analysed.
@@ -348,17 +355,15 @@ impl LiveRun {
         if now - last < super::stages::QUIET_SECONDS {
             return false;
         }
-        let folded = self
-            .analysing
-            .as_ref()
-            .map_or(0, |a| a.analyzer.rows_forgotten());
         let table = self.parser.table();
-        let seen = table.rows() as u64 + folded;
+        let forgotten = forgotten_by_segment(self.analysing.as_ref(), table);
+        let seen = table.rows() as u64 + forgotten.iter().map(|&r| r as u64).sum::<u64>();
         if hook.latest().is_some_and(|l| l.rows_seen == seen) {
             return false;
         }
         let chain = self.chain.as_ref().map(|c| &c.layout);
-        hook.judge(table, chain, opts, folded, self.ended);
+        hook.judge(table, chain, opts, &forgotten, self.ended);
+        self.cut_at_stage_start();
         self.version += 1;
         true
     }
@@ -368,15 +373,39 @@ impl LiveRun {
         let (Some(hook), Some(opts)) = (&mut self.stage_hook, &self.analysis_options) else {
             return;
         };
-        let folded = self
+        let table = self.parser.table();
+        let forgotten = forgotten_by_segment(self.analysing.as_ref(), table);
+        let seen = table.rows() as u64 + forgotten.iter().map(|&r| r as u64).sum::<u64>();
+        let keep_rows = self
             .analysing
             .as_ref()
-            .map_or(0, |a| a.analyzer.rows_forgotten());
-        let table = self.parser.table();
-        if hook.due(table.rows() as u64 + folded, self.ended) {
+            .map_or(crate::fold::DEFAULT_KEEP_ROWS, |a| a.keep_rows);
+        if hook.due(seen, self.ended, keep_rows) {
             let chain = self.chain.as_ref().map(|c| &c.layout);
-            hook.judge(table, chain, opts, folded, self.ended);
+            hook.judge(table, chain, opts, &forgotten, self.ended);
+            self.cut_at_stage_start();
         }
+    }
+
+    /// Cuts the run's full statistics at the start of the stage being written, as judged
+    /// last; when it moved, the statistics are computed again at once (the production
+    /// stage's mean, onset and N_eff leave out the stages before it, as in `report`).
+    fn cut_at_stage_start(&mut self) {
+        let start = self.stages().and_then(|s| s.current_start);
+        let Some(a) = &mut self.analysing else {
+            return;
+        };
+        if !a.analyzer.set_stage_start(start) {
+            return;
+        }
+        let analysis = a.analyzer.update(
+            self.parser.table(),
+            self.ended,
+            Some(&self.arrivals),
+            self.ended,
+        );
+        a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
     }
 
     pub fn id(&self) -> RunId {

@@ -218,21 +218,24 @@ impl Widget for &TrendChart<'_> {
             buf.set_string(plot.x, axis_y, &c.x_left, t.label());
             let right_w = c.x_right.chars().count() as u16;
             let right_x = (plot.x + plot.width).saturating_sub(right_w);
+            // Columns of the axis row free of the right end's label (one blank before it).
+            let mut free_width = plot.width;
             if right_x > plot.x + left_w {
                 buf.set_string(right_x, axis_y, &c.x_right, t.label());
+                free_width = (right_x - plot.x).saturating_sub(1);
             }
             if let (Some(col), Some(text)) = (onset_col, &c.onset_label) {
-                // `▲` under the onset's column when the left label leaves room, the label on
+                // `▲` under the onset's column when the end labels leave room, the label on
                 // whichever side has room.
                 let col = (col as u16).max(left_w + 1);
                 let right = format!("▲ {text}");
                 let len = right.chars().count() as u16;
                 let left = format!("{text} ▲");
-                if col + len <= plot.width {
+                if col + len <= free_width {
                     buf.set_string(plot.x + col, axis_y, right, t.onset());
-                } else if col >= len + left_w {
+                } else if col >= len + left_w && col < free_width {
                     buf.set_string(plot.x + col + 1 - len, axis_y, left, t.onset());
-                } else if col < plot.width {
+                } else if col < free_width {
                     buf.set_string(plot.x + col, axis_y, "▲", t.onset());
                 }
             }
@@ -352,6 +355,24 @@ mod tests {
         // Data before the onset is dimmed (dark grey), after it in the data colour.
         assert_eq!(buf[(9, 1)].fg, Color::DarkGray);
         assert_eq!(buf[(9 + 10, 1)].fg, Color::Cyan);
+    }
+
+    #[test]
+    fn an_onset_near_the_right_end_puts_its_label_left_of_the_marker_not_over_the_end() {
+        let mut c = chart(&[6.0; 16], (0.0, 8.0));
+        c.onset_row = Some(12);
+        c.onset_label = Some("onset 180.8 ps".into());
+        c.x_left = "0 ps".into();
+        c.x_right = "780.3 ps".into();
+        let theme = Theme::colored();
+        let buf = render(&c, 9 + 40, 5, &theme);
+        let lines = buffer_lines(&buf);
+        // Row 12 of 16 is pixel 60 of 80: terminal column 30 of the plot, one column
+        // before the blank in front of the right end's label (it took that label's place).
+        assert_eq!(
+            lines[4],
+            format!("         0 ps{}onset 180.8 ps ▲ 780.3 ps", " ".repeat(11))
+        );
     }
 
     #[test]
