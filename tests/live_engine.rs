@@ -257,3 +257,54 @@ fn runs_added_with_their_own_analysis_options_keep_them() {
     assert_eq!(atoms(idb), None, "the shared options");
     live.stop();
 }
+
+/// A run that writes a row now and then: its statistics are computed after a tenth more
+/// rows, and also on every row read once it has been quiet for a second (at most once
+/// every `REFRESH_SECONDS`), so that a slow run's statistics are not hours old.
+#[test]
+fn a_quiet_run_has_statistics_of_every_row_read() {
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
+        ParseOptions::default(),
+        options().analysis,
+        1_000_000,
+    );
+    let text = log(1030);
+    let lines: Vec<&[u8]> = text.split_inclusive(|&b| b == b'\n').collect();
+    let count = |run: &LiveRun| {
+        let a = run.analysis().unwrap();
+        a.columns.iter().map(|c| c.count).max().unwrap()
+    };
+    // 1000 rows at once, then one row every 5 s.
+    let header = lines.len() - 1030;
+    run.push_lines(&lines[..header + 1000].concat(), 100.0);
+    run.analyse();
+    assert_eq!(count(&run), 1000);
+    let mut now = 100.0;
+    for line in &lines[header + 1000..header + 1010] {
+        now += 5.0;
+        run.push_lines(line, now);
+        run.analyse();
+    }
+    assert_eq!(run.rows_seen(), 1010);
+    assert_eq!(
+        count(&run),
+        1000,
+        "fewer than a tenth more rows: not yet computed again"
+    );
+    // Half a second later: not quiet yet.
+    assert!(!run.check_stall(now + 0.5));
+    assert_eq!(count(&run), 1000);
+    // Quiet for a second: every row read.
+    run.check_stall(now + 1.5);
+    assert_eq!(count(&run), 1010);
+    // One more row, quiet again soon after: not before REFRESH_SECONDS since the last.
+    now += 2.0;
+    run.push_lines(lines[header + 1010], now);
+    run.analyse();
+    run.check_stall(now + 1.5);
+    assert_eq!(count(&run), 1010);
+    run.check_stall(now + live::REFRESH_SECONDS);
+    assert_eq!(count(&run), 1011);
+}

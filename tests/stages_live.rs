@@ -424,3 +424,61 @@ fn a_folded_preparation_keeps_its_stages_and_its_production_statistics() {
         }
     }
 }
+
+/// Rows appended to a file of a chain after following moved past it are not read (the
+/// stages are consecutive): the run says so once, and its rows stay those of the files in
+/// order.
+#[test]
+fn rows_written_to_a_file_the_chain_moved_past_are_told_once_and_not_read() {
+    let logs = five_stage_logs(&StagePlan::default());
+    let dir = tempfile::tempdir().unwrap();
+    let files: Vec<std::path::PathBuf> = NAMES.iter().map(|n| dir.path().join(n)).collect();
+    for (path, text) in files.iter().zip(&logs.chain).take(2) {
+        std::fs::write(path, text).unwrap();
+    }
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(files[0].clone())),
+        ParseOptions::default(),
+        Some(opts(dir.path())),
+        1_000_000,
+    );
+    run.set_chain(files.clone());
+    let data = |text: &str| plateau::follow::FollowEvent::Data {
+        bytes: text.as_bytes().to_vec(),
+        first_line: 1,
+        lines: text.matches('\n').count() as u64,
+        arrival: std::time::SystemTime::now(),
+    };
+    let now = live::now_seconds();
+    run.apply_chain(0, data(&logs.chain[0]), now);
+    run.apply_chain(1, data(&logs.chain[1]), now);
+    run.analyse();
+    assert_eq!(
+        run.chain().unwrap().live(),
+        1,
+        "moved on to the second file"
+    );
+    let rows = run.rows_seen();
+    let told = |run: &LiveRun| {
+        run.feed()
+            .notices
+            .iter()
+            .filter(|n| n.text.contains("grew after following moved past it"))
+            .count()
+    };
+    assert_eq!(told(&run), 0);
+    // The first file grows twice after following moved past it.
+    let late = logs.chain[1].lines().last().unwrap().to_string() + "\n";
+    run.apply_chain(0, data(&late), now + 1.0);
+    run.apply_chain(0, data(&late), now + 2.0);
+    run.analyse();
+    assert_eq!(told(&run), 1, "{:?}", run.feed().notices);
+    let notice = run
+        .feed()
+        .notices
+        .iter()
+        .find(|n| n.text.contains("grew after"));
+    assert!(notice.unwrap().text.contains("min.log"), "{notice:?}");
+    assert_eq!(run.rows_seen(), rows, "late rows are not read");
+}

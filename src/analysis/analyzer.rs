@@ -82,6 +82,22 @@ impl Analyzer {
             .map(|(_, row)| row)
     }
 
+    /// Whether the full statistics were computed before the newest rows of `table`'s last
+    /// segment (they are computed again once it grew by a tenth).
+    pub fn statistics_behind(&self, table: &RunTable) -> bool {
+        let Some(last) = table.segments.len().checked_sub(1) else {
+            return false;
+        };
+        self.full_at
+            .is_none_or(|(seg, rows)| seg != last || rows != self.segment_total_rows(table, last))
+    }
+
+    /// Makes the next [`update`](Self::update) compute the full statistics, whatever rows
+    /// came since the last computation.
+    pub fn recompute_at_next_update(&mut self) {
+        self.full_at = None;
+    }
+
     /// Rows of segment `si` forgotten from the table's front so far (folded for memory).
     pub fn segment_rows_forgotten(&self, si: usize) -> usize {
         self.forgotten_rows(si)

@@ -46,7 +46,7 @@ pub use end::{process_alive, reached};
 pub use engine::{is_pattern, Live, LiveError, LiveOptions, Pattern};
 pub use history::{Bucket, Envelope, History, SeriesView, HISTORY_BUCKETS};
 pub use memory::{bound_memory, bound_memory_with_history, folding_note};
-pub use run::{Feed, Happened, LiveRun, Notice, Presence};
+pub use run::{Feed, Happened, LiveRun, Notice, Presence, REFRESH_SECONDS};
 pub use source::{RunId, RunJob, RunSource, RunSpec};
 pub use stages::{ChainFiles, LiveStages, MIN_NEW_ROWS};
 

@@ -167,6 +167,8 @@ pub struct LiveRun {
     version: u64,
     /// The stage list, judged as the rows come (analysed runs only).
     stage_hook: Option<StageHook>,
+    /// Wall-clock second of the last refresh of the statistics of a quiet run.
+    refreshed_at: Option<f64>,
     /// The files of a chain (`--chain`), one live at a time.
     chain: Option<ChainFollow>,
 }
@@ -217,6 +219,10 @@ fn time_new_alerts(analyzer: &Analyzer, arrivals: &[f64], times: &mut Vec<f64>) 
     }
 }
 
+/// Seconds, at least, between two refreshes of a quiet run's statistics (a hundred runs
+/// that each write a row every two seconds would otherwise be analysed again at every row).
+pub const REFRESH_SECONDS: f64 = 10.0;
+
 /// Rows folded away so far from the front of each segment of `table`.
 fn forgotten_by_segment(analysing: Option<&Analysing>, table: &RunTable) -> Vec<usize> {
     (0..table.segments.len())
@@ -258,6 +264,7 @@ impl LiveRun {
             alert_times: Vec::new(),
             version: 0,
             stage_hook,
+            refreshed_at: None,
             chain: None,
         }
     }
@@ -768,8 +775,9 @@ impl LiveRun {
     /// Returns whether the alerts changed.
     pub fn check_stall(&mut self, now: f64) -> bool {
         let restaged = self.judge_stages_when_quiet(now);
+        let refreshed = self.refresh_when_quiet(now);
         if self.ended {
-            return restaged;
+            return restaged || refreshed;
         }
         let rows = self.rows_seen();
         let last = self.arrivals.last().copied();
@@ -809,6 +817,32 @@ impl LiveRun {
             self.version += 1;
         }
         changed
+    }
+
+    /// Computes the full statistics on every row read once no row came for
+    /// [`super::stages::QUIET_SECONDS`], when they were computed before the newest rows
+    /// (they are computed again after a tenth more rows, which a run writing a row every
+    /// few seconds takes hours to write), at most once every [`REFRESH_SECONDS`]. Returns
+    /// whether it did.
+    fn refresh_when_quiet(&mut self, now: f64) -> bool {
+        let (Some(a), Some(&last)) = (&mut self.analysing, self.arrivals.last()) else {
+            return false;
+        };
+        let table = self.parser.table();
+        if self.ended
+            || now - last < super::stages::QUIET_SECONDS
+            || self.refreshed_at.is_some_and(|t| now - t < REFRESH_SECONDS)
+            || !a.analyzer.statistics_behind(table)
+        {
+            return false;
+        }
+        a.analyzer.recompute_at_next_update();
+        let analysis = a.analyzer.update(table, false, Some(&self.arrivals), false);
+        a.latest = Some(analysis);
+        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        self.refreshed_at = Some(now);
+        self.version += 1;
+        true
     }
 
     /// The sentence telling that older rows are folded, the first time it applies.
