@@ -23,6 +23,27 @@
 //! [`FoldedSeries::is_folded`] says when this applies, so that the user can be told.
 
 use crate::stats::Moments;
+use crate::table::is_absent;
+
+/// Block means with the blocks that held no value (`None`: every row of the block was
+/// without one) given their nearest earlier block's mean (the first ones the first
+/// known), so that means stay aligned with their blocks' rows. Empty when no block has a
+/// value.
+pub fn fill_empty_means(means: &[Option<f64>]) -> Vec<f64> {
+    let Some(first) = means.iter().flatten().next().copied() else {
+        return Vec::new();
+    };
+    let mut last = first;
+    means
+        .iter()
+        .map(|m| {
+            if let Some(v) = m {
+                last = *v;
+            }
+            last
+        })
+        .collect()
+}
 
 /// Rows kept at full resolution per followed run unless `--keep-rows` or `keep-rows` says
 /// otherwise. 100 runs of 10 columns followed at once on a shared login node then hold at
@@ -44,8 +65,11 @@ pub struct FoldedSeries {
     cap: usize,
     block_len: usize,
     blocks: Vec<Moments>,
-    /// The block being filled: folded rows that do not make a whole block yet.
+    /// The block being filled: folded rows that do not make a whole block yet (their
+    /// values; an absent value, [`ABSENT`](crate::table::ABSENT), is a row without one).
     partial: Moments,
+    /// Rows in the block being filled, with or without a value.
+    partial_rows: usize,
     recent: Vec<f64>,
 }
 
@@ -57,6 +81,7 @@ impl FoldedSeries {
             block_len: 1,
             blocks: Vec::new(),
             partial: Moments::new(),
+            partial_rows: 0,
             recent: Vec::new(),
         }
     }
@@ -98,7 +123,7 @@ impl FoldedSeries {
 
     /// Rows held in folded blocks.
     pub fn folded_rows(&self) -> u64 {
-        self.blocks.len() as u64 * self.block_len as u64 + self.partial.count()
+        self.blocks.len() as u64 * self.block_len as u64 + self.partial_rows as u64
     }
 
     /// The recent values at full resolution (the last rows of the series).
@@ -118,32 +143,37 @@ impl FoldedSeries {
             total.merge(block);
         }
         total.merge(&self.partial);
-        total.merge(&Moments::from_slice(&self.recent));
+        for &v in self.recent.iter().filter(|v| !is_absent(**v)) {
+            total.push(v);
+        }
         total
     }
 
     /// Means of consecutive blocks of `block_len()` rows over the whole series, aligned at
     /// row 0; an incomplete last block is dropped. Equal to the block means of the unfolded
-    /// series (up to rounding).
+    /// series (up to rounding). Rows without a value are left out of their block's mean;
+    /// a block with none takes its neighbour's ([`fill_empty_means`]).
     pub fn block_means(&self) -> Vec<f64> {
-        let mut means: Vec<f64> = self.blocks.iter().filter_map(Moments::mean).collect();
+        let mut means: Vec<Option<f64>> = self.blocks.iter().map(Moments::mean).collect();
         let mut rest = self.recent.as_slice();
-        let filled = self.partial.count() as usize;
-        if filled > 0 {
+        if self.partial_rows > 0 {
             // The block being filled continues into the recent values.
-            let missing = self.block_len - filled;
+            let missing = self.block_len - self.partial_rows;
             let Some(head) = rest.get(..missing) else {
-                return means;
+                return fill_empty_means(&means);
             };
-            let sum = self.partial.mean().unwrap_or(0.0) * filled as f64 + head.iter().sum::<f64>();
-            means.push(sum / self.block_len as f64);
+            let mut block = self.partial;
+            for &v in head.iter().filter(|v| !is_absent(**v)) {
+                block.push(v);
+            }
+            means.push(block.mean());
             rest = rest.get(missing..).unwrap_or_default();
         }
-        means.extend(
-            rest.chunks_exact(self.block_len)
-                .map(|c| c.iter().sum::<f64>() / c.len() as f64),
-        );
-        means
+        means.extend(rest.chunks_exact(self.block_len).map(|c| {
+            let present: Vec<f64> = c.iter().copied().filter(|v| !is_absent(*v)).collect();
+            Moments::from_slice(&present).mean()
+        }));
+        fill_empty_means(&means)
     }
 
     /// Min and max per block of `block_len()` rows (folded part) followed by each recent
@@ -183,11 +213,15 @@ impl FoldedSeries {
     /// those of the same blocks of the unfolded series (up to rounding).
     pub fn blocks_with_tail(&self, tail: &[f64]) -> (Vec<Moments>, Moments) {
         let mut blocks = self.blocks.clone();
-        let mut current = self.partial;
+        let (mut current, mut rows) = (self.partial, self.partial_rows);
         for &v in self.recent.iter().chain(tail) {
-            current.push(v);
-            if current.count() as usize == self.block_len {
+            if !is_absent(v) {
+                current.push(v);
+            }
+            rows += 1;
+            if rows == self.block_len {
                 blocks.push(std::mem::take(&mut current));
+                rows = 0;
             }
         }
         (blocks, current)
@@ -195,9 +229,13 @@ impl FoldedSeries {
 
     fn fold_into_blocks(&mut self, values: &[f64]) {
         for &value in values {
-            self.partial.push(value);
-            if self.partial.count() as usize == self.block_len {
+            if !is_absent(value) {
+                self.partial.push(value);
+            }
+            self.partial_rows += 1;
+            if self.partial_rows == self.block_len {
                 self.blocks.push(std::mem::take(&mut self.partial));
+                self.partial_rows = 0;
             }
         }
     }
@@ -222,6 +260,7 @@ impl FoldedSeries {
                 if let Some(mut last) = self.blocks.pop() {
                     last.merge(&self.partial);
                     self.partial = last;
+                    self.partial_rows += self.block_len;
                 }
             }
             self.blocks = self
@@ -263,6 +302,76 @@ mod tests {
 
     fn close(a: f64, b: f64, rel: f64) -> bool {
         (a - b).abs() <= rel * a.abs().max(b.abs()).max(1e-300)
+    }
+
+    /// Rows without a value (a record row that did not write the name) are rows of their
+    /// block but not values: the moments are those of the values written, the blocks stay
+    /// aligned with the rows, and a block with no value takes its neighbour's mean.
+    #[test]
+    fn rows_without_a_value_are_rows_but_not_values() {
+        use crate::table::ABSENT;
+        let data = series(50_001);
+        // Every third row without a value, and rows 1000..1100 without any.
+        let with_gaps: Vec<f64> = data
+            .iter()
+            .enumerate()
+            .map(|(i, &v)| {
+                if i % 3 == 2 || (1000..1100).contains(&i) {
+                    ABSENT
+                } else {
+                    v
+                }
+            })
+            .collect();
+        let present: Vec<f64> = with_gaps
+            .iter()
+            .copied()
+            .filter(|v| !is_absent(*v))
+            .collect();
+        let mut s = FoldedSeries::with_cap(256);
+        s.extend(&with_gaps);
+        assert!(s.is_folded());
+        assert_eq!(s.len(), with_gaps.len() as u64);
+        // Two-pass mean and variance of the values written are the reference.
+        let m = s.moments();
+        assert_eq!(m.count(), present.len() as u64);
+        assert!(close(m.mean().unwrap(), mean(&present).unwrap(), 1e-12));
+        assert!(close(
+            m.variance().unwrap(),
+            variance(&present).unwrap(),
+            1e-9
+        ));
+        // One finite mean per whole block of rows, each the mean of its block's values.
+        let b = s.block_len();
+        let means = s.block_means();
+        assert_eq!(means.len(), with_gaps.len() / b);
+        assert!(means.iter().all(|v| v.is_finite()));
+        for (k, got) in means.iter().enumerate() {
+            let block: Vec<f64> = with_gaps[k * b..(k + 1) * b]
+                .iter()
+                .copied()
+                .filter(|v| !is_absent(*v))
+                .collect();
+            if let Some(want) = mean(&block) {
+                assert!(close(*got, want, 1e-9), "block {k}: {got} vs {want}");
+            }
+        }
+        // Folding straight into blocks gives the same blocks as pushing.
+        let mut direct = FoldedSeries::with_cap(256);
+        direct.fold_values(&with_gaps);
+        let (blocks, _) = direct.blocks_with_tail(&[]);
+        let counts: u64 = blocks.iter().map(Moments::count).sum();
+        assert!(counts <= present.len() as u64);
+        assert_eq!(direct.len(), with_gaps.len() as u64);
+    }
+
+    #[test]
+    fn empty_block_means_take_their_neighbours() {
+        assert_eq!(
+            fill_empty_means(&[None, Some(1.0), None, None, Some(4.0), None]),
+            vec![1.0, 1.0, 1.0, 1.0, 4.0, 4.0]
+        );
+        assert!(fill_empty_means(&[None, None]).is_empty());
     }
 
     #[test]

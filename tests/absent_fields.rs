@@ -176,3 +176,61 @@ fn a_written_nan_is_still_non_finite() {
         assert!(ua.production.as_ref().is_none_or(|p| p.first_row < nan_row));
     }
 }
+
+/// The same logs followed under a memory cap of 2,000 rows (the smallest), so that most
+/// rows are folded into block summaries: a row without a value is a row of its block but
+/// not a value (analysis::folded, fold::FoldedSeries). The folded statistics of the
+/// pressure (written every third row) and the potential (missing from 10 % of rows) stay
+/// finite, count only the values written, and their means lie within 4 standard errors
+/// of the planted means.
+#[test]
+fn folded_rows_without_a_value_are_left_out_of_the_block_summaries() {
+    use plateau::live::bound_memory;
+    use plateau::parse::{sniff, LogParser};
+    for style in [Style::Json, Style::Pairs] {
+        let (text, pressure_rows, potential_rows) = log(style, 7, None);
+        let mut options = ParseOptions::default();
+        sniff::sniff_layout(text.as_bytes(), &options).apply(&mut options);
+        let mut parser = LogParser::new(options);
+        let mut analyzer = Analyzer::new(AnalysisOptions {
+            thresholds: Thresholds::default(),
+            ..AnalysisOptions::default()
+        });
+        let mut arrivals: Vec<f64> = Vec::new();
+        for piece in text.as_bytes().chunks(3000) {
+            parser.feed(piece);
+            while arrivals.len() < parser.table().rows() {
+                arrivals.push(arrivals.len() as f64);
+            }
+            analyzer.update(parser.table(), false, Some(&arrivals), false);
+            bound_memory(&mut parser, &mut analyzer, &mut arrivals, 2000);
+        }
+        parser.finish();
+        let a = analyzer.update(parser.table(), true, Some(&arrivals), true);
+        assert!(a.folding.is_some(), "not folded");
+        assert!(analyzer.rows_forgotten() >= 1000);
+        let planted = [
+            ("pressure", 1.0, pressure_rows),
+            ("potential", -41_000.0, potential_rows),
+        ];
+        for (name, mean, written) in planted {
+            let c = a.columns.iter().find(|c| c.name == name).unwrap();
+            let prod = c
+                .production
+                .as_ref()
+                .unwrap_or_else(|| panic!("{name}: {c:?}"));
+            assert!(
+                prod.mean.is_finite() && prod.std.is_some_and(f64::is_finite),
+                "{prod:?}"
+            );
+            assert!(prod.count <= written, "{name}: {} of {written}", prod.count);
+            assert!(
+                prod.count * 2 >= written,
+                "{name}: {} of {written}",
+                prod.count
+            );
+            let sem = prod.sem_block.or(prod.sem_from_g).unwrap();
+            assert!((prod.mean - mean).abs() < 4.0 * sem, "{name}: {prod:?}");
+        }
+    }
+}

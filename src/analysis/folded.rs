@@ -272,7 +272,8 @@ struct ColumnView {
 impl ColumnView {
     fn new(folded: &FoldedSeries, kept: &[f64]) -> ColumnView {
         let (blocks, rest) = folded.blocks_with_tail(kept);
-        let means = blocks.iter().filter_map(Moments::mean).collect();
+        let means: Vec<Option<f64>> = blocks.iter().map(Moments::mean).collect();
+        let means = crate::fold::fill_empty_means(&means);
         ColumnView {
             b: folded.block_len(),
             blocks,
