@@ -87,40 +87,34 @@ pub fn fit_hinge(time: &[f64], temp: &[f64]) -> Option<Ramp> {
     // Centre for numerical stability.
     let t0 = time.first().copied()?;
     let y0 = temp.iter().sum::<f64>() / n as f64;
-    let t: Vec<f64> = time.iter().map(|v| v - t0).collect();
-    let y: Vec<f64> = temp.iter().map(|v| v - y0).collect();
-    // Prefix sums over rows < k.
-    let mut st = vec![0.0; n + 1];
-    let mut stt = vec![0.0; n + 1];
-    let mut sty = vec![0.0; n + 1];
-    let mut sy = vec![0.0; n + 1];
-    for i in 0..n {
-        let (ti, yi) = (t.get(i).copied()?, y.get(i).copied()?);
-        *st.get_mut(i + 1)? = st.get(i)? + ti;
-        *stt.get_mut(i + 1)? = stt.get(i)? + ti * ti;
-        *sty.get_mut(i + 1)? = sty.get(i)? + ti * yi;
-        *sy.get_mut(i + 1)? = sy.get(i)? + yi;
-    }
-    let syy: f64 = y.iter().map(|v| v * v).sum();
-    let sy_all = *sy.get(n)?;
+    let syy: f64 = temp.iter().map(|v| (v - y0) * (v - y0)).sum();
+    let sy_all: f64 = temp.iter().map(|v| v - y0).sum();
     let nf = n as f64;
+    // Sums over rows < k, grown one row at a time (no copy of the columns: a whole-file
+    // report plans the stages of millions of rows).
+    let (mut st, mut stt, mut sty, mut sy) = (0.0, 0.0, 0.0, 0.0);
     let mut best: Option<(usize, Fit)> = None;
     // Break at row k: rows < k on the line, rows >= k at x = t_k (the plateau).
-    for k in MIN_RAMP_ROWS..n {
-        let tau = t.get(k).copied()?;
-        let after = (n - k) as f64;
-        let sx = st.get(k)? + tau * after;
-        let sxx = stt.get(k)? + tau * tau * after;
-        let sxy = sty.get(k)? + tau * (sy_all - sy.get(k)?);
-        let Some(fit) = ols_sums(nf, sx, sxx, sy_all, sxy, syy) else {
-            continue;
-        };
-        if best.as_ref().is_none_or(|(_, b)| fit.sse < b.sse) {
-            best = Some((k, fit));
+    for (k, (&tk, &yk)) in time.iter().zip(temp).enumerate() {
+        let (tau, yi) = (tk - t0, yk - y0);
+        if k >= MIN_RAMP_ROWS {
+            let after = (n - k) as f64;
+            let sx = st + tau * after;
+            let sxx = stt + tau * tau * after;
+            let sxy = sty + tau * (sy_all - sy);
+            if let Some(fit) = ols_sums(nf, sx, sxx, sy_all, sxy, syy) {
+                if best.as_ref().is_none_or(|(_, b)| fit.sse < b.sse) {
+                    best = Some((k, fit));
+                }
+            }
         }
+        st += tau;
+        stt += tau * tau;
+        sty += tau * yi;
+        sy += yi;
     }
     // A ramp to the very end: the plain line.
-    let end_fit = ols_sums(nf, *st.get(n)?, *stt.get(n)?, sy_all, *sty.get(n)?, syy);
+    let end_fit = ols_sums(nf, st, stt, sy_all, sty, syy);
     let (k, fit) = match (best, end_fit) {
         (Some((k, f)), Some(e)) if f.sse <= e.sse => (k, f),
         (_, Some(e)) => (n, e),
@@ -128,9 +122,9 @@ pub fn fit_hinge(time: &[f64], temp: &[f64]) -> Option<Ramp> {
         (None, None) => return None,
     };
     let tau = if k < n {
-        t.get(k).copied()?
+        time.get(k).copied()? - t0
     } else {
-        *t.last()?
+        time.last().copied()? - t0
     };
     let resid_sd = (fit.sse / (nf - 3.0).max(1.0)).sqrt();
     Some(Ramp {
