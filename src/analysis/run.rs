@@ -427,8 +427,7 @@ pub(super) fn drift_summary(
 /// Statistical inefficiency of the residuals of a least-squares line through `x` (rows as
 /// abscissa): the autocorrelation of the noise without that of a trend (METHODS §4.2).
 pub(super) fn detrended_inefficiency(x: &[f64]) -> Option<f64> {
-    let rows: Vec<f64> = (0..x.len()).map(|i| i as f64).collect();
-    let fit = stats::ols(&rows, x)?;
-    let residuals = fit.residuals(&rows, x);
+    let fit = stats::ols_on_rows(x)?;
+    let residuals = fit.residuals_on_rows(x);
     stats::inefficiency(&residuals).map(|i| i.g)
 }

@@ -49,7 +49,7 @@ pub use fluctuation::{
 pub use inefficiency::{
     inefficiency, sem_from_g, statistical_inefficiency, Estimator, Inefficiency,
 };
-pub use regression::{ols, ols_no_intercept, LinearFit, NoInterceptFit};
+pub use regression::{ols, ols_no_intercept, ols_on_rows, LinearFit, NoInterceptFit};
 pub use runaway::{runaway, Baseline, RunawayCheck, RunawayOptions};
 pub use spikes::{hampel, mad, median, robust_sd, HampelOptions, MAD_SCALE};
 pub use throughput::{eta_seconds, precision_eta, throughput, PrecisionEta, Throughput};

@@ -49,19 +49,41 @@ impl LinearFit {
             .map(|(ti, yi)| yi - self.predict(*ti))
             .collect()
     }
+
+    /// Residuals of `y` on its row numbers 0, 1, …, N−1 (a fit of [`ols_on_rows`]).
+    pub fn residuals_on_rows(&self, y: &[f64]) -> Vec<f64> {
+        y.iter()
+            .enumerate()
+            .map(|(i, yi)| yi - self.predict(i as f64))
+            .collect()
+    }
 }
 
 /// OLS fit of `y` on `t`. `None` if the lengths differ, N < 2, `t` is constant or the
 /// result is not finite. Cost O(N).
 pub fn ols(t: &[f64], y: &[f64]) -> Option<LinearFit> {
-    let n = t.len();
-    if n != y.len() || n < 2 {
+    if t.len() != y.len() || t.len() < 2 {
         return None;
     }
-    let tm = mean(t)?;
+    ols_from(t.iter().copied(), mean(t)?, y)
+}
+
+/// [`ols`] of `y` on its row numbers 0, 1, …, N−1, without a column of them: the same
+/// fit to the last bit (their mean, (N−1)/2, is exact in floating point).
+pub fn ols_on_rows(y: &[f64]) -> Option<LinearFit> {
+    let n = y.len();
+    if n < 2 {
+        return None;
+    }
+    ols_from((0..n).map(|i| i as f64), (n - 1) as f64 / 2.0, y)
+}
+
+/// The fit of `y` on the abscissas `t` (as many as `y`), whose mean is `tm`.
+fn ols_from(t: impl Iterator<Item = f64> + Clone, tm: f64, y: &[f64]) -> Option<LinearFit> {
+    let n = y.len();
     let ym = mean(y)?;
     let (mut stt, mut sty, mut syy) = (0.0, 0.0, 0.0);
-    for (ti, yi) in t.iter().zip(y) {
+    for (ti, yi) in t.clone().zip(y) {
         let dt = ti - tm;
         let dy = yi - ym;
         stt += dt * dt;
@@ -74,7 +96,6 @@ pub fn ols(t: &[f64], y: &[f64]) -> Option<LinearFit> {
     let slope = finite(sty / stt)?;
     let intercept = finite(ym - slope * tm)?;
     let rss: f64 = t
-        .iter()
         .zip(y)
         .map(|(ti, yi)| {
             let r = (yi - ym) - slope * (ti - tm);
@@ -170,6 +191,21 @@ pub fn ols_no_intercept(x: &[f64], y: &[f64]) -> Option<NoInterceptFit> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// On row numbers the fit needs no column of them: bit for bit the fit on the column.
+    #[test]
+    fn the_fit_on_row_numbers_is_the_fit_on_a_column_of_them() {
+        for n in [2usize, 3, 1001, 4096, 100_003] {
+            let y: Vec<f64> = (0..n)
+                .map(|i| ((i as f64 * 0.618_033_988_749_895).fract() - 0.5) * 3.0 + 1e-3 * i as f64)
+                .collect();
+            let rows: Vec<f64> = (0..n).map(|i| i as f64).collect();
+            let (a, b) = (ols(&rows, &y).unwrap(), ols_on_rows(&y).unwrap());
+            assert_eq!(a, b, "n = {n}");
+            assert_eq!(a.residuals(&rows, &y), b.residuals_on_rows(&y));
+        }
+        assert!(ols_on_rows(&[1.0]).is_none());
+    }
 
     #[test]
     fn exact_line_and_edges() {
