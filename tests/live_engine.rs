@@ -39,6 +39,17 @@ fn log(rows: u64) -> Vec<u8> {
     text
 }
 
+/// An analysed run with no follower: its rows are handed over with `push_lines`.
+fn fed_by_hand(keep_rows: usize) -> LiveRun {
+    LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
+        ParseOptions::default(),
+        options().analysis,
+        keep_rows,
+    )
+}
+
 /// Applies events until `done` holds.
 fn pump(live: &mut Live, rx: &FollowReceiver, done: impl Fn(&Live) -> bool) {
     let deadline = Instant::now() + PATIENCE;
@@ -148,13 +159,7 @@ fn a_file_that_does_not_exist_yet_is_waited_for() {
 
 #[test]
 fn a_run_fed_by_hand_needs_no_thread() {
-    let mut run = LiveRun::new(
-        RunId(0),
-        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
-        ParseOptions::default(),
-        options().analysis,
-        2000,
-    );
+    let mut run = fed_by_hand(2000);
     let text = log(300);
     run.push_lines(&text, 100.0);
     assert!(run.analyse());
@@ -263,13 +268,7 @@ fn runs_added_with_their_own_analysis_options_keep_them() {
 /// every `REFRESH_SECONDS`), so that a slow run's statistics are not hours old.
 #[test]
 fn a_quiet_run_has_statistics_of_every_row_read() {
-    let mut run = LiveRun::new(
-        RunId(0),
-        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
-        ParseOptions::default(),
-        options().analysis,
-        1_000_000,
-    );
+    let mut run = fed_by_hand(1_000_000);
     let text = log(1030);
     let lines: Vec<&[u8]> = text.split_inclusive(|&b| b == b'\n').collect();
     let count = |run: &LiveRun| {

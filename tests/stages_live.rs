@@ -17,8 +17,8 @@ use plateau::config::Settings;
 use plateau::follow::{FollowOptions, SystemClock};
 use plateau::live::{self, Live, LiveOptions, LiveRun, RunId, RunSource, RunSpec};
 use plateau::parse::ParseOptions;
-use plateau::scenario::stages::{five_stage_logs, StagePlan};
-use plateau::stages::{StageKind, StageRecord};
+use plateau::scenario::stages::{five_stage_logs, StageLogs, StagePlan};
+use plateau::stages::{StageKind, StageRecord, StagedRun};
 
 const PATIENCE: Duration = Duration::from_secs(30);
 
@@ -38,16 +38,29 @@ fn live_options(dir: &Path) -> LiveOptions {
     }
 }
 
-fn report_stages(files: &[std::path::PathBuf]) -> Vec<StageRecord> {
-    analyse_run(
+/// What `plateau report` (with `--chain` for several files) makes of finished files.
+fn report_of(files: &[std::path::PathBuf]) -> (plateau::report::Report, StagedRun) {
+    let (report, staged, _) = analyse_run(
         files,
         &InputArgs::default(),
         &AlertArgs::default(),
         &StageArgs::default(),
     )
-    .unwrap()
-    .0
-    .stages
+    .unwrap();
+    (report, staged)
+}
+
+fn report_stages(files: &[std::path::PathBuf]) -> Vec<StageRecord> {
+    report_of(files).0.stages
+}
+
+/// The five-stage preparation of `plan` written as one log, `prep.log`, in a new folder.
+fn written_prep(plan: &StagePlan) -> (StageLogs, tempfile::TempDir, std::path::PathBuf) {
+    let logs = five_stage_logs(plan);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("prep.log");
+    std::fs::write(&path, &logs.one_log).unwrap();
+    (logs, dir, path)
 }
 
 fn kinds(stages: &[StageRecord]) -> Vec<StageKind> {
@@ -58,10 +71,7 @@ fn kinds(stages: &[StageRecord]) -> Vec<StageKind> {
 /// after each: the current stage follows the writing, and the final list is the report's.
 #[test]
 fn a_followed_staged_log_ends_with_the_reports_stage_list() {
-    let logs = five_stage_logs(&StagePlan::default());
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("prep.log");
-    std::fs::write(&path, &logs.one_log).unwrap();
+    let (logs, dir, path) = written_prep(&StagePlan::default());
     let expected = report_stages(std::slice::from_ref(&path));
     assert_eq!(expected.len(), 5, "{expected:#?}");
 
@@ -107,10 +117,7 @@ fn a_followed_staged_log_ends_with_the_reports_stage_list() {
 /// The same through the live engine, from a file on disk: a real follower, the report's list.
 #[test]
 fn the_live_engine_judges_a_file_it_follows() {
-    let logs = five_stage_logs(&StagePlan::default());
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("prep.log");
-    std::fs::write(&path, &logs.one_log).unwrap();
+    let (logs, dir, path) = written_prep(&StagePlan::default());
     let expected = report_stages(std::slice::from_ref(&path));
     let options = live_options(dir.path());
     let (mut live, rx) = Live::start(options, Arc::new(SystemClock)).unwrap();
@@ -318,17 +325,8 @@ fn follow_in_chunks(path: &Path, log: &str, keep_rows: usize) -> LiveRun {
 /// stages before it in the same segment.
 #[test]
 fn a_followed_preparation_has_the_production_statistics_of_report() {
-    let logs = five_stage_logs(&StagePlan::default());
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("prep.log");
-    std::fs::write(&path, &logs.one_log).unwrap();
-    let (_, staged, _) = analyse_run(
-        std::slice::from_ref(&path),
-        &InputArgs::default(),
-        &AlertArgs::default(),
-        &StageArgs::default(),
-    )
-    .unwrap();
+    let (logs, _dir, path) = written_prep(&StagePlan::default());
+    let (_, staged) = report_of(std::slice::from_ref(&path));
     let expected = production_of(&staged.analysis);
     let production = staged.stages.last().unwrap();
     assert_eq!(production.kind, StageKind::Production);
@@ -364,17 +362,8 @@ fn a_folded_preparation_keeps_its_stages_and_its_production_statistics() {
         prod_rows: 9_000,
         ..StagePlan::default()
     };
-    let logs = five_stage_logs(&plan);
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("prep.log");
-    std::fs::write(&path, &logs.one_log).unwrap();
-    let (_, staged, _) = analyse_run(
-        std::slice::from_ref(&path),
-        &InputArgs::default(),
-        &AlertArgs::default(),
-        &StageArgs::default(),
-    )
-    .unwrap();
+    let (logs, _dir, path) = written_prep(&plan);
+    let (_, staged) = report_of(std::slice::from_ref(&path));
     let (expected_onset, expected) = production_of(&staged.analysis);
 
     let keep = plateau::fold::MIN_KEEP_ROWS;

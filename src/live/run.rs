@@ -219,6 +219,20 @@ fn time_new_alerts(analyzer: &Analyzer, arrivals: &[f64], times: &mut Vec<f64>) 
     }
 }
 
+/// Brings the analysis of `a` up to `table` (`ended`: the input is over: the last rows are
+/// judged as a finished file's) and gives its new alerts their arrival times.
+fn update_analysis(
+    a: &mut Analysing,
+    table: &RunTable,
+    arrivals: &[f64],
+    ended: bool,
+    alert_times: &mut Vec<f64>,
+) {
+    let analysis = a.analyzer.update(table, ended, Some(arrivals), ended);
+    a.latest = Some(analysis);
+    time_new_alerts(&a.analyzer, arrivals, alert_times);
+}
+
 /// Seconds, at least, between two refreshes of a quiet run's statistics (a hundred runs
 /// that each write a row every two seconds would otherwise be analysed again at every row).
 pub const REFRESH_SECONDS: f64 = 10.0;
@@ -405,14 +419,8 @@ impl LiveRun {
         if !a.analyzer.set_stage_start(start) {
             return;
         }
-        let analysis = a.analyzer.update(
-            self.parser.table(),
-            self.ended,
-            Some(&self.arrivals),
-            self.ended,
-        );
-        a.latest = Some(analysis);
-        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        let table = self.parser.table();
+        update_analysis(a, table, &self.arrivals, self.ended, &mut self.alert_times);
     }
 
     pub fn id(&self) -> RunId {
@@ -726,14 +734,8 @@ impl LiveRun {
         let Some(a) = &mut self.analysing else {
             return false;
         };
-        let analysis = a.analyzer.update(
-            self.parser.table(),
-            self.ended,
-            Some(&self.arrivals),
-            self.ended,
-        );
-        a.latest = Some(analysis);
-        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        let table = self.parser.table();
+        update_analysis(a, table, &self.arrivals, self.ended, &mut self.alert_times);
         self.judge_stages();
         let Some(a) = &mut self.analysing else {
             return false;
@@ -761,11 +763,8 @@ impl LiveRun {
         self.parser.finish();
         self.ended = true;
         let a = self.analysing.as_mut()?;
-        let analysis = a
-            .analyzer
-            .update(self.parser.table(), true, Some(&self.arrivals), true);
-        a.latest = Some(analysis);
-        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        let table = self.parser.table();
+        update_analysis(a, table, &self.arrivals, true, &mut self.alert_times);
         self.judge_stages();
         self.version += 1;
         self.analysis()
@@ -837,9 +836,7 @@ impl LiveRun {
             return false;
         }
         a.analyzer.recompute_at_next_update();
-        let analysis = a.analyzer.update(table, false, Some(&self.arrivals), false);
-        a.latest = Some(analysis);
-        time_new_alerts(&a.analyzer, &self.arrivals, &mut self.alert_times);
+        update_analysis(a, table, &self.arrivals, false, &mut self.alert_times);
         self.refreshed_at = Some(now);
         self.version += 1;
         true
