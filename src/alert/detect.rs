@@ -174,7 +174,9 @@ fn window_stats(
     };
     let mut acc = Sums::default();
     let mut stats: Vec<Option<(f64, f64, f64)>> = Vec::with_capacity(end.saturating_sub(start));
-    let first = start.saturating_sub(w - 1).max(input.start_row);
+    // The window before row `start`: the `w` rows before it, as the loop below leaves it
+    // after row `start − 1` (its first step adds row `start` and removes row `start − w`).
+    let first = start.saturating_sub(w).max(input.start_row);
     for i in first..start {
         add(&mut acc, i, 1.0);
     }
@@ -661,6 +663,50 @@ mod tests {
         assert_eq!(a[0].kind, AlertKind::TemperatureOffTarget);
         assert!(a[0].value.unwrap() < 295.0);
         assert!(a[0].message.contains("below"));
+    }
+
+    /// A followed run is scanned a few rows at a time: the window statistics from any
+    /// later start are those of the scan from the first row (the window before the start is
+    /// rebuilt whole). A window rebuilt one row short once dropped a row it never held: a
+    /// wrong mean and a standard error of zero, and false alarms while following.
+    #[test]
+    fn window_statistics_do_not_depend_on_where_a_scan_starts() {
+        let (v, t, _) = series(600, |i| 1.0 + 65.0 * noise(i));
+        let target = Target::constant(1.0);
+        let input = OffTargetInput {
+            kind: AlertKind::PressureOffTarget,
+            column: "pressure",
+            unit: "bar",
+            values: &v,
+            times: &t,
+            target: &target,
+            tolerance: 50.0,
+            inefficiency: 1.5,
+            sd: None,
+            start_row: 40,
+            row_offset: 0,
+        };
+        let w = 11;
+        let whole = window_stats(&input, 40, v.len(), w, 1.5);
+        for start in [41, 45, 51, 52, 100, 333, 599] {
+            let part = window_stats(&input, start, v.len(), w, 1.5);
+            for (i, (a, b)) in part.iter().zip(&whole[start - 40..]).enumerate() {
+                match (a, b) {
+                    (Some(a), Some(b)) => {
+                        assert!(
+                            (a.0 - b.0).abs() < 1e-9,
+                            "start {start}, row {i}: {a:?} {b:?}"
+                        );
+                        assert!(
+                            (a.2 - b.2).abs() < 1e-9,
+                            "start {start}, row {i}: {a:?} {b:?}"
+                        );
+                    }
+                    (None, None) => {}
+                    _ => panic!("start {start}, row {i}: {a:?} vs {b:?}"),
+                }
+            }
+        }
     }
 
     #[test]
