@@ -536,6 +536,22 @@ pub struct RunTable {
     pub partial_line: Option<PartialLine>,
     /// Mapping problems worth telling the user (each once).
     pub warnings: Vec<String>,
+    /// Names with a number in self-named rows (JSON objects, `name=value` pairs) that are
+    /// not columns: first seen after the layout was set from the log's start, with the line
+    /// each was first seen on (at most [`LATER_NAMES_KEPT`]). A whole file is read again
+    /// with them as columns (`commands::load`); a followed run says they are not read.
+    pub later_names: Vec<LaterName>,
+}
+
+/// Names kept in [`RunTable::later_names`].
+pub const LATER_NAMES_KEPT: usize = 32;
+
+/// A name of a self-named row first seen after the layout was set.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct LaterName {
+    pub name: String,
+    /// Line (1-based) of the first row that has it.
+    pub line: u64,
 }
 
 impl RunTable {
@@ -560,6 +576,7 @@ impl RunTable {
             lines: self.lines,
             partial_line: self.partial_line,
             warnings: self.warnings.clone(),
+            later_names: self.later_names.clone(),
         }
     }
 
@@ -575,6 +592,18 @@ impl RunTable {
             .flat_map(|s| &s.restarts)
             .map(|r| r.rows_replaced)
             .sum()
+    }
+
+    /// Notes `name`, first seen at `line` in a self-named row, that is not a column.
+    pub fn note_later_name(&mut self, name: &str, line: u64) {
+        if self.later_names.len() < LATER_NAMES_KEPT
+            && !self.later_names.iter().any(|n| n.name == name)
+        {
+            self.later_names.push(LaterName {
+                name: name.to_string(),
+                line,
+            });
+        }
     }
 
     /// Records a skipped line (keeps the first [`SKIPPED_KEPT`]).

@@ -234,3 +234,73 @@ fn folded_rows_without_a_value_are_left_out_of_the_block_summaries() {
         }
     }
 }
+
+/// JSON rows whose pressure and volume are written only from a later stage on (constant
+/// pressure after constant volume), first seen far past the start the layout is guessed
+/// from (256 KiB): a whole file is read again with them as columns, so the later stage's
+/// pressure and volume are analysed, each with a value in exactly the rows that wrote it.
+#[test]
+fn names_first_seen_late_in_a_file_are_columns() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("late.jsonl");
+    let mut rng = Rng::new(11);
+    let (nvt, npt) = (4000usize, 3000usize);
+    let mut text = String::new();
+    for r in 0..nvt + npt {
+        let t = 300.0 + 2.0 * rng.normal();
+        let mut fields = vec![
+            format!("\"step\": {}", r * 100),
+            format!("\"time\": {:.2}", r as f64 * 0.2),
+            format!("\"temperature\": {t:.4}"),
+            format!("\"potential\": {:.3}", -41_000.0 + 40.0 * rng.normal()),
+        ];
+        if r >= nvt {
+            fields.push(format!("\"pressure\": {:.3}", 1.0 + 150.0 * rng.normal()));
+            fields.push(format!("\"volume\": {:.5}", 27.0 + 0.05 * rng.normal()));
+        }
+        text.push_str(&format!("{{{}}}\n", fields.join(", ")));
+    }
+    let first_late = text.lines().position(|l| l.contains("pressure")).unwrap();
+    let offset: usize = text.lines().take(first_late).map(|l| l.len() + 1).sum();
+    assert!(
+        offset > 256 * 1024,
+        "the new names must come after the guessed start"
+    );
+    std::fs::write(&path, &text).unwrap();
+
+    let (_, table) = plateau::commands::load(&path, &plateau::cli::InputArgs::default()).unwrap();
+    assert!(table.later_names.is_empty(), "{:?}", table.later_names);
+    let rows: usize = table.rows();
+    assert_eq!(rows, nvt + npt);
+    for name in ["pressure", "volume"] {
+        let col = table
+            .segments
+            .iter()
+            .flat_map(|s| &s.columns)
+            .find(|c| c.spec.name == name)
+            .unwrap_or_else(|| panic!("no {name} column"));
+        let present = col.values().iter().filter(|v| !is_absent(**v)).count();
+        assert_eq!(present, npt, "{name}");
+    }
+}
+
+/// The same rows parsed with the layout of the start only (as a followed run or a pipe
+/// is): the later names are listed with the line each was first seen on.
+#[test]
+fn names_first_seen_late_are_listed_with_their_line() {
+    let mut text = String::new();
+    for r in 0..50 {
+        text.push_str(&format!("step={} temperature=300.{r}\n", r * 10));
+    }
+    text.push_str("step=500 temperature=301 pressure=1.5\n");
+    let start = text.rfind("step=500").unwrap();
+    let mut options = ParseOptions::default();
+    plateau::parse::sniff::sniff_layout(&text.as_bytes()[..start], &options).apply(&mut options);
+    assert!(options.records.is_some(), "self-named rows");
+    let mut parser = plateau::parse::LogParser::new(options);
+    parser.feed(text.as_bytes());
+    parser.finish();
+    let later = &parser.table().later_names;
+    assert_eq!(later.len(), 1, "{later:?}");
+    assert_eq!((later[0].name.as_str(), later[0].line), ("pressure", 51));
+}

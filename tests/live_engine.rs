@@ -307,3 +307,42 @@ fn a_quiet_run_has_statistics_of_every_row_read() {
     run.check_stall(now + live::REFRESH_SECONDS);
     assert_eq!(count(&run), 1011);
 }
+
+/// A followed run of `name=value` rows whose layout was set from its first lines: a name
+/// first written later is not read, and the run says so once, naming the line.
+#[test]
+fn a_name_first_written_later_is_told_once_while_following() {
+    let mut text = String::new();
+    for r in 0..60 {
+        text.push_str(&format!(
+            "step={} time={}.0 temperature=300.{r}\n",
+            r * 10,
+            r
+        ));
+    }
+    let mut parse = ParseOptions::default();
+    plateau::parse::sniff::sniff_layout(text.as_bytes(), &parse).apply(&mut parse);
+    assert!(parse.records.is_some());
+    let mut run = LiveRun::new(
+        RunId(0),
+        RunSpec::new(RunSource::Path(Path::new("x.log").to_path_buf())),
+        parse,
+        options().analysis,
+        2000,
+    );
+    run.push_lines(text.as_bytes(), 100.0);
+    run.analyse();
+    assert!(run.take_later_names().is_empty());
+    run.push_lines(b"step=600 time=60.0 temperature=301 pressure=1.5\n", 101.0);
+    run.push_lines(b"step=610 time=61.0 temperature=301 pressure=2.5\n", 102.0);
+    run.analyse();
+    let told = run.take_later_names();
+    assert_eq!(told.len(), 1, "{told:?}");
+    assert!(
+        told[0].contains("line 61") && told[0].contains("pressure"),
+        "{told:?}"
+    );
+    assert!(run.feed().notices.iter().any(|n| n.text == told[0]));
+    assert!(run.take_later_names().is_empty(), "told once");
+    assert_eq!(run.rows_seen(), 62, "the rows themselves are read");
+}

@@ -58,7 +58,21 @@ pub fn load(file: &Path, input: &InputArgs) -> Result<(Settings, RunTable), Erro
         meter.observe(read, total);
     });
     meter.finish();
-    let table = table?;
+    let mut table = table?;
+    // Self-named rows (JSON objects, `name=value` pairs) whose names first appear after the
+    // start the layout was guessed from (a stage that logs the pressure once the barostat is
+    // on): read the file again with those names as columns too. Not for a pipe, which
+    // cannot be read twice: its later names stay listed in the table.
+    let regular = std::fs::metadata(file).is_ok_and(|m| m.is_file());
+    if let Some(records) = settings.parse.records.as_mut().filter(|_| regular) {
+        if !table.later_names.is_empty() {
+            records
+                .names
+                .extend(table.later_names.iter().map(|n| n.name.clone()));
+            let again = crate::ingest::open_input(file, 0)?;
+            table = again.read_observed(settings.parse.clone(), &mut |_, _| {})?;
+        }
+    }
     Ok((settings, table))
 }
 

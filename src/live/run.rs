@@ -169,6 +169,10 @@ pub struct LiveRun {
     stage_hook: Option<StageHook>,
     /// Wall-clock second of the last refresh of the statistics of a quiet run.
     refreshed_at: Option<f64>,
+    /// Later names of self-named rows already told about, and the sentences not yet taken
+    /// (see [`LiveRun::take_later_names`]).
+    later_told: usize,
+    later_untaken: Vec<String>,
     /// The files of a chain (`--chain`), one live at a time.
     chain: Option<ChainFollow>,
 }
@@ -279,6 +283,8 @@ impl LiveRun {
             version: 0,
             stage_hook,
             refreshed_at: None,
+            later_told: 0,
+            later_untaken: Vec::new(),
             chain: None,
         }
     }
@@ -698,6 +704,7 @@ impl LiveRun {
     /// replaced file as a new file, as `export` does).
     pub fn start_over(&mut self) {
         self.parser.reset();
+        self.later_told = 0;
         self.arrivals.clear();
         self.history = History::default();
         self.alert_times.clear();
@@ -737,6 +744,9 @@ impl LiveRun {
         let table = self.parser.table();
         update_analysis(a, table, &self.arrivals, self.ended, &mut self.alert_times);
         self.judge_stages();
+        if self.parser.table().later_names.len() > self.later_told {
+            self.tell_later_names();
+        }
         let Some(a) = &mut self.analysing else {
             return false;
         };
@@ -840,6 +850,40 @@ impl LiveRun {
         self.refreshed_at = Some(now);
         self.version += 1;
         true
+    }
+
+    /// The sentences telling, once per name, that a name of self-named rows (JSON objects,
+    /// `name=value` pairs) first seen after the layout was set from the first lines is not
+    /// read while following (each is also a notice of the run), not taken before.
+    pub fn take_later_names(&mut self) -> Vec<String> {
+        std::mem::take(&mut self.later_untaken)
+    }
+
+    /// Makes a notice of each later name not told yet.
+    fn tell_later_names(&mut self) {
+        let later = &self.parser.table().later_names;
+        let new: Vec<String> = later
+            .get(self.later_told..)
+            .unwrap_or_default()
+            .iter()
+            .map(|n| {
+                format!(
+                    "line {}: `{}` first appears here, after the layout was set from the \
+                     first lines; it is not read while following (`plateau report` on the \
+                     file reads it)",
+                    n.line, n.name
+                )
+            })
+            .collect();
+        self.later_told = later.len();
+        let now = super::now_seconds();
+        for text in &new {
+            self.feed.notice(now, text.clone());
+        }
+        if !new.is_empty() {
+            self.version += 1;
+        }
+        self.later_untaken.extend(new);
     }
 
     /// The sentence telling that older rows are folded, the first time it applies.

@@ -94,6 +94,10 @@ pub struct BlockResult {
     pub lines: u64,
     /// Bytes of the complete lines.
     pub bytes: u64,
+    /// Names with a number in a self-named row that are not among the record names (first
+    /// seen after the layout was set), with the block line each was first seen on; at most
+    /// [`crate::table::LATER_NAMES_KEPT`].
+    pub(crate) later_names: Vec<(String, u64)>,
 }
 
 impl BlockResult {
@@ -107,6 +111,7 @@ impl BlockResult {
         self.by_field.clear();
         self.lines = 0;
         self.bytes = 0;
+        self.later_names.clear();
     }
 
     /// Rows of numbers found (before the merge checks their field counts).
@@ -452,17 +457,28 @@ fn record_row(t: &[u8], line: u64, records: &Records, out: &mut BlockResult) -> 
     let start = out.values.len();
     out.values.resize(start + n, crate::table::ABSENT);
     let mut found = 0usize;
+    let mut unknown: Vec<String> = Vec::new();
     record_fields(t, records.kind, |name, x| {
-        if let Some(k) = records.names.iter().position(|c| c.as_bytes() == name) {
-            if let Some(slot) = out.values.get_mut(start + k) {
-                *slot = x;
-                found += 1;
+        match records.names.iter().position(|c| c.as_bytes() == name) {
+            Some(k) => {
+                if let Some(slot) = out.values.get_mut(start + k) {
+                    *slot = x;
+                    found += 1;
+                }
             }
+            None => unknown.push(String::from_utf8_lossy(name).into_owned()),
         }
     });
     if found == 0 {
         out.values.truncate(start);
         return false;
+    }
+    for name in unknown {
+        if out.later_names.len() < crate::table::LATER_NAMES_KEPT
+            && !out.later_names.iter().any(|(n, _)| *n == name)
+        {
+            out.later_names.push((name, line));
+        }
     }
     let fields = u32::try_from(n).unwrap_or(u32::MAX);
     out.note_row(fields, 0);

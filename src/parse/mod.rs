@@ -375,6 +375,9 @@ impl LogParser {
     /// [`pending_bytes`](Self::pending_bytes) is 0, as [`crate::ingest`] does).
     pub fn apply_block(&mut self, block: &BlockResult) {
         let base = self.lines_done;
+        for (name, line) in &block.later_names {
+            self.table.note_later_name(name, base + line + 1);
+        }
         let mut vpos = 0usize;
         let mut opos = 0usize;
         let mut at = 0usize;

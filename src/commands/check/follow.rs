@@ -86,9 +86,14 @@ fn emit_new(
     Ok(())
 }
 
-/// Tells the user once that older rows are folded (standard error).
+/// Tells the user once that older rows are folded, and that names of self-named rows
+/// first seen late are not read (standard error).
 fn tell_folding(run: &mut LiveRun) {
-    if let Some(line) = run.take_folding_note() {
+    let lines = run
+        .take_folding_note()
+        .into_iter()
+        .chain(run.take_later_names());
+    for line in lines.collect::<Vec<_>>() {
         let text = format!("{}: {line}", run_name(run));
         eprintln!("{}", crate::text::escape_control(&text));
     }
