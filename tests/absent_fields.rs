@@ -282,6 +282,25 @@ fn names_first_seen_late_in_a_file_are_columns() {
         let present = col.values().iter().filter(|v| !is_absent(**v)).count();
         assert_eq!(present, npt, "{name}");
     }
+    // The quantities written from row 4000 on start a stage there (planted): the report's
+    // production is the constant-pressure stage, the stage before has no volume to judge.
+    let (_, staged, _) = plateau::commands::report::analyse_run(
+        std::slice::from_ref(&path),
+        &plateau::cli::InputArgs::default(),
+        &plateau::cli::AlertArgs::default(),
+        &plateau::cli::StageArgs::default(),
+    )
+    .unwrap();
+    let stages = &staged.stages;
+    assert_eq!(stages.len(), 2, "{stages:#?}");
+    assert_eq!(stages[1].first_row as usize, nvt);
+    assert_eq!(
+        stages[1].started_by,
+        plateau::stages::StartReason::NewColumns
+    );
+    assert_eq!(stages[1].kind, plateau::stages::StageKind::Production);
+    assert_eq!(stages[0].conditions, None);
+    assert_eq!(stages[0].verdict, "equilibrated", "{:?}", stages[0]);
 }
 
 /// The same rows parsed with the layout of the start only (as a followed run or a pipe

@@ -83,7 +83,9 @@ impl Analyzer {
                 .get(..present.index(finite_end))
                 .unwrap_or(&[]);
             let is_observable = observable(c);
-            let (equilibration, mser, production) = if is_observable {
+            // A column with no value in these rows (written only in other stages) says
+            // nothing about them.
+            let (equilibration, mser, production) = if is_observable && !x.is_empty() {
                 let eq = stats::detect_equilibration(x);
                 let mser = stats::mser5(x).map(|mut m| {
                     m.row = present.row(m.row);

@@ -11,6 +11,12 @@
 //!   a new stage (constant pressure starts), and a constant run after a varying part starts
 //!   one too. Printed values of a varying volume hardly ever repeat that long (common
 //!   practice, no source).
+//! - **Columns present.** In rows that carry their own names (JSON objects, `name=value`
+//!   pairs) a quantity may be written only from some row on (the pressure once the barostat
+//!   is on) or only up to some row: a column without a value in its first (or last)
+//!   [`MIN_CONSTANT_ROWS`] rows or more, and in more than [`PRESENCE_GAP_FACTOR`] times its
+//!   usual gap between values, starts a stage where its values start (or after they stop). A
+//!   quantity written every k-th row only is no boundary.
 
 /// Relative tolerance on equal spacings (printed times carry rounding).
 pub const INTERVAL_TOLERANCE: f64 = 1e-3;
@@ -20,6 +26,36 @@ pub const MIN_INTERVAL_ROWS: usize = 5;
 /// Fewest rows of an exactly constant volume to call it constant (common practice, no
 /// source).
 pub const MIN_CONSTANT_ROWS: usize = 20;
+
+/// How many times its median gap between values a column's leading (or trailing) stretch
+/// without values must be to count as not written there (ours).
+pub const PRESENCE_GAP_FACTOR: usize = 4;
+
+/// Rows at which column `v` starts to be written after a leading stretch without values,
+/// or after which it is no longer written ([`crate::table::ABSENT`] marks a row without a
+/// value).
+pub fn presence_changes(v: &[f64]) -> Vec<usize> {
+    let present: Vec<usize> = (0..v.len())
+        .filter(|&i| v.get(i).is_some_and(|x| !crate::table::is_absent(*x)))
+        .collect();
+    let (Some(&first), Some(&last)) = (present.first(), present.last()) else {
+        return Vec::new();
+    };
+    let mut gaps: Vec<usize> = present.windows(2).map(|w| w[1] - w[0]).collect();
+    gaps.sort_unstable();
+    let usual = gaps.get(gaps.len() / 2).copied().unwrap_or(1).max(1);
+    let long =
+        |stretch: usize| stretch >= MIN_CONSTANT_ROWS && stretch > PRESENCE_GAP_FACTOR * usual;
+    let mut out = Vec::new();
+    if long(first) {
+        out.push(first);
+    }
+    let after = v.len() - 1 - last;
+    if long(after) {
+        out.push(last + 1);
+    }
+    out
+}
 
 /// Rows at which the output interval of `counter` (step or time) changes.
 pub fn interval_changes(counter: &[f64]) -> Vec<usize> {
@@ -125,6 +161,41 @@ mod tests {
         let mut v = vec![27.0; 120];
         v.extend((0..200).map(|i| 27.0 + 0.01 * ((i * 37 % 11) as f64 - 5.0)));
         assert_eq!(volume_changes(&v), vec![(120, VolumeChange::StartsToVary)]);
+    }
+
+    /// Planted: a pressure written from row 300 on (and every row after), a potential
+    /// written up to row 499 of 700; a pressure written only every 50th row, from row 49,
+    /// is no boundary.
+    #[test]
+    fn a_column_written_only_from_or_up_to_a_row() {
+        use crate::table::ABSENT;
+        let from: Vec<f64> = (0..700)
+            .map(|i| {
+                if i < 300 {
+                    ABSENT
+                } else {
+                    1.0 + (i % 7) as f64
+                }
+            })
+            .collect();
+        assert_eq!(presence_changes(&from), vec![300]);
+        let until: Vec<f64> = (0..700)
+            .map(|i| {
+                if i < 500 {
+                    -4.0e4 + (i % 5) as f64
+                } else {
+                    ABSENT
+                }
+            })
+            .collect();
+        assert_eq!(presence_changes(&until), vec![500]);
+        let sparse: Vec<f64> = (0..700)
+            .map(|i| if i % 50 == 49 { 1.0 } else { ABSENT })
+            .collect();
+        assert!(presence_changes(&sparse).is_empty());
+        assert!(presence_changes(&[ABSENT; 40]).is_empty());
+        let every_row: Vec<f64> = (0..700).map(|i| i as f64).collect();
+        assert!(presence_changes(&every_row).is_empty());
     }
 
     #[test]

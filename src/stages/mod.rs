@@ -208,6 +208,12 @@ fn inner_boundaries(seg: &Segment, rows: &Range<usize>) -> Vec<(usize, StartReas
             cuts.push((rows.start + r, StartReason::OutputInterval));
         }
     }
+    // A column of self-named rows written only from (or up to) some row.
+    for c in seg.columns.iter().filter(|c| c.absent > 0) {
+        for r in boundaries::presence_changes(slice(c, rows)) {
+            cuts.push((rows.start + r, StartReason::NewColumns));
+        }
+    }
     if let Some(v) = ensemble_column(seg) {
         for (r, change) in boundaries::volume_changes(slice(v, rows)) {
             let why = match change {
@@ -238,7 +244,9 @@ fn piece(
     start: StartReason,
     opts: &StageOptions,
 ) -> Piece {
-    let conditions = ensemble_column(seg).map(|v| {
+    // No conditions from a volume the piece has no value of (written only later).
+    let written = |v: &&Column| slice(v, &rows).iter().any(|x| !crate::table::is_absent(*x));
+    let conditions = ensemble_column(seg).filter(written).map(|v| {
         if boundaries::is_constant(slice(v, &rows)) {
             Conditions::ConstantVolume
         } else {
