@@ -11,6 +11,25 @@ use std::time::Duration;
 
 use assert_cmd::Command;
 
+/// `plateau check --follow --pid` on `file` while `child` writes it (or just runs); the
+/// output once it ended, and the child reaped.
+fn follow_until_exit(
+    child: &mut std::process::Child,
+    file: &std::path::Path,
+    timeout_s: u64,
+) -> std::process::Output {
+    let out = Command::cargo_bin("plateau")
+        .unwrap()
+        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
+        .arg(child.id().to_string())
+        .arg(file)
+        .timeout(Duration::from_secs(timeout_s))
+        .output()
+        .unwrap();
+    child.wait().unwrap();
+    out
+}
+
 fn fixture(name: &str) -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("tests/fixtures/alerts")
@@ -65,15 +84,7 @@ fn standard_input_in_an_undescribed_layout_is_read() {
     let file = dir.path().join("tagged.log");
     std::fs::write(&file, &tagged).unwrap();
     let mut child = Std::new("sleep").arg("1").spawn().unwrap();
-    let out = Command::cargo_bin("plateau")
-        .unwrap()
-        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
-        .arg(child.id().to_string())
-        .arg(&file)
-        .timeout(Duration::from_secs(120))
-        .output()
-        .unwrap();
-    child.wait().unwrap();
+    let out = follow_until_exit(&mut child, &file, 120);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains("finished (600 rows"), "{stderr}");
     for text in [json, tagged] {
@@ -144,15 +155,7 @@ fn until_reached_ends_the_watch() {
 #[test]
 fn pid_exit_ends_the_watch() {
     let mut child = Std::new("sleep").arg("1").spawn().unwrap();
-    let out = Command::cargo_bin("plateau")
-        .unwrap()
-        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
-        .arg(child.id().to_string())
-        .arg(fixture("healthy.log"))
-        .timeout(Duration::from_secs(120))
-        .output()
-        .unwrap();
-    child.wait().unwrap();
+    let out = follow_until_exit(&mut child, &fixture("healthy.log"), 120);
     assert_eq!(
         out.status.code(),
         Some(0),
@@ -189,15 +192,7 @@ fn rows_written_just_before_the_writer_exits_are_all_read() {
         live.display()
     );
     let mut child = Std::new("sh").args(["-c", &script]).spawn().unwrap();
-    let out = Command::cargo_bin("plateau")
-        .unwrap()
-        .args(["check", "--follow", "--stall-after", "1h", "--pid"])
-        .arg(child.id().to_string())
-        .arg(&live)
-        .timeout(Duration::from_secs(300))
-        .output()
-        .unwrap();
-    child.wait().unwrap();
+    let out = follow_until_exit(&mut child, &live, 300);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains(&format!("({rows} rows")), "{stderr}");
 }
